@@ -1,0 +1,75 @@
+/**
+ * Generic linear operators and matrix-function actions (numerics reference §6–7).
+ * Everything here is matrix-free and allocation-free per call: factories allocate their work arrays once.
+ */
+
+/** Counters that every operator keeps; the steppers and the CLI report them. */
+export interface OperatorCounters {
+  /** Operator applications (matrix-vector products) since creation. */
+  matvecs: number;
+  /** Global inner products (reductions over the whole vector) since creation. */
+  innerProducts: number;
+}
+
+export interface LinearOperator {
+  /** Length of the vectors it acts on. */
+  readonly n: number;
+  /** out = A x. Must not allocate. `out` and `x` never alias. */
+  apply(out: Float64Array, x: Float64Array): void;
+  /**
+   * Optional diagonal weights w of an inner product <a,b> = Σ w_j a_j b_j in which A is skew-adjoint
+   * (the linear-energy inner product of the wave operator). Krylov then builds a skew tridiagonal H.
+   */
+  readonly weights?: Float64Array;
+  /** Upper bound of the spectral radius (|λ| ≤ spectralBound) [1/s]; needed by Chebyshev. */
+  readonly spectralBound?: number;
+  /** True when the spectrum is known to lie on the imaginary axis (Chebyshev and rational backends need it). */
+  readonly skew?: boolean;
+  readonly counters: OperatorCounters;
+}
+
+export interface PhiStats {
+  /** Operator applications used by the last call. */
+  matvecs: number;
+  /** Global inner products used by the last call. */
+  innerProducts: number;
+  /** Time sub-steps taken by the last call. */
+  substeps: number;
+  /** A-posteriori error estimate of the last call (relative), NaN if the backend has none. */
+  errorEstimate: number;
+  /** Krylov space became invariant (the result is exact in it). */
+  happyBreakdown: boolean;
+}
+
+/**
+ * out = Σ_{k=0}^{p} τ^k φ_k(τ A) v[k], with φ_0 = exp (numerics reference §6.2).
+ * Steppers call it in increment form (v[0] = 0, tendencies in v[1..]), so mass stays exact.
+ * `out` must not alias any v[k].
+ */
+export interface PhiAction {
+  readonly name: string;
+  readonly stats: PhiStats;
+  apply(out: Float64Array, tau: number, v: readonly Float64Array[]): void;
+}
+
+/** Optional damping of the highest resolved frequencies (numerics reference §7.6); off by default. */
+export interface PhiFilter {
+  /** Cut-off angular frequency ω_c [1/s]; frequencies above it are damped. */
+  cutoff: number;
+  /** Exponent 2p of σ(iω) = exp(−κ (|ω|/ω_c)^{2p}). */
+  order: number;
+  /** κ; 36 puts σ at machine precision at ω_c. */
+  strength: number;
+}
+
+export type PhiBackendName = "krylov" | "taylor" | "chebyshev" | "substep" | "rational" | "dense";
+
+export interface PhiOptions {
+  /** Relative tolerance of the action. */
+  tol: number;
+  /** Highest φ index the caller will pass (length of v minus one). */
+  maxPhi: number;
+  /** Sub-steps of the substep backend (0 = choose from the spectral bound). */
+  substeps?: number;
+  filter?: PhiFilter;
+}
