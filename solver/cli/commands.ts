@@ -1,0 +1,19 @@
+import type { ParsedArgs } from "./args.js";
+import { MODES_USAGE, modesCommand } from "./modesCommand.js";
+import { RUN_USAGE, runCommand } from "./runCommand.js";
+import { SCENARIOS_USAGE, scenariosCommand } from "./scenariosCommand.js";
+
+export interface Command {
+  readonly usage: string;
+  readonly summary: string;
+  /** Flags that take no value. */
+  readonly flags?: readonly string[];
+  run(args: ParsedArgs, out: (s: string) => void, err: (s: string) => void): number | Promise<number>;
+}
+
+/** Every CLI command; a new command is one file plus one line here. */
+export const COMMANDS: Record<string, Command> = {
+  run: { usage: RUN_USAGE, summary: "run a scenario and report mass, energy, cost and stability", flags: ["quiet"], run: runCommand },
+  modes: { usage: MODES_USAGE, summary: "vertical modes of the layer stack and the RK4 time-step limit", run: modesCommand },
+  scenarios: { usage: SCENARIOS_USAGE, summary: "list the built-in scenarios", run: scenariosCommand },
+};
