@@ -1,0 +1,21 @@
+/** Small timing helpers for `npm run bench` (not a test: the machine is shared and noisy). */
+
+export interface Timing { best: number; median: number; runs: number }
+
+/** Time `fn` (one call = one unit of work) in `reps` repetitions of `inner` calls, after warm-up. */
+export function time(fn: () => void, o: { warmup?: number; reps?: number; inner?: number } = {}): Timing {
+  const warm = o.warmup ?? 5;
+  const reps = o.reps ?? 9;
+  const inner = o.inner ?? 5;
+  for (let i = 0; i < warm; i++) fn();
+  const t: number[] = [];
+  for (let r = 0; r < reps; r++) {
+    const t0 = performance.now();
+    for (let i = 0; i < inner; i++) fn();
+    t.push((performance.now() - t0) / inner);
+  }
+  t.sort((a, b) => a - b);
+  return { best: t[0], median: t[Math.floor(t.length / 2)], runs: reps * inner };
+}
+
+export const round = (v: number, digits = 4) => Number(v.toPrecision(digits));

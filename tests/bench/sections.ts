@@ -1,0 +1,7 @@
+/** Further benchmark sections; each adds one key to the JSON result. */
+export interface BenchSection {
+  key: string;
+  run(ctx: { log: (s: string) => void; quick: boolean }): Promise<unknown> | unknown;
+}
+
+export const EXTRA_SECTIONS: BenchSection[] = [];
