@@ -10,7 +10,11 @@ function help(): string {
 }
 
 /** Entry point; returns the exit code. Bad input → one line on stderr and exit 2, never a stack trace. */
-export async function main(argv: readonly string[], out = (s: string) => process.stdout.write(s + "\n"), err = (s: string) => process.stderr.write(s + "\n")): Promise<number> {
+export async function main(
+  argv: readonly string[],
+  out: (s: string) => void = (s) => { process.stdout.write(s + "\n"); },
+  err: (s: string) => void = (s) => { process.stderr.write(s + "\n"); },
+): Promise<number> {
   const [name, ...rest] = argv;
   if (!name || name === "help" || name === "--help" || name === "-h") {
     out(help());

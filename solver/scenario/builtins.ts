@@ -71,5 +71,5 @@ export type BuiltinName = (typeof BUILTIN_SCENARIOS)[number]["name"];
 
 export function builtinScenario(name: string): unknown | undefined {
   const s = BUILTIN_SCENARIOS.find((b) => b.name === name);
-  return s ? structuredClone(s) : undefined;
+  return s ? JSON.parse(JSON.stringify(s)) : undefined;
 }

@@ -4,4 +4,6 @@ export interface BenchSection {
   run(ctx: { log: (s: string) => void; quick: boolean }): Promise<unknown> | unknown;
 }
 
-export const EXTRA_SECTIONS: BenchSection[] = [];
+import { scalingSection } from "./scaling";
+
+export const EXTRA_SECTIONS: BenchSection[] = [scalingSection];
