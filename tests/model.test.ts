@@ -104,6 +104,45 @@ describe("conservation", () => {
     });
   }
 
+  it("wind stress does work Σ l d τ_e u_e / ρ0 on the top layer and nothing else (energy budget, numerics reference §1.4)", () => {
+    const run = createRun(scenario({
+      mesh: { type: "basin-hex", shape: "rectangle", width: 300000, height: 240000, spacing: 20000 },
+      layers: threeLayers, physics: { f0: 1e-4, beta: 2e-11, wind: { type: "zonal-cosine", amplitude: 0.15 } },
+    }));
+    perturb(run, 21, 1, 0.1);
+    const m = run.mesh;
+    const tau = run.model.params.windStress!;
+    // a top-layer flow partly along the wind, so that the wind does clear work
+    for (let e = 0; e < m.nEdges; e++) run.state[run.model.layout.uOffset + e] += 2 * tau[e];
+    const { rate, scale } = energyTendency(run.model, run.state);
+    let work = 0;
+    for (let e = 0; e < m.nEdges; e++) work += (m.edgeLength[e] * m.edgeCellDistance[e] * tau[e] * run.state[run.model.layout.uOffset + e]) / run.model.params.rho0;
+    expect(work).toBeGreaterThan(1e-5 * scale);
+    expect(Math.abs(rate - work) / scale).toBeLessThan(1e-13);
+  });
+
+  it("the vector Laplacian dissipates: Σ l d u ∇²u = −Σ A δ² − Σ A_v ζ² (numerics reference §3.7)", async () => {
+    const { vectorLaplacian } = await import("../solver/model/terms");
+    const { divergence, curl } = await import("../solver/mesh/operators");
+    const run = createRun(scenario({ mesh: { type: "periodic-hex", cellsX: 12, cellsY: 12, spacing: 20000, jitter: 0.08, seed: 2 } }));
+    perturb(run, 4, 0, 1);
+    const m = run.mesh;
+    const u = run.state.subarray(run.model.layout.uOffset, run.model.layout.uOffset + m.nEdges);
+    const lap = new Float64Array(m.nEdges);
+    vectorLaplacian(lap, m, u, 0, new Float64Array(m.nCells), new Float64Array(m.nVertices));
+    const div = new Float64Array(m.nCells);
+    const vort = new Float64Array(m.nVertices);
+    divergence(div, m, u);
+    curl(vort, m, u);
+    let lhs = 0;
+    for (let e = 0; e < m.nEdges; e++) lhs += m.edgeLength[e] * m.edgeCellDistance[e] * u[e] * lap[e];
+    let rhs = 0;
+    for (let i = 0; i < m.nCells; i++) rhs -= m.cellArea[i] * div[i] ** 2;
+    for (let v = 0; v < m.nVertices; v++) rhs -= m.vertexArea[v] * vort[v] ** 2;
+    expect(lhs).toBeLessThan(0);
+    expect(Math.abs(lhs - rhs) / Math.abs(rhs)).toBeLessThan(1e-12);
+  });
+
   it("the energy tendency is negative with drag and viscosity (dissipation identity, numerics reference §3.7)", () => {
     const run = createRun(scenario({ layers: threeLayers, physics: { f0: 1e-4, bottomDrag: 1e-5, viscosity: 1000 } }));
     perturb(run, 3, 5, 0.3);
