@@ -72,4 +72,6 @@ export interface PhiOptions {
   /** Sub-steps of the substep backend (0 = choose from the spectral bound). */
   substeps?: number;
   filter?: PhiFilter;
+  /** Largest Krylov basis (memory (maxKrylovDim+1)·n numbers) before the krylov backend sub-steps; default 100. */
+  maxKrylovDim?: number;
 }
