@@ -1,0 +1,263 @@
+import { SolverError } from "../errors.js";
+import { Run } from "../driver/run.js";
+import type { BuiltScenario } from "../scenario/build.js";
+import type { StepperSpec } from "../scenario/schema.js";
+import { getMethod } from "../time/registry.js";
+import { defaultLabel, StudyTracker, type StudyHooks } from "./common.js";
+import { contentHash } from "./hash.js";
+import { physicsContent } from "./reference.js";
+import { checkParts, shardItems, type PartHeader, type Shard } from "./shard.js";
+
+/** A stepper without its Δt: the method, its options and an optional label. */
+export interface StepperConfig { method: string; label?: string; dt?: number; [option: string]: unknown }
+
+export interface StabilityOptions {
+  /** Simulated length of every trial [s]; default min(scenario duration, 300 × the RK4 gravity-wave limit). */
+  duration?: number;
+  /** Every trial runs at least this many steps, even at large Δt (default 50). */
+  minSteps?: number;
+  /** Relative width of the final bracket, (hi − lo)/lo (default 0.01). */
+  tolerance?: number;
+  /** Largest allowed relative energy growth over the energy scale (default 0.1). */
+  energyGrowth?: number;
+  /** First Δt tried [s]; default the RK4 limit scaled by the method's imaginary-axis bound (or the RK4 limit). */
+  startDt?: number;
+  /** At most this many doublings or halvings while bracketing (default 12). */
+  maxBracketSteps?: number;
+}
+
+export interface StabilityTrial {
+  dt: number;
+  ratioToRk4: number;
+  outcome: "stable" | "unstable";
+  reason: string;
+  steps: number;
+  simulatedSeconds: number;
+  /** max_t E(t)/S − 1 with S the energy scale (see `stabilitySearch`); null if the run blew up first. */
+  energyGrowth: number | null;
+}
+
+export interface StabilityResult {
+  method: string;
+  label: string;
+  /** Largest Δt that passed [s]; 0 if none did. */
+  maxStableDt: number;
+  /** maxStableDt divided by the scenario's RK4 gravity-wave limit 2√2/ω_max. */
+  ratioToRk4: number;
+  rk4DtLimit: number;
+  /** False if no unstable Δt was found (the limit is at least maxStableDt) or no stable one. */
+  bracketed: boolean;
+  tolerance: number;
+  duration: number;
+  energyGrowthThreshold: number;
+  /** "initial" (E0) or "reference-run" (largest energy of an RK4 run at half its limit, for forced or resting starts). */
+  energyScale: "initial" | "reference-run";
+  trials: StabilityTrial[];
+}
+
+export interface ResolvedStabilityOptions {
+  duration: number;
+  minSteps: number;
+  tolerance: number;
+  energyGrowth: number;
+  startDt?: number;
+  maxBracketSteps: number;
+}
+
+export function resolveStabilityOptions(run: Run, o: StabilityOptions = {}): ResolvedStabilityOptions {
+  const s = run.built.scenario;
+  const r = {
+    duration: o.duration ?? Math.min(s.duration, 300 * run.rk4DtLimit()),
+    minSteps: o.minSteps ?? 50,
+    tolerance: o.tolerance ?? 0.01,
+    energyGrowth: o.energyGrowth ?? 0.1,
+    startDt: o.startDt,
+    maxBracketSteps: o.maxBracketSteps ?? 12,
+  };
+  if (!(r.duration > 0 && Number.isFinite(r.duration))) throw new SolverError("bad-input", `--duration: must be > 0, got ${r.duration}`, "--duration");
+  if (!(r.tolerance > 0 && r.tolerance < 1)) throw new SolverError("bad-input", `--tolerance: the relative tolerance of the limit must lie in (0, 1), got ${r.tolerance}`, "--tolerance");
+  if (!(r.energyGrowth > 0 && Number.isFinite(r.energyGrowth))) throw new SolverError("bad-input", `--energy-growth: must be > 0, got ${r.energyGrowth}`, "--energy-growth");
+  if (!(Number.isInteger(r.minSteps) && r.minSteps >= 1)) throw new SolverError("bad-input", `--min-steps: must be a whole number ≥ 1, got ${r.minSteps}`, "--min-steps");
+  if (r.startDt !== undefined && !(r.startDt > 0 && Number.isFinite(r.startDt))) throw new SolverError("bad-input", `--start-dt: must be > 0, got ${r.startDt}`, "--start-dt");
+  return r;
+}
+
+/**
+ * The energy scale S a trial is measured against. Unforced runs that start with energy use S = E0. Runs with
+ * wind forcing, or starting from rest, use the largest energy an RK4 run at half its gravity-wave limit reaches
+ * up to the trial's end time (extended lazily and shared by all trials, so results do not depend on their order).
+ */
+export class EnergyScale {
+  readonly kind: "initial" | "reference-run";
+  readonly e0: number;
+  private base: Run | null = null;
+  private maxE: number;
+  private baseFailed = false;
+
+  constructor(private readonly built: BuiltScenario) {
+    const probe = new Run(built, { method: "rk4", dt: 1 });
+    this.e0 = probe.budget().energy;
+    const forced = built.model.params.windStress !== null;
+    this.kind = forced || !(this.e0 > 0) ? "reference-run" : "initial";
+    this.maxE = this.e0;
+    if (this.kind === "reference-run") {
+      this.base = probe;
+      probe.setStepper({ method: "rk4", dt: probe.rk4DtLimit() / 2 });
+    }
+  }
+
+  /** S for a trial that ends at time t. */
+  at(t: number): number {
+    const b = this.base;
+    if (b) {
+      while (b.time < t * (1 - 1e-12) && !this.baseFailed) {
+        if (!b.advance(1)) { this.baseFailed = true; break; }
+        const e = b.budget().energy;
+        if (e > this.maxE) this.maxE = e;
+      }
+    }
+    return this.maxE > 0 ? this.maxE : Number.MIN_VALUE;
+  }
+}
+
+const pretty = (v: number, d = 3) => (Math.abs(v) >= 1e4 || (v !== 0 && Math.abs(v) < 1e-3) ? v.toExponential(d - 1) : Number(v.toPrecision(d)).toString());
+
+/** One trial: run `spec` at Δt for the simulated length and judge it. The run is reset first. */
+export function stabilityTrial(run: Run, scale: EnergyScale, config: StepperConfig, dt: number, o: ResolvedStabilityOptions,
+  within?: (fraction: number) => void): StabilityTrial {
+  run.setStepper({ ...config, dt } as StepperSpec, "--method");
+  run.reset();
+  const limit = run.rk4DtLimit();
+  const steps = Math.max(Math.ceil(o.duration / dt - 1e-9), o.minSteps);
+  const S = scale.at(steps * dt);
+  const chunk = Math.max(1, Math.ceil(steps / 20));
+  let maxE = run.budget().energy;
+  const base = { dt, ratioToRk4: dt / limit };
+  while (run.steps < steps) {
+    const ok = run.advance(Math.min(chunk, steps - run.steps));
+    if (!ok) {
+      const u = run.unstable!;
+      return { ...base, outcome: "unstable", reason: `step ${u.step} (t = ${pretty(u.time)} s): ${u.reason}`, steps: run.steps, simulatedSeconds: run.time, energyGrowth: null };
+    }
+    const e = run.budget().energy;
+    if (!Number.isFinite(e)) {
+      return { ...base, outcome: "unstable", reason: `step ${run.steps}: energy became ${e}`, steps: run.steps, simulatedSeconds: run.time, energyGrowth: null };
+    }
+    if (e > maxE) maxE = e;
+    const growth = maxE / S - 1;
+    if (growth > o.energyGrowth) {
+      return { ...base, outcome: "unstable", reason: `energy grew ${pretty(growth)} above its scale by step ${run.steps} (threshold ${o.energyGrowth})`,
+        steps: run.steps, simulatedSeconds: run.time, energyGrowth: growth };
+    }
+    within?.(run.steps / steps);
+  }
+  const growth = maxE / S - 1;
+  return { ...base, outcome: "stable", reason: `${steps} steps (${pretty(run.time)} s) finite and positive; energy growth ${pretty(growth)} ≤ ${o.energyGrowth}`,
+    steps: run.steps, simulatedSeconds: run.time, energyGrowth: growth };
+}
+
+/** Expected number of trials of one search, for progress estimates. */
+export function expectedTrials(o: ResolvedStabilityOptions): number {
+  return 2 + Math.ceil(Math.log2(1 / o.tolerance));
+}
+
+/**
+ * Largest stable Δt of one stepper: bracket by doubling (or halving) from the start Δt, then bisect until
+ * (hi − lo)/lo ≤ tolerance. A trial passes if every state stays finite with positive thicknesses and the
+ * energy never exceeds (1 + threshold) times its scale. Deterministic: each trial starts from the initial state
+ * with a fresh stepper.
+ */
+export function stabilitySearch(run: Run, scale: EnergyScale, config: StepperConfig, o: ResolvedStabilityOptions,
+  tracker?: StudyTracker): StabilityResult {
+  const entry = getMethod(config.method, "--method");
+  const limit = run.rk4DtLimit();
+  const label = config.label ?? defaultLabel(config);
+  const trials: StabilityTrial[] = [];
+  const trial = (dt: number): boolean => {
+    tracker?.checkpoint();
+    tracker?.report(`${label} Δt = ${pretty(dt)} s`);
+    const t = stabilityTrial(run, scale, config, dt, o, (f) => tracker?.report(`${label} Δt = ${pretty(dt)} s`, f));
+    trials.push(t);
+    if (tracker) tracker.done++;
+    return t.outcome === "stable";
+  };
+  const start = o.startDt ?? (entry.imaginaryAxisBound ? (limit * entry.imaginaryAxisBound) / (2 * Math.SQRT2) : limit);
+  let lo = 0;
+  let hi = Infinity;
+  if (trial(start)) {
+    lo = start;
+    for (let k = 0; k < o.maxBracketSteps && hi === Infinity; k++) {
+      const dt = lo * 2;
+      if (trial(dt)) lo = dt; else hi = dt;
+    }
+  } else {
+    hi = start;
+    for (let k = 0; k < o.maxBracketSteps && lo === 0; k++) {
+      const dt = hi / 2;
+      if (trial(dt)) lo = dt; else hi = dt;
+    }
+  }
+  const bracketed = lo > 0 && hi < Infinity;
+  if (bracketed) {
+    while ((hi - lo) / lo > o.tolerance) {
+      const mid = 0.5 * (lo + hi);
+      if (trial(mid)) lo = mid; else hi = mid;
+    }
+  }
+  return {
+    method: config.method, label, maxStableDt: lo, ratioToRk4: lo / limit, rk4DtLimit: limit, bracketed,
+    tolerance: o.tolerance, duration: o.duration, energyGrowthThreshold: o.energyGrowth, energyScale: scale.kind, trials,
+  };
+}
+
+/** Stability searches for several steppers on one scenario, sharing the run and the energy scale. */
+export function stabilityStudy(built: BuiltScenario, configs: readonly StepperConfig[], options: StabilityOptions = {},
+  hooks: StudyHooks = {}): StabilityResult[] {
+  if (!configs.length) throw new SolverError("bad-input", "--method: give at least one method", "--method");
+  const run = new Run(built, { ...configs[0], dt: 1 } as StepperSpec);
+  const o = resolveStabilityOptions(run, options);
+  // validate every stepper before any work
+  configs.forEach((c, i) => { getMethod(c.method, "--method"); run.setStepper({ ...c, dt: 1 } as StepperSpec, configs.length > 1 ? `--method[${i}]` : "--method"); });
+  const scale = new EnergyScale(built);
+  const tracker = new StudyTracker(hooks, configs.length * expectedTrials(o));
+  const out: StabilityResult[] = [];
+  configs.forEach((c, i) => {
+    out.push(stabilitySearch(run, scale, c, o, tracker));
+    tracker.total = Math.max(tracker.done + (configs.length - i - 1) * expectedTrials(o), tracker.done);
+  });
+  tracker.report("done");
+  return out;
+}
+
+export interface StabilityPart extends PartHeader {
+  kind: "stepwell-stability-part";
+  /** One result per item of this slice, in the order of `items`. */
+  results: StabilityResult[];
+}
+
+export interface StabilityRunOptions extends StudyHooks {
+  shard?: Shard;
+}
+
+/** Stability study as the CLI runs it: whole, or one slice (items = steppers) as a partial result. */
+export function runStability(built: BuiltScenario, configs: readonly StepperConfig[], options: StabilityOptions, o: StabilityRunOptions & { shard: Shard }): StabilityPart;
+export function runStability(built: BuiltScenario, configs: readonly StepperConfig[], options?: StabilityOptions, o?: StabilityRunOptions): StabilityResult[];
+export function runStability(built: BuiltScenario, configs: readonly StepperConfig[], options: StabilityOptions = {}, o: StabilityRunOptions = {}): StabilityResult[] | StabilityPart {
+  if (!configs.length) throw new SolverError("bad-input", "--method: give at least one method", "--method");
+  const probe = new Run(built, { method: "rk4", dt: 1 });
+  const resolved = resolveStabilityOptions(probe, options);
+  configs.forEach((c, i) => { probe.setStepper({ ...c, dt: 1 } as StepperSpec, configs.length > 1 ? `--method[${i}]` : "--method"); });
+  if (!o.shard) return stabilityStudy(built, configs, options, o);
+  const items = shardItems(configs.length, o.shard);
+  const study = contentHash("stepwell-stability-v1", physicsContent(built), configs, resolved, built.initial);
+  const results = items.length ? stabilityStudy(built, items.map((k) => configs[k]), options, o) : [];
+  return { kind: "stepwell-stability-part", version: 1, study, shard: o.shard, nItems: configs.length, items, results };
+}
+
+/** Join stability slices into the unsharded list of results (in the order the steppers were given). */
+export function mergeStabilityParts(parts: readonly StabilityPart[]): StabilityResult[] {
+  const sorted = checkParts(parts, "stepwell-stability-part");
+  const byItem = new Map<number, StabilityResult>();
+  for (const p of sorted) p.items.forEach((k, j) => byItem.set(k, p.results[j]));
+  return Array.from({ length: sorted[0].nItems }, (_, k) => byItem.get(k)!);
+}
