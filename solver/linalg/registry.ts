@@ -1,0 +1,78 @@
+/**
+ * The φ-backend registry: one factory per name, option checks at the boundary (numerics reference §7).
+ */
+import { SolverError, badInput } from "../errors.js";
+import type { LinearOperator, PhiAction, PhiBackendName, PhiOptions } from "./types.js";
+import { densePhi } from "./dense.js";
+import { krylovPhi } from "./krylov.js";
+import { taylorPhi } from "./taylor.js";
+import { chebyshevPhi } from "./chebyshev.js";
+import { substepPhi } from "./substep.js";
+import { rationalPhi } from "./rational.js";
+import { estimateSpectralBound } from "./spectralBound.js";
+
+export interface PhiBackendInfo {
+  readonly name: PhiBackendName;
+  readonly description: string;
+}
+
+export const phiBackends: readonly PhiBackendInfo[] = [
+  { name: "krylov", description: "Lanczos/Arnoldi in the energy inner product with a-posteriori error control and time sub-steps" },
+  { name: "taylor", description: "truncated Taylor series with scaling (Al-Mohy & Higham 2011); needs only a norm bound" },
+  { name: "chebyshev", description: "Chebyshev/Bessel expansion for spectra in i[-rho, rho]; needs spectralBound; supports the filter" },
+  { name: "substep", description: "RK4 sub-steps of the polynomial-forced linear ODE (split-explicit analogue); no inner products" },
+  { name: "rational", description: "elliptic-contour quadrature with GMRES shifted solves; skew operators, small problems only" },
+  { name: "dense", description: "augmented-matrix exponential of the assembled matrix (Al-Mohy & Higham 2011, Thm 2.1); tests only" },
+];
+
+function isBackend(name: string): name is PhiBackendName {
+  return phiBackends.some((b) => b.name === name);
+}
+
+/** Build a φ-action; throws SolverError("bad-input") naming the offending field for bad options. */
+export function createPhiAction(backend: PhiBackendName, op: LinearOperator, opts: PhiOptions): PhiAction {
+  if (!isBackend(backend)) {
+    throw badInput("stepper.backend", `unknown phi backend "${String(backend)}" (expected one of ${phiBackends.map((b) => b.name).join(", ")})`);
+  }
+  if (!(typeof opts.tol === "number" && Number.isFinite(opts.tol) && opts.tol > 0)) {
+    throw badInput("stepper.tol", `tolerance must be a positive number, got ${String(opts.tol)}`);
+  }
+  if (!(Number.isInteger(opts.maxPhi) && opts.maxPhi >= 0)) {
+    throw badInput("stepper.maxPhi", `maxPhi must be a non-negative integer, got ${String(opts.maxPhi)}`);
+  }
+  if (opts.substeps !== undefined && !(Number.isInteger(opts.substeps) && opts.substeps >= 0)) {
+    throw badInput("stepper.substeps", `substeps must be a non-negative integer, got ${String(opts.substeps)}`);
+  }
+  if (opts.maxKrylovDim !== undefined && !(Number.isInteger(opts.maxKrylovDim) && opts.maxKrylovDim >= 1)) {
+    throw badInput("stepper.maxKrylovDim", `maxKrylovDim must be a positive integer, got ${String(opts.maxKrylovDim)}`);
+  }
+  if (opts.filter) {
+    const f = opts.filter;
+    if (backend !== "chebyshev") throw badInput("stepper.filter", `the filter is supported by the chebyshev backend only, not "${backend}"`);
+    if (!(f.cutoff > 0 && Number.isFinite(f.cutoff))) throw badInput("stepper.filter.cutoff", `cutoff must be > 0 1/s, got ${f.cutoff}`);
+    if (!(f.order > 0 && Number.isFinite(f.order))) throw badInput("stepper.filter.order", `order must be > 0, got ${f.order}`);
+    if (!(f.strength >= 0 && Number.isFinite(f.strength))) throw badInput("stepper.filter.strength", `strength must be ≥ 0, got ${f.strength}`);
+  }
+  const bound = op.spectralBound;
+  const hasBound = bound !== undefined && Number.isFinite(bound) && bound > 0;
+  switch (backend) {
+    case "krylov":
+      return krylovPhi(op, opts);
+    case "taylor":
+      // without a bound, estimate it once (power iteration; a rough norm estimate for non-normal A)
+      return taylorPhi(op, { ...opts, normBound: hasBound ? bound : estimateSpectralBound(op, { margin: 0.1 }).bound });
+    case "chebyshev":
+      if (!hasBound || !op.skew) throw badInput("stepper.backend", "chebyshev needs an operator with skew = true and a spectralBound");
+      return chebyshevPhi(op, opts);
+    case "substep":
+      if (!hasBound && !(opts.substeps && opts.substeps > 0)) throw badInput("stepper.backend", "substep needs a spectralBound or a positive substeps count");
+      return substepPhi(op, opts);
+    case "rational":
+      if (!hasBound || !op.skew) throw badInput("stepper.backend", "rational needs an operator with skew = true and a spectralBound");
+      return rationalPhi(op, opts);
+    case "dense":
+      if (op.n > 2000) throw badInput("stepper.backend", `dense backend is for small operators, n = ${op.n}`);
+      return densePhi(op, opts);
+  }
+  throw new SolverError("bad-input", `unhandled backend ${String(backend)}`, "stepper.backend");
+}
