@@ -2,6 +2,9 @@ import type { ParsedArgs } from "./args.js";
 import { MODES_USAGE, modesCommand } from "./modesCommand.js";
 import { RUN_USAGE, runCommand } from "./runCommand.js";
 import { SCENARIOS_USAGE, scenariosCommand } from "./scenariosCommand.js";
+import { STABILITY_USAGE, stabilityCommand } from "./stabilityCommand.js";
+import { SWEEP_USAGE, sweepCommand } from "./sweepCommand.js";
+import { MERGE_USAGE, mergeCommand } from "./mergeCommand.js";
 
 export interface Command {
   readonly usage: string;
@@ -16,4 +19,7 @@ export const COMMANDS: Record<string, Command> = {
   run: { usage: RUN_USAGE, summary: "run a scenario and report mass, energy, cost and stability", flags: ["quiet"], run: runCommand },
   modes: { usage: MODES_USAGE, summary: "vertical modes of the layer stack and the RK4 time-step limit", run: modesCommand },
   scenarios: { usage: SCENARIOS_USAGE, summary: "list the built-in scenarios", run: scenariosCommand },
+  stability: { usage: STABILITY_USAGE, summary: "largest stable time step of each stepper (bracket by doubling, then bisect)", run: stabilityCommand },
+  sweep: { usage: SWEEP_USAGE, summary: "convergence and work-precision sweep against a cached fine reference run", flags: ["reference-only", "no-cache"], run: sweepCommand },
+  merge: { usage: MERGE_USAGE, summary: "join the partial results of a sharded stability or sweep run", run: mergeCommand },
 };

@@ -1,0 +1,169 @@
+import { mkdirSync, readFileSync, renameSync, writeFileSync } from "node:fs";
+import { join } from "node:path";
+import { SolverError } from "../errors.js";
+import type { Scenario } from "../scenario/schema.js";
+import { referenceCache, type ReferenceCache, type ReferenceRecord } from "../studies/reference.js";
+import type { StudyProgress } from "../studies/common.js";
+import type { StepperConfig } from "../studies/stability.js";
+import { stringOption, type ParsedArgs } from "./args.js";
+import { fmt } from "./io.js";
+
+/** Split at commas that are not inside parentheses. */
+function splitTop(text: string, field: string): string[] {
+  const out: string[] = [];
+  let depth = 0;
+  let cur = "";
+  for (const ch of text) {
+    if (ch === "(") depth++;
+    if (ch === ")") depth--;
+    if (depth < 0) throw new SolverError("bad-input", `${field}: unbalanced ")" in "${text}"`, field);
+    if (ch === "," && depth === 0) { out.push(cur); cur = ""; } else cur += ch;
+  }
+  if (depth !== 0) throw new SolverError("bad-input", `${field}: unbalanced "(" in "${text}"`, field);
+  out.push(cur);
+  return out;
+}
+
+function optionValue(v: string): unknown {
+  const t = v.trim();
+  if (t === "true") return true;
+  if (t === "false") return false;
+  if (t !== "" && Number.isFinite(Number(t))) return Number(t);
+  if (t.startsWith("{") || t.startsWith("[")) { try { return JSON.parse(t); } catch { /* keep as text */ } }
+  return t;
+}
+
+/** `rk4,exprb32(linear=modes:1;backend=krylov)` → stepper configs (method names are checked later by the study). */
+export function parseMethodList(text: string, field: string): StepperConfig[] {
+  if (text.trim() === "") throw new SolverError("bad-input", `${field}: must be a comma-separated list of methods, e.g. rk4,ssprk3`, field);
+  return splitTop(text, field).map((entry, i) => {
+    const m = /^\s*([A-Za-z0-9_.+-]+)\s*(?:\((.*)\))?\s*$/s.exec(entry);
+    if (!m) throw new SolverError("bad-input", `${field}: entry ${i + 1} "${entry}" is not METHOD or METHOD(key=value;…)`, field);
+    const spec: StepperConfig = { method: m[1] };
+    if (m[2] !== undefined && m[2].trim() !== "") {
+      for (const pair of m[2].split(";")) {
+        const eq = pair.indexOf("=");
+        if (eq <= 0) throw new SolverError("bad-input", `${field}: option "${pair}" of ${m[1]} is not key=value`, field);
+        const key = pair.slice(0, eq).trim();
+        if (key === "method" || key === "dt") throw new SolverError("bad-input", `${field}: "${key}" cannot be set as an option of ${m[1]}`, field);
+        spec[key] = optionValue(pair.slice(eq + 1));
+      }
+    }
+    return spec;
+  });
+}
+
+/** `--steppers FILE`: a JSON array of stepper objects as in a scenario file (a `dt` there is ignored). */
+export function readSteppersFile(path: string): StepperConfig[] {
+  let raw: unknown;
+  try {
+    raw = JSON.parse(readFileSync(path, "utf8"));
+  } catch (e) {
+    throw new SolverError("bad-input", `--steppers: cannot read ${path} as JSON (${(e as Error).message})`, "--steppers");
+  }
+  if (!Array.isArray(raw) || raw.length === 0) throw new SolverError("bad-input", "--steppers: the file must hold a non-empty JSON array of stepper objects", "--steppers");
+  return raw.map((s, i) => {
+    if (!s || typeof s !== "object" || Array.isArray(s)) throw new SolverError("bad-input", `--steppers[${i}]: must be an object like { "method": "rk4" }`, `--steppers[${i}]`);
+    const o = { ...(s as Record<string, unknown>) };
+    if (typeof o.method !== "string" || !o.method) throw new SolverError("bad-input", `--steppers[${i}].method: is required (a method name)`, `--steppers[${i}].method`);
+    if (o.label !== undefined && typeof o.label !== "string") throw new SolverError("bad-input", `--steppers[${i}].label: must be a string`, `--steppers[${i}].label`);
+    delete o.dt;
+    return o as StepperConfig;
+  });
+}
+
+/** The steppers of a study: `--methods`/`--method` LIST or `--steppers FILE`, else the scenario's own (stability only). */
+export function steppersFromArgs(args: ParsedArgs, s: Scenario | null, names: readonly string[]): StepperConfig[] {
+  const given = names.filter((n) => args.options.has(n));
+  const file = stringOption(args, "steppers");
+  if (given.length > 1 || (given.length && file)) throw new SolverError("bad-input", `--${given[0]}: give either --${given[0]} or --steppers, not both`, `--${given[0]}`);
+  if (file) return readSteppersFile(file);
+  if (given.length) return parseMethodList(stringOption(args, given[0])!, `--${given[0]}`);
+  if (!s) throw new SolverError("bad-input", `--${names[0]}: give the steppers with --${names[0]} LIST or --steppers FILE`, `--${names[0]}`);
+  const { dt: _dt, ...rest } = s.stepper;
+  return [rest as StepperConfig];
+}
+
+/** "d1,d2,…" → positive numbers, or one error naming the option. */
+export function numberList(args: ParsedArgs, key: string): number[] | undefined {
+  const v = args.options.get(key);
+  if (v === undefined) return undefined;
+  const msg = `--${key}: must be a comma-separated list of positive numbers`;
+  if (v === true || v.trim() === "") throw new SolverError("bad-input", msg, `--${key}`);
+  return v.split(",").map((p) => {
+    const x = Number(p);
+    if (p.trim() === "" || !Number.isFinite(x) || !(x > 0)) throw new SolverError("bad-input", `${msg}, got "${v}"`, `--${key}`);
+    return x;
+  });
+}
+
+/**
+ * Progress on stderr: a redrawn bar on a terminal, otherwise a plain line now and then
+ * (every 10% of the work or every minute).
+ */
+export function progressReporter(err: (s: string) => void, clock: () => number, what: string): (p: StudyProgress) => void {
+  const tty = process.stderr.isTTY === true;
+  const t0 = clock();
+  let lastLine = t0;
+  let lastTenth = 0;
+  let lastDraw = -1;
+  return (p) => {
+    const now = clock();
+    const elapsed = now - t0;
+    const eta = p.fraction > 0.01 ? (elapsed * (1 - p.fraction)) / p.fraction : NaN;
+    const text = `${what} ${p.done}/${p.total} runs, ${String(Math.round(p.fraction * 100)).padStart(3)}%, elapsed ${fmt(elapsed, "s", 3)}, ` +
+      `left ~${Number.isFinite(eta) ? fmt(eta, "s", 2) : "?"} — ${p.item}`;
+    if (tty) {
+      if (now - lastDraw < 0.1 && p.fraction < 1) return;
+      lastDraw = now;
+      const width = 24;
+      const full = Math.round(p.fraction * width);
+      process.stderr.write(`\r[${"#".repeat(full)}${".".repeat(width - full)}] ${text}`.slice(0, (process.stderr.columns ?? 120) - 1).padEnd(Math.min(process.stderr.columns ?? 120, 160) - 1));
+      if (p.fraction >= 1) process.stderr.write("\n");
+      return;
+    }
+    const tenth = Math.floor(p.fraction * 10);
+    if (tenth > lastTenth || now - lastLine > 60) {
+      lastTenth = Math.max(tenth, lastTenth);
+      lastLine = now;
+      err(text);
+    }
+  };
+}
+
+/** On-disk reference cache (under STEPWELL_CACHE_DIR or .stepwell-cache/) in front of the engine's memory cache. */
+export class DiskReferenceCache implements ReferenceCache {
+  constructor(readonly dir: string = process.env.STEPWELL_CACHE_DIR || ".stepwell-cache", private readonly memory: ReferenceCache = referenceCache) {}
+
+  private file(key: string): string { return join(this.dir, `reference-${key}.json`); }
+
+  get(key: string): ReferenceRecord | undefined {
+    const m = this.memory.get(key);
+    if (m) return m;
+    try {
+      const j = JSON.parse(readFileSync(this.file(key), "utf8")) as Omit<ReferenceRecord, "state"> & { state: string };
+      if (j.key !== key) return undefined;
+      const buf = Buffer.from(j.state, "base64");
+      const state = new Float64Array(buf.byteLength / 8);
+      new Uint8Array(state.buffer).set(buf);
+      const rec: ReferenceRecord = { ...j, state };
+      this.memory.set(key, rec);
+      return rec;
+    } catch {
+      return undefined;
+    }
+  }
+
+  set(key: string, record: ReferenceRecord): void {
+    this.memory.set(key, record);
+    try {
+      mkdirSync(this.dir, { recursive: true });
+      const tmp = `${this.file(key)}.${process.pid}.tmp`;
+      const state = Buffer.from(record.state.buffer, record.state.byteOffset, record.state.byteLength).toString("base64");
+      writeFileSync(tmp, JSON.stringify({ ...record, state }));
+      renameSync(tmp, this.file(key)); // atomic, so parallel shards never read half a file
+    } catch {
+      // a cache that cannot be written only costs time
+    }
+  }
+}

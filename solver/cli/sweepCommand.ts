@@ -1,0 +1,102 @@
+import { SolverError } from "../errors.js";
+import { buildScenario } from "../scenario/build.js";
+import { parseScenario } from "../scenario/schema.js";
+import type { ErrorComponent } from "../studies/metrics.js";
+import { referenceRun, type ReferenceCache } from "../studies/reference.js";
+import { parseShard } from "../studies/shard.js";
+import { planSweep, runSweep, type SweepDefinition, type SweepResult, type SweepRow } from "../studies/sweep.js";
+import { StudyTracker } from "../studies/common.js";
+import { referenceCache } from "../studies/reference.js";
+import { numberOption, rejectUnknown, stringOption, type ParsedArgs } from "./args.js";
+import { fmt, loadScenarioArg, table, writeJson, writeText } from "./io.js";
+import { DiskReferenceCache, numberList, parseMethodList, progressReporter, steppersFromArgs } from "./studyArgs.js";
+
+export const SWEEP_USAGE =
+  "sweep SCENARIO (--methods LIST | --steppers FILE) (--dts d1,d2,… | --dt-factors f1,f2,…) [--reference-dt S] [--reference-method M] " +
+  "[--duration S] [--error ssh|thickness|velocity] [--tolerance E] [--matvec-weight W] [--json FILE] [--csv FILE] [--shard i/n] [--reference-only] [--no-cache]";
+
+const CSV_HEADER = ["label", "method", "dt", "dtRatioToRk4", "status", "errorSsh", "errorThickness", "errorVelocity", "massDrift", "energyDrift",
+  "wallSeconds", "rhsEvaluations", "matvecs", "cost", "atReferenceFloor"];
+
+export function sweepCsv(rows: SweepRow[]): string {
+  const q = (s: string) => (/[",\n]/.test(s) ? `"${s.replace(/"/g, '""')}"` : s);
+  const n = (v: number | null) => (v === null || !Number.isFinite(v) ? "" : String(v));
+  return [CSV_HEADER.join(","), ...rows.map((r) => [q(r.label), q(r.method), n(r.dt), n(r.dtRatioToRk4), r.status, n(r.error.ssh), n(r.error.thickness),
+    n(r.error.velocity), n(r.massDrift), n(r.energyDrift), n(r.wallSeconds), n(r.rhsEvaluations), n(r.matvecs), n(r.cost), String(r.atReferenceFloor)].join(","))].join("\n") + "\n";
+}
+
+export function printSweep(rows: SweepRow[], out: (s: string) => void, result?: SweepResult): void {
+  const e = (v: number | null) => (v === null ? "—" : fmt(v, "", 3));
+  out(table(["stepper", "Δt", "× RK4", "status", "err ssh", "err h", "err u", "mass drift", "energy drift", "wall", "RHS", "matvecs"],
+    rows.map((r) => [r.label, fmt(r.dt, "s"), fmt(r.dtRatioToRk4, "", 3), r.status + (r.atReferenceFloor ? " (floor)" : ""), e(r.error.ssh), e(r.error.thickness),
+      e(r.error.velocity), fmt(r.massDrift, "", 2), fmt(r.energyDrift, "", 2), fmt(r.wallSeconds, "s", 3), String(r.rhsEvaluations), String(r.matvecs)])));
+  if (!result) return;
+  out("");
+  out(`Reference ${result.reference.label} at Δt = ${fmt(result.reference.dt, "s")} (${result.reference.steps} steps); its own error ≈ ${fmt(result.reference.floor[result.workPrecision.component], "", 2)} (${result.workPrecision.component}).`);
+  for (const [label, o] of Object.entries(result.orders)) {
+    out(`Observed order ${label}: ${o.order === null ? "n/a" : fmt(o.order, "", 3)}` +
+      (o.range ? ` on Δt ${fmt(o.range[0], "s")} … ${fmt(o.range[1], "s")} (${o.points} rows, ${o.component} error)` : ` — ${o.note ?? ""}`));
+  }
+  const w = result.workPrecision;
+  out(w.best
+    ? `Cheapest run with ${w.component} error ≤ ${w.tolerance}: ${w.best.label} at Δt = ${fmt(w.best.dt, "s")} (error ${fmt(w.best.error, "", 3)}, cost ${fmt(w.best.cost, "RHS", 4)}); ` +
+      `speed-up ${fmt(w.best.speedup, "×", 3)} over RK4 at its limit (${fmt(w.rk4AtLimit.dt, "s")}, ${w.rk4AtLimit.cost} RHS)`
+    : `No run reached a ${w.component} error ≤ ${w.tolerance}.`);
+}
+
+export function sweepDefinition(args: ParsedArgs, duration: number | undefined): SweepDefinition {
+  const steppers = steppersFromArgs(args, null, ["methods"]);
+  const dts = numberList(args, "dts");
+  const dtFactors = numberList(args, "dt-factors");
+  if (dts && dtFactors) throw new SolverError("bad-input", "--dts: give either --dts (seconds) or --dt-factors (multiples of the RK4 limit), not both", "--dts");
+  if (!dts && !dtFactors) throw new SolverError("bad-input", "--dts: give the time steps with --dts d1,d2,… (seconds) or --dt-factors f1,f2,… (multiples of the RK4 limit)", "--dts");
+  const refMethod = stringOption(args, "reference-method");
+  let referenceSpec;
+  if (refMethod !== undefined) {
+    const list = parseMethodList(refMethod, "--reference-method");
+    if (list.length !== 1) throw new SolverError("bad-input", "--reference-method: give one method", "--reference-method");
+    referenceSpec = list[0];
+  }
+  const component = stringOption(args, "error") as ErrorComponent | undefined;
+  const tolerance = numberOption(args, "tolerance");
+  if (tolerance !== undefined && !(tolerance > 0)) throw new SolverError("bad-input", `--tolerance: the requested error must be > 0, got ${tolerance}`, "--tolerance");
+  const matvecWeight = numberOption(args, "matvec-weight");
+  if (matvecWeight !== undefined && !(matvecWeight >= 0)) throw new SolverError("bad-input", `--matvec-weight: must be ≥ 0, got ${matvecWeight}`, "--matvec-weight");
+  return { steppers, dts, dtFactors, duration, referenceSpec, referenceDt: numberOption(args, "reference-dt", { positive: true }), component, tolerance, matvecWeight };
+}
+
+export function sweepCommand(args: ParsedArgs, out: (s: string) => void, err: (s: string) => void): number {
+  rejectUnknown(args, ["methods", "steppers", "dts", "dt-factors", "reference-dt", "reference-method", "duration", "error", "tolerance", "matvec-weight",
+    "json", "csv", "shard", "reference-only", "no-cache"], "sweep");
+  const scenario = parseScenario(loadScenarioArg(args.positional[0]));
+  if (args.positional.length > 1) throw new SolverError("bad-input", `SCENARIO: give one scenario, got ${args.positional.length} words (${args.positional.join(" ")})`, "SCENARIO");
+  const def = sweepDefinition(args, numberOption(args, "duration", { positive: true }));
+  const shardText = stringOption(args, "shard");
+  const shard = shardText !== undefined ? parseShard(shardText) : undefined;
+  const json = stringOption(args, "json");
+  const csv = stringOption(args, "csv");
+  if (shard && !json) throw new SolverError("bad-input", "--json: a sharded run writes a partial result; give --json FILE (then join the parts with merge)", "--json");
+  const cache: ReferenceCache = args.options.has("no-cache") ? referenceCache : new DiskReferenceCache();
+  const clock = () => performance.now() / 1000;
+  const built = buildScenario(scenario);
+  const hooks = { clock, onProgress: progressReporter(err, clock, "sweep"), cache };
+  if (args.options.has("reference-only")) {
+    const plan = planSweep(built, def);
+    const ref = referenceRun(built, plan.reference, cache, new StudyTracker(hooks, 2));
+    out(`Reference ${ref.label} at Δt = ${fmt(ref.dt, "s")} (${ref.steps} steps) ready` + (cache instanceof DiskReferenceCache ? ` in ${cache.dir}/` : "") + `; key ${ref.key}`);
+    return 0;
+  }
+  if (shard) {
+    const part = runSweep(built, def, { ...hooks, shard });
+    out(`slice ${shard.index}/${shard.count}: ${part.items.length} of ${part.nItems} runs`);
+    printSweep(part.rows, out);
+    writeJson(json!, part);
+    if (csv) writeText(csv, sweepCsv(part.rows), "--csv");
+    return 0;
+  }
+  const result = runSweep(built, def, hooks);
+  printSweep(result.rows, out, result);
+  if (json) writeJson(json, result);
+  if (csv) writeText(csv, sweepCsv(result.rows), "--csv");
+  return 0;
+}
