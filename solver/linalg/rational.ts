@@ -20,6 +20,16 @@ import { highestNonZero, isZero } from "./vector.js";
 
 const EPS = 2.220446049250313e-16;
 
+export interface ContourParameters { eta: number; nodes: number; a: number; b: number }
+
+/** Is min_{δ>0} R sinh(η+δ) − Nδ ≤ −L (outer error term of contourParameters)? */
+function outerOk(N: number, R: number, eta: number, L: number): boolean {
+  const c = N / R;
+  if (c <= Math.cosh(eta)) return false;
+  const d = Math.acosh(c) - eta;
+  return R * Math.sinh(eta + d) - N * d <= -L;
+}
+
 /**
  * Ellipse parameter η and node count N (even) for R = τρ at tolerance tol. Two error terms of the
  * trapezoid rule [D]: the poles on the segment give e^{−Nη}; the growth of e^z outside Γ gives
@@ -35,16 +45,9 @@ export function contourParameters(R: number, tol: number, out: ContourParameters
   for (let i = 0; i <= 240; i++) {
     const eta = etaMax * Math.pow(1e-4, i / 240);
     let lo = Math.max(2, Math.ceil(L / eta)), hi = Math.max(lo, 8);
-    const outerOk = (N: number) => {
-      // minimum over δ > 0 of R sinh(η+δ) − Nδ
-      const c = N / R;
-      if (c <= Math.cosh(eta)) return false;
-      const d = Math.acosh(c) - eta;
-      return R * Math.sinh(eta + d) - N * d <= -L;
-    };
-    while (!outerOk(hi)) { hi *= 2; if (hi > 1e7) break; }
+    while (!outerOk(hi, R, eta, L)) { hi *= 2; if (hi > 1e7) break; }
     if (hi > 1e7) continue;
-    while (lo < hi) { const mid = (lo + hi) >> 1; if (outerOk(mid)) hi = mid; else lo = mid + 1; }
+    while (lo < hi) { const mid = (lo + hi) >> 1; if (outerOk(mid, R, eta, L)) hi = mid; else lo = mid + 1; }
     if (hi < bestN) { bestN = hi; bestEta = eta; }
   }
   let nodes = bestN + 2;
