@@ -1,0 +1,267 @@
+/**
+ * The rest-state linearization L of the multi-layer TRiSK model (numerics reference §2.1, §3.7):
+ *
+ *   du_{k,e}/dt = ½ Σ_{e'} W_{e,e'} (l_{e'}/d_e) Ĥ_{k,e'} u_{k,e'} (q̄_{k,e} + q̄_{k,e'}) − (G Σ_j 𝒢_kj h'_j)_e
+ *   dh'_{k,i}/dt = −(D(Ĥ_k u_k))_i
+ *
+ * with Ĥ_{k,e} the edge mean of the resting thickness, q̄_{k,v} = f_v / H_{k,v} (kite-averaged H) the rest
+ * potential vorticity and q̄_{k,e} its edge mean. This is exactly the Jacobian of the inviscid, unforced
+ * tendency at rest (with topography and β); drag, viscosity and the thickness dependence of the wind
+ * stress are left to the nonlinear remainder, so that L stays skew-adjoint in the linear energy
+ *
+ *   E₂ = ½ Σ_k Σ_e l_e d_e Ĥ_{k,e} u_{k,e}² + ½ Σ_i A_i h'_iᵀ 𝒢 h'_i .
+ *
+ * The thickness block A_i 𝒢 of that inner product is not diagonal. `interfaceForm` therefore offers the same
+ * operator in interface-displacement variables η'_{l,i} = Σ_{j≥l} h'_{j,i} (a triangular change of variables
+ * per cell, T), where the potential energy is ½ Σ_l g'_l A_i η'_l² and the weights are diagonal:
+ * A_i g'_l for η'_l, l_e d_e Ĥ_{k,e} for u_k. Backends that need diagonal weights work there.
+ *
+ * Vectors are perturbations in the state layout of the model (h' in the thickness slots).
+ */
+import type { LinearOperator, OperatorCounters } from "../linalg/types.js";
+import type { Mesh } from "../mesh/types.js";
+import { layerCoupling, verticalModes } from "../diagnostics/modes.js";
+import type { ShallowWaterModel, StateLayout } from "./shallowWater.js";
+
+export interface RestLinearOperator extends LinearOperator {
+  readonly layout: StateLayout;
+  /** Resting layer thickness at cells, [k·nCells + i] [m]. */
+  readonly restThickness: Float64Array;
+  /** Edge mean of the resting thickness Ĥ_{k,e}, [k·nEdges + e] [m]. */
+  readonly edgeThickness: Float64Array;
+  /** Rest PV at edges q̄_{k,e}, [k·nEdges + e] [1/(m s)]. */
+  readonly restPv: Float64Array;
+  /** Coefficient of u_{k,e'} in the Coriolis part of du_{k,e}/dt, aligned with the mesh's tangent CSR, per layer [1/s]. */
+  readonly coriolisCoef: Float64Array;
+  /** The layer-coupling matrix 𝒢 (row-major L×L) [m/s²]. */
+  readonly coupling: Float64Array;
+  /** Barotropic speed of the deepest column [m/s]. */
+  readonly fastestSpeed: number;
+  /** Largest |f| on the mesh [1/s]. */
+  readonly maxCoriolis: number;
+  /** The same operator T L T⁻¹ in interface-displacement variables, with diagonal energy weights. */
+  readonly interfaceForm: LinearOperator;
+  /** out = T x: thickness perturbations → interface displacements (velocities copied). */
+  toInterface(out: Float64Array, x: Float64Array): void;
+  /** out = T⁻¹ y. */
+  fromInterface(out: Float64Array, y: Float64Array): void;
+  /** Linear-energy inner product <a, b>_E (layer variables). */
+  energyDot(a: Float64Array, b: Float64Array): number;
+}
+
+export interface RestOperatorOptions {
+  /**
+   * How to obtain `spectralBound`: "auto" (default) uses √(f_max² + 6 c0²/d²) on a regular hexagonal mesh
+   * (reference §4.2: ω_max² = 6 c²/d² exactly at f = 0, and f²α + c²λ ≤ f² + 6c²/d² for any f) and a
+   * power-iteration estimate on irregular meshes; "power" always estimates.
+   */
+  spectralBound?: "auto" | "power";
+  /** Relative margin added to the bound (default 0.02 analytic, 0.1 estimated). */
+  margin?: number;
+}
+
+/** Resting thicknesses at cells (flat interfaces, bottom layer down to the sea floor). */
+export function restThickness(model: ShallowWaterModel): Float64Array {
+  const x = model.restState();
+  return x.slice(0, model.layout.uOffset);
+}
+
+/** True when every open edge has the lattice spacing and the lattice edge length (regular hexagons). */
+export function isRegularHexMesh(m: Mesh, tol = 1e-9): boolean {
+  const d = m.spacing;
+  for (let e = 0; e < m.nEdges; e++) {
+    if (!m.edgeOpen[e]) continue;
+    if (Math.abs(m.edgeCellDistance[e] - d) > tol * d) return false;
+    if (Math.abs(m.edgeLength[e] * Math.sqrt(3) - d) > tol * d) return false;
+  }
+  return true;
+}
+
+export function restLinearOperator(model: ShallowWaterModel, opts: RestOperatorOptions = {}): RestLinearOperator {
+  const m = model.mesh;
+  const p = model.params;
+  const layout = model.layout;
+  const { nLayers: L, nCells: nc, nEdges: ne, uOffset, n } = layout;
+  const H = restThickness(model);
+  const coupling = layerCoupling(p.reducedGravity);
+
+  // Ĥ_{k,e}: mean of the two cells, the wet cell's value on a coastline edge
+  const Hedge = new Float64Array(L * ne);
+  for (let k = 0; k < L; k++) {
+    for (let e = 0; e < ne; e++) {
+      const c1 = m.edgeCells[2 * e], c2 = m.edgeCells[2 * e + 1];
+      Hedge[k * ne + e] = c2 >= 0 ? 0.5 * (H[k * nc + c1] + H[k * nc + c2]) : H[k * nc + c1];
+    }
+  }
+  // rest PV q̄_{k,v} = f_v / H_{k,v} with kite-averaged H (wet kites), and its edge mean
+  const qv = new Float64Array(m.nVertices);
+  const restPv = new Float64Array(L * ne);
+  for (let k = 0; k < L; k++) {
+    for (let v = 0; v < m.nVertices; v++) {
+      let hv = 0;
+      for (let j = 3 * v; j < 3 * v + 3; j++) if (m.vertexCells[j] >= 0) hv += m.vertexKiteArea[j] * H[k * nc + m.vertexCells[j]];
+      hv /= m.vertexArea[v];
+      qv[v] = hv > 0 ? p.coriolisVertex[v] / hv : 0;
+    }
+    for (let e = 0; e < ne; e++) restPv[k * ne + e] = 0.5 * (qv[m.edgeVertices[2 * e]] + qv[m.edgeVertices[2 * e + 1]]);
+  }
+  // Coriolis coefficients: ½ W_{e,e'} l_{e'}/d_e Ĥ_{k,e'} (q̄_{k,e} + q̄_{k,e'}), zero on coastline edges
+  const nnz = m.tangentOffset[ne];
+  const coriolisCoef = new Float64Array(L * nnz);
+  for (let k = 0; k < L; k++) {
+    for (let e = 0; e < ne; e++) {
+      if (!m.edgeOpen[e]) continue;
+      for (let q = m.tangentOffset[e]; q < m.tangentOffset[e + 1]; q++) {
+        const e2 = m.tangentIndex[q];
+        coriolisCoef[k * nnz + q] = 0.5 * m.tangentCoef[q] * Hedge[k * ne + e2] * (restPv[k * ne + e] + restPv[k * ne + e2]);
+      }
+    }
+  }
+
+  const counters: OperatorCounters = { matvecs: 0, innerProducts: 0 };
+  const Mp = new Float64Array(L * nc); // Montgomery anomaly M' = 𝒢 h' (work)
+  const { cellEdgeOffset: cOff, cellEdgeIndex: cIdx, cellEdgeSign: cSgn, edgeLength: len, cellArea } = m;
+  const { edgeCells: ec, edgeCellDistance: dc, edgeOpen, tangentOffset: tOff, tangentIndex: tIdx } = m;
+
+  function applyLayers(out: Float64Array, x: Float64Array): void {
+    // M'_k = Σ_j 𝒢_kj h'_j per cell
+    for (let i = 0; i < nc; i++) {
+      for (let k = 0; k < L; k++) {
+        let s = 0;
+        for (let j = 0; j < L; j++) s += coupling[k * L + j] * x[j * nc + i];
+        Mp[k * nc + i] = s;
+      }
+    }
+    for (let k = 0; k < L; k++) {
+      const uOff = uOffset + k * ne, hOff = k * nc, cOffK = k * nnz, eOffK = k * ne;
+      // momentum: Coriolis with rest PV minus the Montgomery gradient
+      for (let e = 0; e < ne; e++) {
+        if (!edgeOpen[e]) { out[uOff + e] = 0; continue; }
+        let acc = 0;
+        for (let q = tOff[e]; q < tOff[e + 1]; q++) acc += coriolisCoef[cOffK + q] * x[uOff + tIdx[q]];
+        out[uOff + e] = acc - (Mp[hOff + ec[2 * e + 1]] - Mp[hOff + ec[2 * e]]) / dc[e];
+      }
+      // continuity: −D(Ĥ_k u_k)
+      for (let i = 0; i < nc; i++) {
+        let acc = 0;
+        for (let q = cOff[i]; q < cOff[i + 1]; q++) {
+          const e = cIdx[q];
+          acc += cSgn[q] * len[e] * Hedge[eOffK + e] * x[uOff + e];
+        }
+        out[hOff + i] = -acc / cellArea[i];
+      }
+    }
+  }
+
+  // interface variables: η'_l = Σ_{j≥l} h'_j
+  function toInterface(out: Float64Array, x: Float64Array): void {
+    for (let i = 0; i < nc; i++) {
+      let s = 0;
+      for (let l = L - 1; l >= 0; l--) { s += x[l * nc + i]; out[l * nc + i] = s; }
+    }
+    for (let q = uOffset; q < n; q++) out[q] = x[q];
+  }
+  function fromInterface(out: Float64Array, y: Float64Array): void {
+    for (let i = 0; i < nc; i++) {
+      for (let l = 0; l < L; l++) out[l * nc + i] = y[l * nc + i] - (l + 1 < L ? y[(l + 1) * nc + i] : 0);
+    }
+    for (let q = uOffset; q < n; q++) out[q] = y[q];
+  }
+  const interfaceWeights = new Float64Array(n);
+  for (let l = 0; l < L; l++) for (let i = 0; i < nc; i++) interfaceWeights[l * nc + i] = cellArea[i] * p.reducedGravity[l];
+  for (let k = 0; k < L; k++) {
+    for (let e = 0; e < ne; e++) interfaceWeights[uOffset + k * ne + e] = len[e] * dc[e] * Hedge[k * ne + e];
+  }
+
+  // deepest column and largest |f|, for the analytic bound
+  let deepest = 0;
+  for (let i = 0; i < nc; i++) {
+    let s = 0;
+    for (let k = 0; k < L; k++) s += H[k * nc + i];
+    deepest = Math.max(deepest, s);
+  }
+  const column = [...p.nominalThickness];
+  column[L - 1] = deepest - column.slice(0, L - 1).reduce((a, b) => a + b, 0);
+  const fastestSpeed = verticalModes(p.reducedGravity, column, p.f0).speeds[0];
+  let maxCoriolis = 0;
+  for (let v = 0; v < m.nVertices; v++) maxCoriolis = Math.max(maxCoriolis, Math.abs(p.coriolisVertex[v]));
+
+  const tmpA = new Float64Array(n), tmpB = new Float64Array(n);
+  const interfaceOp: { -readonly [K in keyof LinearOperator]: LinearOperator[K] } = {
+    n, weights: interfaceWeights, skew: true, counters,
+    apply(out, y) {
+      fromInterface(tmpA, y);
+      applyLayers(tmpB, tmpA);
+      toInterface(out, tmpB);
+      counters.matvecs++;
+    },
+  };
+  const op: RestLinearOperator & { spectralBound: number } = {
+    n, layout, counters, skew: true, spectralBound: Infinity,
+    restThickness: H, edgeThickness: Hedge, restPv, coriolisCoef, coupling, fastestSpeed, maxCoriolis,
+    interfaceForm: interfaceOp,
+    apply(out, x) {
+      applyLayers(out, x);
+      counters.matvecs++;
+    },
+    toInterface, fromInterface,
+    energyDot(a, b) {
+      toInterface(tmpA, a);
+      toInterface(tmpB, b);
+      let s = 0;
+      for (let q = 0; q < n; q++) s += interfaceWeights[q] * tmpA[q] * tmpB[q];
+      return s;
+    },
+  };
+
+  const mode = opts.spectralBound ?? "auto";
+  let bound: number;
+  if (mode === "auto" && isRegularHexMesh(m)) {
+    bound = Math.sqrt(maxCoriolis ** 2 + (6 * fastestSpeed ** 2) / m.spacing ** 2) * (1 + (opts.margin ?? 0.02));
+  } else {
+    const saved = { ...counters };
+    const est = estimateSpectralRadius(interfaceOp, interfaceWeights, { iterations: 80 });
+    counters.matvecs = saved.matvecs;
+    counters.innerProducts = saved.innerProducts;
+    bound = est * (1 + (opts.margin ?? 0.1));
+  }
+  op.spectralBound = bound;
+  interfaceOp.spectralBound = bound;
+  return op;
+}
+
+/**
+ * Power iteration on −A² (self-adjoint and positive semi-definite in the weighted inner product when A is
+ * skew-adjoint there, reference §4.2): returns √ of the Rayleigh quotient ‖A x‖²_w / ‖x‖²_w after the given
+ * iterations, a lower estimate of the spectral radius that converges from below. Start vector from a seeded
+ * generator, so the result is reproducible. Allocates its two work vectors per call (construction time only).
+ */
+export function estimateSpectralRadius(
+  op: LinearOperator, weights: Float64Array | undefined, o: { iterations?: number; seed?: number } = {},
+): number {
+  const n = op.n;
+  const x = new Float64Array(n), y = new Float64Array(n), z = new Float64Array(n);
+  let s = (o.seed ?? 12345) >>> 0;
+  for (let i = 0; i < n; i++) {
+    s = (Math.imul(s, 1664525) + 1013904223) >>> 0;
+    x[i] = s / 4294967296 - 0.5;
+  }
+  const wdot = (a: Float64Array, b: Float64Array) => {
+    let t = 0;
+    if (weights) for (let i = 0; i < n; i++) t += weights[i] * a[i] * b[i];
+    else for (let i = 0; i < n; i++) t += a[i] * b[i];
+    return t;
+  };
+  let rho2 = 0;
+  const iters = o.iterations ?? 60;
+  for (let it = 0; it < iters; it++) {
+    const nx = Math.sqrt(wdot(x, x));
+    if (!(nx > 0)) return 0;
+    for (let i = 0; i < n; i++) x[i] /= nx;
+    op.apply(y, x);
+    rho2 = wdot(y, y); // ‖A x‖² with ‖x‖ = 1
+    op.apply(z, y);
+    for (let i = 0; i < n; i++) x[i] = -z[i]; // x ← −A² x
+  }
+  return Math.sqrt(rho2);
+}

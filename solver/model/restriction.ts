@@ -1,0 +1,368 @@
+/**
+ * Vertical-mode restriction R (layers → m modes) and prolongation P (modes → layers), the restricted
+ * (modal) operator L̂ = R L P and the φ-functions of the restricted linear part (numerics reference §2.4).
+ *
+ * Structures: at every cell i the eigenvectors S_i of 𝒢 H_i (H_i = resting thicknesses of the column,
+ * normalised S_iᵀ H_i S_i = H_tot,i I), and at every edge S_e from the edge thicknesses Ĥ_e. With a flat
+ * bottom all of them are the same matrix; with topography they follow the local column, as the sheet describes.
+ *
+ *   restriction   ĥ_{a,i} = Σ_k S_i[k,a] h'_{k,i} / H_tot,i        û_{a,e} = Σ_k S_e[k,a] Ĥ_{k,e} u_{k,e} / H_tot,e
+ *   prolongation  h'_{k,i} = H_{k,i} Σ_a S_i[k,a] ĥ_{a,i}          u_{k,e} = Σ_a S_e[k,a] û_{a,e}
+ *
+ * R P = I, and Π = P R is self-adjoint in the linear-energy inner product cell by cell and edge by edge
+ * (kinetic part: Ĥ_e-orthogonal; potential part: 𝒢-orthogonal since 𝒢 H_i S_i = S_i Λ_i). In modal variables
+ * the energy weights are diagonal: l_e d_e H_tot,e for û_a, A_i H_tot,i c²_{a,i} for ĥ_a, and L̂ is skew there.
+ *
+ * Modal layout (like a state with m "layers"): y[a·nCells + i] = ĥ_a, y[m·nCells + a·nEdges + e] = û_a.
+ * L̂ is assembled once into m×m blocks on the sparsity of L: flat bottom → the blocks are diagonal and L̂ is
+ * m decoupled single-layer operators with speeds c_a (cost ≈ m/L of L); with topography the blocks are full
+ * (cost ≈ m²/L of L: the modes couple where the column changes).
+ *
+ * Linear part used by the steppers: M = Π̃ L Π with Π̃ = diag(I on thickness, Π_u on velocity). Since
+ * M^j = Π̃ L P L̂^{j−1} R for j ≥ 1,
+ *
+ *   φ_k(τM) v = v/k! + τ Π̃ L P φ_{k+1}(τL̂) R v                                       (exact)
+ *
+ * whose thickness part is v/k! plus a layer divergence −D(Ĥ_k (P_u ·)_k): layer mass stays exact to round-off
+ * for any approximation of φ_{k+1}(τL̂). With a flat bottom Π commutes with L, M = Π L Π, and the formula equals
+ * the sheet's φ_k(τL*) v = P φ_k(τL̂) R v + (v − Π v)/k! (tested). With topography M differs from Π L Π only by
+ * (I − Π_h) L Π on the thickness output — the price of exact layer mass (a per-cell Π_h cannot conserve it);
+ * the nonzero spectrum of M is that of L̂ (purely imaginary).
+ */
+import { SolverError } from "../errors.js";
+import type { LinearOperator, OperatorCounters, PhiAction, PhiStats } from "../linalg/types.js";
+import { verticalModes } from "../diagnostics/modes.js";
+import { inverseFactorial } from "../linalg/scalarPhi.js";
+import type { ShallowWaterModel, StateLayout } from "./shallowWater.js";
+import { isRegularHexMesh, restLinearOperator, estimateSpectralRadius, type RestLinearOperator } from "./linear.js";
+
+export interface ModalRestriction {
+  /** Number of kept modes m (1 = barotropic only). */
+  readonly modes: number;
+  readonly layout: StateLayout;
+  /** Layout of the modal vectors (m "layers"). */
+  readonly modalLayout: StateLayout;
+  /** True when every column has the same structure (flat bottom): L̂ is block-diagonal by mode. */
+  readonly flat: boolean;
+  /** Largest speed c_a of each kept mode over the columns [m/s]. */
+  readonly speeds: readonly number[];
+  /** The rest-state operator L this restriction was built from. */
+  readonly rest: RestLinearOperator;
+  /** out (modal) = R x (x a layer perturbation). */
+  restrict(out: Float64Array, x: Float64Array): void;
+  /** out (layers) = P y. */
+  prolong(out: Float64Array, y: Float64Array): void;
+  /** out = Π x = P R x. */
+  project(out: Float64Array, x: Float64Array): void;
+  /** The modal operator L̂ = R L P (weights, skew, spectralBound set). */
+  readonly operator: LinearOperator;
+  /** out (layers) = Π̃ L P y for a modal y: thickness −D(Ĥ_k (P_u y)_k), velocity P_u (L̂ y)_u. Counted as one L̂ matvec. */
+  liftApply(out: Float64Array, y: Float64Array): void;
+  /** The restricted linear part M = Π̃ L Π as an operator on layer vectors. */
+  readonly restricted: LinearOperator;
+}
+
+export function modalRestriction(model: ShallowWaterModel, nModes: number, rest: RestLinearOperator = restLinearOperator(model)): ModalRestriction {
+  const mesh = model.mesh;
+  const p = model.params;
+  const layout = model.layout;
+  const { nLayers: L, nCells: nc, nEdges: ne, uOffset, n } = layout;
+  const field = "stepper.linear";
+  if (!Number.isInteger(nModes) || nModes < 1) throw new SolverError("bad-input", `${field}: modes:${nModes} must keep a whole number ≥ 1 of modes`, field);
+  if (nModes > L) throw new SolverError("bad-input", `${field}: modes:${nModes} asks for more modes than the ${L} layer${L === 1 ? "" : "s"}`, field);
+  const m = nModes;
+  const mm = m * m;
+  const H = rest.restThickness, Hedge = rest.edgeThickness;
+
+  // per-column structures S[k,a] (L×m), Λ[a], H_tot
+  const Scell = new Float64Array(nc * L * m), lamCell = new Float64Array(nc * m), HtotCell = new Float64Array(nc);
+  const Sedge = new Float64Array(ne * L * m), HtotEdge = new Float64Array(ne);
+  const speeds = new Array<number>(m).fill(0);
+  const cache = new Map<string, { S: Float64Array; lam: number[] }>();
+  const column = new Array<number>(L);
+  function structureOf(thick: number[]): { S: Float64Array; lam: number[] } {
+    const key = thick.join(",");
+    let r = cache.get(key);
+    if (!r) {
+      const vm = verticalModes(p.reducedGravity, thick, p.f0);
+      const S = new Float64Array(L * m);
+      for (let k = 0; k < L; k++) for (let a = 0; a < m; a++) S[k * m + a] = vm.structure[k * L + a];
+      r = { S, lam: vm.speeds.slice(0, m).map((c) => c * c) };
+      cache.set(key, r);
+    }
+    return r;
+  }
+  for (let i = 0; i < nc; i++) {
+    let tot = 0;
+    for (let k = 0; k < L; k++) { column[k] = H[k * nc + i]; tot += column[k]; }
+    const { S, lam } = structureOf(column);
+    Scell.set(S, i * L * m);
+    for (let a = 0; a < m; a++) { lamCell[i * m + a] = lam[a]; speeds[a] = Math.max(speeds[a], Math.sqrt(lam[a])); }
+    HtotCell[i] = tot;
+  }
+  for (let e = 0; e < ne; e++) {
+    let tot = 0;
+    for (let k = 0; k < L; k++) { column[k] = Hedge[k * ne + e]; tot += column[k]; }
+    Sedge.set(structureOf(column).S, e * L * m);
+    HtotEdge[e] = tot;
+  }
+  const flat = cache.size === 1;
+
+  // modal layout and energy weights
+  const mOffset = m * nc;
+  const nModal = m * (nc + ne);
+  const modalLayout: StateLayout = { nLayers: m, nCells: nc, nEdges: ne, uOffset: mOffset, n: nModal };
+  const weights = new Float64Array(nModal);
+  for (let a = 0; a < m; a++) {
+    for (let i = 0; i < nc; i++) weights[a * nc + i] = mesh.cellArea[i] * HtotCell[i] * lamCell[i * m + a];
+    for (let e = 0; e < ne; e++) weights[mOffset + a * ne + e] = mesh.edgeLength[e] * mesh.edgeCellDistance[e] * HtotEdge[e];
+  }
+
+  // blocks of L̂ = R L P on the sparsity of L
+  const { tangentOffset: tOff, tangentIndex: tIdx, edgeCells: ec, edgeOpen, edgeCellDistance: dc } = mesh;
+  const { cellEdgeOffset: cOff, cellEdgeIndex: cIdx, cellEdgeSign: cSgn, edgeLength: len, cellArea } = mesh;
+  const nnzT = tOff[ne], nnzC = cOff[nc];
+  const corBlk = new Float64Array(nnzT * mm); // [q][a][b]
+  const gradBlk = new Float64Array(ne * 2 * mm); // [e][side c1=0, c2=1][a][b], includes ∓1/d_e
+  const divBlk = new Float64Array(nnzC * mm); // [q][a][b], includes −sign l_e/A_i
+  const cor = rest.coriolisCoef;
+  for (let e = 0; e < ne; e++) {
+    if (!edgeOpen[e]) continue;
+    const se = e * L * m;
+    for (let q = tOff[e]; q < tOff[e + 1]; q++) {
+      const s2 = tIdx[q] * L * m;
+      for (let a = 0; a < m; a++) for (let b = 0; b < m; b++) {
+        let s = 0;
+        for (let k = 0; k < L; k++) s += Sedge[se + k * m + a] * Hedge[k * ne + e] * cor[k * nnzT + q] * Sedge[s2 + k * m + b];
+        corBlk[q * mm + a * m + b] = s / HtotEdge[e];
+      }
+    }
+    for (let side = 0; side < 2; side++) {
+      const c = ec[2 * e + side], sc = c * L * m, sign = side === 0 ? 1 : -1;
+      for (let a = 0; a < m; a++) for (let b = 0; b < m; b++) {
+        let s = 0;
+        for (let k = 0; k < L; k++) s += Sedge[se + k * m + a] * Hedge[k * ne + e] * Scell[sc + k * m + b];
+        gradBlk[(e * 2 + side) * mm + a * m + b] = (sign * s * lamCell[c * m + b]) / (HtotEdge[e] * dc[e]);
+      }
+    }
+  }
+  for (let i = 0; i < nc; i++) {
+    const si = i * L * m;
+    for (let q = cOff[i]; q < cOff[i + 1]; q++) {
+      const e = cIdx[q], se = e * L * m;
+      for (let a = 0; a < m; a++) for (let b = 0; b < m; b++) {
+        let s = 0;
+        for (let k = 0; k < L; k++) s += Scell[si + k * m + a] * Hedge[k * ne + e] * Sedge[se + k * m + b];
+        divBlk[q * mm + a * m + b] = (-cSgn[q] * len[e] * s) / (cellArea[i] * HtotCell[i]);
+      }
+    }
+  }
+  // flat bottom: keep the diagonals only (the off-diagonal entries are round-off)
+  const corDiag = new Float64Array(nnzT * m), gradDiag = new Float64Array(ne * 2 * m), divDiag = new Float64Array(nnzC * m);
+  if (flat) {
+    for (let q = 0; q < nnzT; q++) for (let a = 0; a < m; a++) corDiag[q * m + a] = corBlk[q * mm + a * m + a];
+    for (let r = 0; r < 2 * ne; r++) for (let a = 0; a < m; a++) gradDiag[r * m + a] = gradBlk[r * mm + a * m + a];
+    for (let q = 0; q < nnzC; q++) for (let a = 0; a < m; a++) divDiag[q * m + a] = divBlk[q * mm + a * m + a];
+  }
+
+  const counters: OperatorCounters = { matvecs: 0, innerProducts: 0 };
+
+  /** Velocity part of L̂ y into out (modal layout, velocity block only). */
+  function applyVelocity(out: Float64Array, y: Float64Array): void {
+    if (flat) {
+      for (let a = 0; a < m; a++) {
+        const uo = mOffset + a * ne, ho = a * nc;
+        for (let e = 0; e < ne; e++) {
+          if (!edgeOpen[e]) { out[uo + e] = 0; continue; }
+          let acc = 0;
+          for (let q = tOff[e]; q < tOff[e + 1]; q++) acc += corDiag[q * m + a] * y[uo + tIdx[q]];
+          acc += gradDiag[(2 * e) * m + a] * y[ho + ec[2 * e]] + gradDiag[(2 * e + 1) * m + a] * y[ho + ec[2 * e + 1]];
+          out[uo + e] = acc;
+        }
+      }
+      return;
+    }
+    for (let e = 0; e < ne; e++) {
+      for (let a = 0; a < m; a++) out[mOffset + a * ne + e] = 0;
+      if (!edgeOpen[e]) continue;
+      for (let q = tOff[e]; q < tOff[e + 1]; q++) {
+        const e2 = tIdx[q], blk = q * mm;
+        for (let a = 0; a < m; a++) {
+          let acc = 0;
+          for (let b = 0; b < m; b++) acc += corBlk[blk + a * m + b] * y[mOffset + b * ne + e2];
+          out[mOffset + a * ne + e] += acc;
+        }
+      }
+      for (let side = 0; side < 2; side++) {
+        const c = ec[2 * e + side], blk = (e * 2 + side) * mm;
+        for (let a = 0; a < m; a++) {
+          let acc = 0;
+          for (let b = 0; b < m; b++) acc += gradBlk[blk + a * m + b] * y[b * nc + c];
+          out[mOffset + a * ne + e] += acc;
+        }
+      }
+    }
+  }
+  /** Thickness part of L̂ y. */
+  function applyThickness(out: Float64Array, y: Float64Array): void {
+    if (flat) {
+      for (let a = 0; a < m; a++) {
+        const uo = mOffset + a * ne, ho = a * nc;
+        for (let i = 0; i < nc; i++) {
+          let acc = 0;
+          for (let q = cOff[i]; q < cOff[i + 1]; q++) acc += divDiag[q * m + a] * y[uo + cIdx[q]];
+          out[ho + i] = acc;
+        }
+      }
+      return;
+    }
+    for (let i = 0; i < nc; i++) {
+      for (let a = 0; a < m; a++) out[a * nc + i] = 0;
+      for (let q = cOff[i]; q < cOff[i + 1]; q++) {
+        const e = cIdx[q], blk = q * mm;
+        for (let a = 0; a < m; a++) {
+          let acc = 0;
+          for (let b = 0; b < m; b++) acc += divBlk[blk + a * m + b] * y[mOffset + b * ne + e];
+          out[a * nc + i] += acc;
+        }
+      }
+    }
+  }
+
+  function restrict(out: Float64Array, x: Float64Array): void {
+    for (let i = 0; i < nc; i++) {
+      const si = i * L * m;
+      for (let a = 0; a < m; a++) {
+        let s = 0;
+        for (let k = 0; k < L; k++) s += Scell[si + k * m + a] * x[k * nc + i];
+        out[a * nc + i] = s / HtotCell[i];
+      }
+    }
+    for (let e = 0; e < ne; e++) {
+      const se = e * L * m;
+      for (let a = 0; a < m; a++) {
+        let s = 0;
+        for (let k = 0; k < L; k++) s += Sedge[se + k * m + a] * Hedge[k * ne + e] * x[uOffset + k * ne + e];
+        out[mOffset + a * ne + e] = s / HtotEdge[e];
+      }
+    }
+  }
+  function prolongVelocity(out: Float64Array, outOff: number, y: Float64Array): void {
+    for (let e = 0; e < ne; e++) {
+      const se = e * L * m;
+      for (let k = 0; k < L; k++) {
+        let s = 0;
+        for (let a = 0; a < m; a++) s += Sedge[se + k * m + a] * y[mOffset + a * ne + e];
+        out[outOff + k * ne + e] = s;
+      }
+    }
+  }
+  function prolong(out: Float64Array, y: Float64Array): void {
+    for (let i = 0; i < nc; i++) {
+      const si = i * L * m;
+      for (let k = 0; k < L; k++) {
+        let s = 0;
+        for (let a = 0; a < m; a++) s += Scell[si + k * m + a] * y[a * nc + i];
+        out[k * nc + i] = H[k * nc + i] * s;
+      }
+    }
+    prolongVelocity(out, uOffset, y);
+  }
+  const modalTmp = new Float64Array(nModal), modalTmp2 = new Float64Array(nModal), layerU = new Float64Array(L * ne);
+  function project(out: Float64Array, x: Float64Array): void {
+    restrict(modalTmp, x);
+    prolong(out, modalTmp);
+  }
+  function liftApply(out: Float64Array, y: Float64Array): void {
+    counters.matvecs++;
+    // velocity: P_u (L̂ y)_u
+    applyVelocity(modalTmp2, y);
+    prolongVelocity(out, uOffset, modalTmp2);
+    // thickness: −D(Ĥ_k (P_u y)_k)
+    prolongVelocity(layerU, 0, y);
+    for (let k = 0; k < L; k++) {
+      for (let i = 0; i < nc; i++) {
+        let acc = 0;
+        for (let q = cOff[i]; q < cOff[i + 1]; q++) {
+          const e = cIdx[q];
+          acc += cSgn[q] * len[e] * Hedge[k * ne + e] * layerU[k * ne + e];
+        }
+        out[k * nc + i] = -acc / cellArea[i];
+      }
+    }
+  }
+
+  const modalOp: { -readonly [K in keyof LinearOperator]: LinearOperator[K] } = {
+    n: nModal, weights, skew: true, counters,
+    apply(out, y) {
+      counters.matvecs++;
+      applyThickness(out, y);
+      applyVelocity(out, y);
+    },
+  };
+  const restrictTmp = new Float64Array(nModal);
+  const restrictedOp: { -readonly [K in keyof LinearOperator]: LinearOperator[K] } = {
+    n, counters,
+    apply(out, x) {
+      restrict(restrictTmp, x);
+      liftApply(out, restrictTmp);
+    },
+  };
+
+  // spectral bound of L̂: the analytic hexagonal bound with the fastest kept column speed, or an estimate
+  const fMax = rest.maxCoriolis;
+  let bound: number;
+  if (isRegularHexMesh(mesh)) {
+    bound = Math.sqrt(fMax * fMax + (6 * speeds[0] * speeds[0]) / (mesh.spacing * mesh.spacing)) * 1.02;
+  } else {
+    const mv = counters.matvecs;
+    bound = estimateSpectralRadius(modalOp, weights, { iterations: 80 }) * 1.1;
+    counters.matvecs = mv;
+  }
+  modalOp.spectralBound = bound;
+  restrictedOp.spectralBound = bound;
+
+  return {
+    modes: m, layout, modalLayout, flat, speeds, rest,
+    restrict, prolong, project, operator: modalOp, liftApply, restricted: restrictedOp,
+  };
+}
+
+/**
+ * Σ_k τ^k φ_k(τM) v[k] for the restricted linear part M = Π̃ L Π, from a φ-action of the modal operator L̂
+ * built with maxPhi one higher than the caller's (see the file comment):
+ *
+ *   Σ_k τ^k φ_k(τM) v_k = Σ_k τ^k v_k / k! + Π̃ L P · Σ_k τ^{k+1} φ_{k+1}(τL̂) R v_k .
+ */
+export function restrictedPhiAction(r: ModalRestriction, modalPhi: PhiAction, maxPhi: number): PhiAction {
+  const nModal = r.modalLayout.n;
+  const w: Float64Array[] = [];
+  for (let k = 0; k <= maxPhi + 1; k++) w.push(new Float64Array(nModal));
+  const z = new Float64Array(nModal);
+  const lifted = new Float64Array(r.layout.n);
+  const stats: PhiStats = { matvecs: 0, innerProducts: 0, substeps: 0, errorEstimate: NaN, happyBreakdown: false };
+  return {
+    name: `${modalPhi.name} on ${r.modes} mode${r.modes === 1 ? "" : "s"}`,
+    stats,
+    apply(out, tau, v) {
+      if (v.length > maxPhi + 1) throw new SolverError("bad-input", `phi index ${v.length - 1} exceeds maxPhi ${maxPhi}`, "stepper.maxPhi");
+      out.fill(0);
+      w[0].fill(0);
+      for (let k = 0; k <= maxPhi; k++) {
+        if (k < v.length) {
+          const c = Math.pow(tau, k) * inverseFactorial(k), vk = v[k];
+          for (let q = 0; q < out.length; q++) out[q] += c * vk[q];
+          r.restrict(w[k + 1], vk);
+        } else w[k + 1].fill(0);
+      }
+      modalPhi.apply(z, tau, w);
+      r.liftApply(lifted, z);
+      for (let q = 0; q < out.length; q++) out[q] += lifted[q];
+      stats.matvecs = modalPhi.stats.matvecs + 1;
+      stats.innerProducts = modalPhi.stats.innerProducts;
+      stats.substeps = modalPhi.stats.substeps;
+      stats.errorEstimate = modalPhi.stats.errorEstimate;
+      stats.happyBreakdown = modalPhi.stats.happyBreakdown;
+    },
+  };
+}
