@@ -9,7 +9,7 @@ import { progressReporter, steppersFromArgs } from "./studyArgs.js";
 
 export const STABILITY_USAGE =
   "stability SCENARIO [--method M[,M2(key=value;…),…] | --steppers FILE] [--duration S] [--tolerance R] [--energy-growth G] " +
-  "[--min-steps N] [--start-dt S] [--json FILE] [--shard i/n]  (JSON: one object for one method, an array for several)";
+  "[--min-steps N] [--start-dt S] [--perturbation R] [--json FILE] [--shard i/n]  (JSON: one object for one method, an array for several)";
 
 /** The JSON of a finished study: one object for one stepper, an array in the given order for several. */
 export function stabilityJson(results: StabilityResult[]): StabilityResult | StabilityResult[] {
@@ -25,7 +25,7 @@ export function printStability(results: StabilityResult[], out: (s: string) => v
 }
 
 export function stabilityCommand(args: ParsedArgs, out: (s: string) => void, err: (s: string) => void): number {
-  rejectUnknown(args, ["method", "methods", "steppers", "duration", "tolerance", "energy-growth", "min-steps", "start-dt", "json", "shard"], "stability");
+  rejectUnknown(args, ["method", "methods", "steppers", "duration", "tolerance", "energy-growth", "min-steps", "start-dt", "perturbation", "json", "shard"], "stability");
   const scenario = parseScenario(loadScenarioArg(args.positional[0]));
   if (args.positional.length > 1) throw new SolverError("bad-input", `SCENARIO: give one scenario, got ${args.positional.length} words (${args.positional.join(" ")})`, "SCENARIO");
   const configs = steppersFromArgs(args, scenario, ["method", "methods"]);
@@ -35,6 +35,7 @@ export function stabilityCommand(args: ParsedArgs, out: (s: string) => void, err
     energyGrowth: numberOption(args, "energy-growth"),
     minSteps: numberOption(args, "min-steps", { positive: true, integer: true }),
     startDt: numberOption(args, "start-dt", { positive: true }),
+    perturbation: numberOption(args, "perturbation"),
   };
   if (options.tolerance !== undefined && !(options.tolerance > 0)) throw new SolverError("bad-input", `--tolerance: must be > 0 (relative width of the final bracket), got ${options.tolerance}`, "--tolerance");
   const shardText = stringOption(args, "shard");

@@ -3,6 +3,7 @@ import { Run } from "../driver/run.js";
 import type { BuiltScenario } from "../scenario/build.js";
 import type { StepperSpec } from "../scenario/schema.js";
 import { getMethod } from "../time/registry.js";
+import { seededRandom } from "../mesh/hexLattice.js";
 import { defaultLabel, StudyTracker, type StudyHooks } from "./common.js";
 import { contentHash } from "./hash.js";
 import { physicsContent } from "./reference.js";
@@ -24,6 +25,12 @@ export interface StabilityOptions {
   startDt?: number;
   /** At most this many doublings or halvings while bracketing (default 12). */
   maxBracketSteps?: number;
+  /**
+   * Seeded grid-scale noise added to every layer thickness before the trials, as a fraction of the layer's
+   * nominal thickness (default 1e-6; 0 = none). A smooth initial state barely projects on the fastest grid
+   * mode, so without it a short trial can pass well above the linear limit.
+   */
+  perturbation?: number;
 }
 
 export interface StabilityTrial {
@@ -50,6 +57,8 @@ export interface StabilityResult {
   tolerance: number;
   duration: number;
   energyGrowthThreshold: number;
+  /** Relative size of the seeded thickness noise added before the trials. */
+  perturbation: number;
   /** "initial" (E0) or "reference-run" (largest energy of an RK4 run at half its limit, for forced or resting starts). */
   energyScale: "initial" | "reference-run";
   trials: StabilityTrial[];
@@ -62,6 +71,7 @@ export interface ResolvedStabilityOptions {
   energyGrowth: number;
   startDt?: number;
   maxBracketSteps: number;
+  perturbation: number;
 }
 
 export function resolveStabilityOptions(run: Run, o: StabilityOptions = {}): ResolvedStabilityOptions {
@@ -73,7 +83,9 @@ export function resolveStabilityOptions(run: Run, o: StabilityOptions = {}): Res
     energyGrowth: o.energyGrowth ?? 0.1,
     startDt: o.startDt,
     maxBracketSteps: o.maxBracketSteps ?? 12,
+    perturbation: o.perturbation ?? 1e-6,
   };
+  if (!(r.perturbation >= 0 && r.perturbation < 0.1)) throw new SolverError("bad-input", `--perturbation: must lie in [0, 0.1), got ${r.perturbation}`, "--perturbation");
   if (!(r.duration > 0 && Number.isFinite(r.duration))) throw new SolverError("bad-input", `--duration: must be > 0, got ${r.duration}`, "--duration");
   if (!(r.tolerance > 0 && r.tolerance < 1)) throw new SolverError("bad-input", `--tolerance: the relative tolerance of the limit must lie in (0, 1), got ${r.tolerance}`, "--tolerance");
   if (!(r.energyGrowth > 0 && Number.isFinite(r.energyGrowth))) throw new SolverError("bad-input", `--energy-growth: must be > 0, got ${r.energyGrowth}`, "--energy-growth");
@@ -206,16 +218,37 @@ export function stabilitySearch(run: Run, scale: EnergyScale, config: StepperCon
   }
   return {
     method: config.method, label, maxStableDt: lo, ratioToRk4: lo / limit, rk4DtLimit: limit, bracketed,
-    tolerance: o.tolerance, duration: o.duration, energyGrowthThreshold: o.energyGrowth, energyScale: scale.kind, trials,
+    tolerance: o.tolerance, duration: o.duration, energyGrowthThreshold: o.energyGrowth, perturbation: o.perturbation, energyScale: scale.kind, trials,
   };
 }
 
+/**
+ * The scenario with seeded noise of relative size `amplitude` on every layer thickness, zero area-weighted mean per
+ * layer so that the layer volumes are unchanged.
+ */
+export function perturbedScenario(built: BuiltScenario, amplitude: number, seed = 20240611): BuiltScenario {
+  if (amplitude === 0) return built;
+  const { nLayers: L, nCells: nc } = built.model.layout;
+  const A = built.mesh.cellArea;
+  const H = built.model.params.nominalThickness;
+  const initial = Float64Array.from(built.initial);
+  const rnd = seededRandom(seed);
+  const noise = new Float64Array(nc);
+  for (let k = 0; k < L; k++) {
+    let sum = 0; let area = 0;
+    for (let i = 0; i < nc; i++) { noise[i] = amplitude * H[k] * (rnd() - 0.5); sum += A[i] * noise[i]; area += A[i]; }
+    for (let i = 0; i < nc; i++) initial[k * nc + i] += noise[i] - sum / area;
+  }
+  return { ...built, initial };
+}
+
 /** Stability searches for several steppers on one scenario, sharing the run and the energy scale. */
-export function stabilityStudy(built: BuiltScenario, configs: readonly StepperConfig[], options: StabilityOptions = {},
+export function stabilityStudy(original: BuiltScenario, configs: readonly StepperConfig[], options: StabilityOptions = {},
   hooks: StudyHooks = {}): StabilityResult[] {
   if (!configs.length) throw new SolverError("bad-input", "--method: give at least one method", "--method");
+  const o = resolveStabilityOptions(new Run(original, { method: "rk4", dt: 1 }), options);
+  const built = perturbedScenario(original, o.perturbation);
   const run = new Run(built, { ...configs[0], dt: 1 } as StepperSpec);
-  const o = resolveStabilityOptions(run, options);
   // validate every stepper before any work
   configs.forEach((c, i) => { getMethod(c.method, "--method"); run.setStepper({ ...c, dt: 1 } as StepperSpec, configs.length > 1 ? `--method[${i}]` : "--method"); });
   const scale = new EnergyScale(built);
