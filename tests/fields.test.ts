@@ -1,6 +1,6 @@
 import { describe, expect, it } from "vitest";
 import { layerMass } from "../solver/diagnostics/budget";
-import { computeField, fieldRange, fieldWork, FIELDS } from "../solver/diagnostics/fields";
+import { cellOutlines, computeField, fieldRange, fieldWork, FIELDS } from "../solver/diagnostics/fields";
 import { buildScenario } from "../solver/scenario/build";
 import { parseScenario } from "../solver/scenario/schema";
 
@@ -123,5 +123,33 @@ describe("map fields", () => {
   it("fieldRange skips NaN and reports an all-NaN field as NaN", () => {
     expect(fieldRange(Float64Array.of(3, NaN, -2, 7))).toEqual({ min: -2, max: 7 });
     expect(Number.isNaN(fieldRange(Float64Array.of(NaN)).min)).toBe(true);
+  });
+});
+
+describe("cell outlines for the map", () => {
+  it("each outline's shoelace area equals the mesh's cell area, also across the periodic seam (Gauss's area formula; common practice, no source)", () => {
+    for (const meshSpec of [periodic, { type: "basin-hex", shape: "ellipse", width: 200000, height: 150000, spacing: 10000 }]) {
+      const { mesh } = build({ mesh: meshSpec, initial: { type: "rest" } });
+      const o = cellOutlines(mesh);
+      for (let i = 0; i < mesh.nCells; i++) {
+        let a = 0;
+        for (let q = o.offset[i], n = o.offset[i + 1]; q < n; q++) {
+          const r = q + 1 < n ? q + 1 : o.offset[i];
+          a += o.vertexXY[2 * q] * o.vertexXY[2 * r + 1] - o.vertexXY[2 * r] * o.vertexXY[2 * q + 1];
+        }
+        expect(a / 2 / mesh.cellArea[i]).toBeCloseTo(1, 9);
+      }
+    }
+  });
+
+  it("a basin's coastline segments join end to end into closed loops and a periodic mesh has none", () => {
+    const { mesh } = build({ mesh: { type: "basin-hex", shape: "ellipse", width: 200000, height: 150000, spacing: 10000 }, initial: { type: "rest" } });
+    const o = cellOutlines(mesh);
+    expect(o.coast.length).toBeGreaterThan(0);
+    const key = (x: number, y: number) => `${Math.round(x)},${Math.round(y)}`;
+    const degree = new Map<string, number>();
+    for (let c = 0; c < o.coast.length; c += 2) degree.set(key(o.coast[c], o.coast[c + 1]), (degree.get(key(o.coast[c], o.coast[c + 1])) ?? 0) + 1);
+    for (const d of degree.values()) expect(d % 2).toBe(0);
+    expect(cellOutlines(build({ mesh: periodic, initial: { type: "rest" } }).mesh).coast.length).toBe(0);
   });
 });

@@ -155,3 +155,58 @@ export function computeField(
   }
   return fieldRange(out, model.layout.nCells);
 }
+
+/**
+ * Cell outlines and coastline for drawing. Polygon vertex positions are the cell centre plus the minimal-image
+ * displacement to each vertex, so cells on a periodic seam stay whole (they may reach past the domain edge).
+ */
+export interface CellOutlines {
+  readonly kind: "periodic" | "basin";
+  readonly nCells: number;
+  /** Periodic domain size [m] (the drawing shows one period). */
+  readonly width: number;
+  readonly height: number;
+  /** Extent of the drawing [m]: the periodic domain, or the bounding box of the basin's cell outlines. */
+  readonly xMin: number; readonly xMax: number; readonly yMin: number; readonly yMax: number;
+  /** CSR offsets into `vertexXY` (in vertices), length nCells + 1. */
+  readonly offset: Int32Array;
+  /** Vertex positions (x, y) of each cell outline, counter-clockwise [m]. */
+  readonly vertexXY: Float64Array;
+  readonly cellX: Float64Array;
+  readonly cellY: Float64Array;
+  /** Coastline segments (x1, y1, x2, y2) [m], one per edge with no cell on its far side. */
+  readonly coast: Float64Array;
+}
+
+export function cellOutlines(mesh: ShallowWaterModel["mesh"]): CellOutlines {
+  const { nCells, cellEdgeOffset: off, cellVertexIndex: vi, vertexX, vertexY, cellX, cellY } = mesh;
+  const periodic = mesh.kind === "periodic";
+  const vertexXY = new Float64Array(2 * off[nCells]);
+  let xMin = Infinity; let xMax = -Infinity; let yMin = Infinity; let yMax = -Infinity;
+  for (let i = 0; i < nCells; i++) {
+    for (let q = off[i]; q < off[i + 1]; q++) {
+      let dx = vertexX[vi[q]] - cellX[i];
+      let dy = vertexY[vi[q]] - cellY[i];
+      if (periodic) { dx -= mesh.width * Math.round(dx / mesh.width); dy -= mesh.height * Math.round(dy / mesh.height); }
+      const px = cellX[i] + dx;
+      const py = cellY[i] + dy;
+      vertexXY[2 * q] = px; vertexXY[2 * q + 1] = py;
+      if (px < xMin) xMin = px; if (px > xMax) xMax = px;
+      if (py < yMin) yMin = py; if (py > yMax) yMax = py;
+    }
+  }
+  if (periodic) { xMin = 0; xMax = mesh.width; yMin = 0; yMax = mesh.height; }
+  let nCoast = 0;
+  for (let e = 0; e < mesh.nEdges; e++) if (mesh.edgeCells[2 * e + 1] < 0) nCoast++;
+  const coast = new Float64Array(4 * nCoast);
+  for (let e = 0, c = 0; e < mesh.nEdges; e++) {
+    if (mesh.edgeCells[2 * e + 1] >= 0) continue;
+    const v1 = mesh.edgeVertices[2 * e];
+    const v2 = mesh.edgeVertices[2 * e + 1];
+    coast[c++] = vertexX[v1]; coast[c++] = vertexY[v1]; coast[c++] = vertexX[v2]; coast[c++] = vertexY[v2];
+  }
+  return {
+    kind: mesh.kind, nCells, width: mesh.width, height: mesh.height, xMin, xMax, yMin, yMax,
+    offset: Int32Array.from(off), vertexXY, cellX: Float64Array.from(cellX), cellY: Float64Array.from(cellY), coast,
+  };
+}

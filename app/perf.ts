@@ -1,0 +1,9 @@
+/** Frame figures of the map, read by the browser tests (window.__stepwellPerf) and shown nowhere else. */
+export interface MapPerf {
+  draws: number;
+  drawMsTotal: number;
+  drawMsMax: number;
+  snapshots: number;
+}
+export const mapPerf: MapPerf = { draws: 0, drawMsTotal: 0, drawMsMax: 0, snapshots: 0 };
+(globalThis as unknown as { __stepwellPerf: MapPerf }).__stepwellPerf = mapPerf;

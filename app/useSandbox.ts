@@ -1,0 +1,321 @@
+import { useCallback, useEffect, useMemo, useRef, useState } from "react";
+import { transfer } from "comlink";
+import { failureMessage, isWorkerFailure, SolverClient } from "../workers/client.js";
+import type {
+  ChunkReport, InitResult, MapView, Scenario, Snapshot, StepperSpec, UnstableInfo, WorkerFailure,
+} from "../workers/protocol.js";
+import { thin, type BudgetSample } from "./drift.js";
+import { mapPerf } from "./perf.js";
+import { decodeSetup, encodeSetup } from "./share.js";
+
+/**
+ * The one container hook: owns the solver worker, the run loop, the latest report and snapshot, the budget
+ * history and the notices. Panels get plain data and callbacks from it.
+ */
+
+export const DEFAULT_SCENARIO = "shelf-gyre-basin";
+/** Worker time per chunk the loop aims for [ms]: short enough for a snappy pause, long enough to amortise messages. */
+const CHUNK_TARGET_MS = 30;
+const HISTORY_LIMIT = 3000;
+
+export interface Notice {
+  id: number;
+  kind: "error" | "warning" | "info";
+  text: string;
+  testid: string;
+}
+
+export type Setup = Omit<InitResult, "report">;
+export interface Builtin { name: string; description: string; scenario: unknown }
+
+export interface Rates {
+  daysPerSecond: number;
+  rhsPerStep: number;
+  matvecsPerStep: number;
+}
+
+export function useSandbox() {
+  const clientRef = useRef<SolverClient | null>(null);
+  const [setup, setSetup] = useState<Setup | null>(null);
+  const [builtins, setBuiltins] = useState<Builtin[]>([]);
+  const [report, setReport] = useState<ChunkReport | null>(null);
+  const [running, setRunning] = useState(false);
+  const [view, setViewState] = useState<MapView>({ kind: "surface", layer: 0 });
+  const [notices, setNotices] = useState<Notice[]>([]);
+  const [unstable, setUnstable] = useState<UnstableInfo | null>(null);
+  const [rates, setRates] = useState<Rates>({ daysPerSecond: 0, rhsPerStep: 0, matvecsPerStep: 0 });
+  const [scenarioError, setScenarioError] = useState<WorkerFailure | null>(null);
+  const [stepperError, setStepperError] = useState<WorkerFailure | null>(null);
+  const [shareUrl, setShareUrl] = useState("");
+  const [snapshotVersion, setSnapshotVersion] = useState(0);
+  const [historyVersion, setHistoryVersion] = useState(0);
+  const [loading, setLoading] = useState(true);
+
+  const runningRef = useRef(false);
+  const viewRef = useRef(view);
+  const snapshotRef = useRef<Snapshot | null>(null);
+  const spareRef = useRef<Float32Array | null>(null);
+  const historyRef = useRef<BudgetSample[]>([]);
+  const scenarioRef = useRef<Scenario | null>(null);
+  const stepsPerChunk = useRef(1);
+  const clockRef = useRef<{ wall: number; sim: number }[]>([]);
+  const noticeId = useRef(0);
+  const builtinsRef = useRef<Builtin[]>([]);
+  /** The hash this page wrote itself (sharing), so that it is not reloaded as if a new link had been pasted. */
+  const lastSharedHash = useRef("");
+
+  const notify = useCallback((kind: Notice["kind"], testid: string, text: string) => {
+    const id = ++noticeId.current;
+    setNotices((ns) => [...ns.filter((n) => n.testid !== testid), { id, kind, text, testid }]);
+  }, []);
+  const dismiss = useCallback((id: number) => setNotices((ns) => ns.filter((n) => n.id !== id)), []);
+
+  const client = useCallback((): SolverClient => clientRef.current!, []);
+
+  /** Take the spare snapshot buffer (to be moved to the worker and refilled there). */
+  const takeSpare = (): Float32Array | undefined => {
+    const s = spareRef.current;
+    spareRef.current = null;
+    return s && s.byteLength > 0 ? transfer(s, [s.buffer]) : undefined;
+  };
+
+  const acceptSnapshot = (s: Snapshot) => {
+    const prev = snapshotRef.current;
+    if (prev && prev.values !== s.values && prev.values.byteLength > 0) spareRef.current = prev.values;
+    snapshotRef.current = s;
+    mapPerf.snapshots++;
+    setSnapshotVersion((v) => v + 1);
+  };
+
+  const acceptReport = (rep: ChunkReport, fresh = false) => {
+    acceptSnapshot(rep.snapshot);
+    setReport(rep);
+    const sample: BudgetSample = { time: rep.time, energy: rep.budget.energy, mass: rep.budget.mass };
+    if (fresh) historyRef.current = [sample];
+    else if (rep.chunkSteps > 0) historyRef.current = thin([...historyRef.current, sample], HISTORY_LIMIT);
+    setHistoryVersion((v) => v + 1);
+    const c = rep.counters;
+    const now = performance.now();
+    const clock = clockRef.current;
+    if (fresh) clock.length = 0;
+    clock.push({ wall: now, sim: rep.time });
+    while (clock.length > 2 && now - clock[0].wall > 2000) clock.shift();
+    const first = clock[0];
+    const daysPerSecond = clock.length > 1 && now > first.wall ? (rep.time - first.sim) / 86400 / ((now - first.wall) / 1000) : 0;
+    setRates({
+      daysPerSecond,
+      rhsPerStep: c.steps ? c.rhsEvaluations / c.steps : 0,
+      matvecsPerStep: c.steps ? c.matvecs / c.steps : 0,
+    });
+    if (rep.unstable) setUnstable(rep.unstable);
+  };
+
+  const adopt = (res: InitResult) => {
+    const { report: rep, ...rest } = res;
+    setSetup(rest);
+    scenarioRef.current = { ...res.scenario, stepper: res.stepper.spec };
+    setUnstable(null);
+    setScenarioError(null);
+    setStepperError(null);
+    spareRef.current = null;
+    snapshotRef.current = null;
+    const nLayers = res.description.nLayers;
+    if (viewRef.current.layer >= nLayers) setView({ ...viewRef.current, layer: nLayers - 1 });
+    acceptReport(rep, true);
+  };
+
+  const stop = () => {
+    runningRef.current = false;
+    setRunning(false);
+  };
+
+  const handleFailure = (e: unknown, what: string) => {
+    stop();
+    if (isWorkerFailure(e) && e.code === "worker-died") return; // the restart notice says it
+    notify("error", "run-error", `${what}: ${failureMessage(e)}`);
+  };
+
+  /** Validate and load a scenario object; returns the failure instead of throwing. */
+  const load = useCallback(async (raw: unknown, stepper?: StepperSpec): Promise<WorkerFailure | null> => {
+    stop();
+    try {
+      const res = await client().call((r) => r.init(raw, stepper, viewRef.current), 120_000);
+      adopt(res);
+      return null;
+    } catch (e) {
+      return isWorkerFailure(e) ? e : { name: "WorkerError", code: "internal", message: failureMessage(e) };
+    }
+  }, []);
+
+  const loadDefault = async () => {
+    const b = builtinsRef.current.find((x) => x.name === DEFAULT_SCENARIO) ?? builtinsRef.current[0];
+    if (b) await load(b.scenario);
+  };
+
+  /** Start from the link in the address bar, or the default scenario. */
+  const startFromLocation = async () => {
+    setLoading(true);
+    const decoded = decodeSetup(window.location.hash);
+    if (decoded.kind === "ok") {
+      const fail = await load(decoded.scenario);
+      if (!fail) { setLoading(false); return; }
+      notify("warning", "link-error", `The shared link could not be used: ${fail.message}. The default scenario was loaded instead.`);
+    } else if (decoded.kind === "broken") {
+      notify("warning", "link-error", `The shared link could not be used: ${decoded.reason}. The default scenario was loaded instead.`);
+    }
+    await loadDefault();
+    setLoading(false);
+  };
+
+  useEffect(() => {
+    const c = new SolverClient({
+      onRestart: (reason) => {
+        stop();
+        notify("error", "worker-restarted", `The solver worker stopped (${reason}). A new one was started and the run was set back to its start.`);
+        const s = scenarioRef.current;
+        void (async () => {
+          const fail = s ? await load(s) : null;
+          if (!s || fail) await loadDefault();
+        })();
+      },
+    });
+    clientRef.current = c;
+    void (async () => {
+      try {
+        builtinsRef.current = await c.call((r) => r.builtins());
+        setBuiltins(builtinsRef.current);
+        await startFromLocation();
+      } catch (e) {
+        setLoading(false);
+        notify("error", "run-error", `The solver could not start: ${failureMessage(e)}`);
+      }
+    })();
+    const onHash = () => { if (window.location.hash !== lastSharedHash.current) void startFromLocation(); };
+    window.addEventListener("hashchange", onHash);
+    if (import.meta.env.DEV) {
+      (window as unknown as { __stepwell: unknown }).__stepwell = { crashWorker: () => c.call((r) => r.crashForTesting()) };
+    }
+    return () => {
+      window.removeEventListener("hashchange", onHash);
+      runningRef.current = false;
+      c.dispose();
+    };
+  }, []);
+
+  const runLoop = async () => {
+    while (runningRef.current) {
+      let rep: ChunkReport;
+      try {
+        const n = stepsPerChunk.current;
+        rep = await client().call((r) => r.advance(n, viewRef.current, takeSpare()));
+      } catch (e) {
+        handleFailure(e, "The run stopped");
+        return;
+      }
+      acceptReport(rep);
+      if (rep.unstable) { stop(); return; }
+      if (rep.chunkSteps > 0) {
+        const perStep = Math.max(rep.chunkMs, 0.05) / rep.chunkSteps;
+        stepsPerChunk.current = Math.max(1, Math.min(2000, Math.round(CHUNK_TARGET_MS / perStep)));
+      }
+    }
+  };
+
+  const run = useCallback(() => {
+    if (runningRef.current || !scenarioRef.current) return;
+    runningRef.current = true;
+    setRunning(true);
+    clockRef.current.length = 0;
+    void runLoop();
+  }, []);
+
+  const pause = useCallback(() => stop(), []);
+  const toggle = useCallback(() => (runningRef.current ? stop() : run()), [run]);
+
+  const stepOnce = useCallback(async () => {
+    if (runningRef.current || !scenarioRef.current) return;
+    try {
+      acceptReport(await client().call((r) => r.advance(1, viewRef.current, takeSpare())));
+    } catch (e) {
+      handleFailure(e, "The step failed");
+    }
+  }, []);
+
+  const reset = useCallback(async () => {
+    stop();
+    try {
+      acceptReport(await client().call((r) => r.reset(viewRef.current)), true);
+      setUnstable(null);
+    } catch (e) {
+      handleFailure(e, "Reset failed");
+    }
+  }, []);
+
+  const setView = useCallback((v: MapView) => {
+    viewRef.current = v;
+    setViewState(v);
+    if (!runningRef.current && scenarioRef.current) {
+      void client().call((r) => r.snapshot(v, takeSpare())).then(acceptSnapshot, (e) => handleFailure(e, "The map could not be drawn"));
+    }
+  }, []);
+
+  const applyStepper = useCallback(async (spec: StepperSpec): Promise<boolean> => {
+    try {
+      const info = await client().call((r) => r.setStepper(spec));
+      setSetup((s) => (s ? { ...s, stepper: { spec: info.spec, label: info.label, note: info.note } } : s));
+      if (scenarioRef.current) scenarioRef.current = { ...scenarioRef.current, stepper: info.spec };
+      setStepperError(null);
+      setUnstable(null);
+      setReport((rep) => (rep ? { ...rep, courant: info.courant, unstable: null } : rep));
+      setNotices((ns) => ns.filter((n) => n.testid !== "run-error"));
+      return true;
+    } catch (e) {
+      setStepperError(isWorkerFailure(e) ? e : { name: "WorkerError", code: "internal", message: failureMessage(e) });
+      return false;
+    }
+  }, []);
+
+  const applyScenario = useCallback(async (raw: unknown): Promise<boolean> => {
+    const fail = await load(raw, (raw as { stepper?: StepperSpec }).stepper);
+    setScenarioError(fail);
+    return !fail;
+  }, []);
+
+  const importScenario = useCallback(async (text: string, fileName: string): Promise<boolean> => {
+    stop();
+    try {
+      adopt(await client().call((r) => r.initFromText(text, viewRef.current), 120_000));
+      return true;
+    } catch (e) {
+      const f: WorkerFailure = isWorkerFailure(e) ? e : { name: "WorkerError", code: "internal", message: failureMessage(e) };
+      setScenarioError({ ...f, message: `${fileName}: ${f.message}` });
+      return false;
+    }
+  }, []);
+
+  const currentScenario = useCallback(() => scenarioRef.current, []);
+
+  const share = useCallback(() => {
+    const s = scenarioRef.current;
+    if (!s) return "";
+    const hash = `#${encodeSetup(s)}`;
+    lastSharedHash.current = hash;
+    const url = `${window.location.origin}${window.location.pathname}${hash}`;
+    window.history.replaceState(null, "", url);
+    setShareUrl(url);
+    navigator.clipboard?.writeText(url).catch(() => undefined);
+    return url;
+  }, []);
+
+  const getSnapshot = useCallback(() => snapshotRef.current, []);
+  const history = useMemo(() => historyRef.current, [historyVersion]);
+
+  return {
+    loading, setup, builtins, report, running, view, notices, unstable, rates, scenarioError, stepperError, shareUrl,
+    snapshotVersion, history, getSnapshot,
+    run, pause, toggle, stepOnce, reset, setView, applyStepper, applyScenario, importScenario, currentScenario, share,
+    dismiss, clearScenarioError: () => setScenarioError(null),
+  };
+}
+
+export type Sandbox = ReturnType<typeof useSandbox>;

@@ -1,0 +1,89 @@
+/**
+ * What crosses the worker boundary. Plain data only; buffers named here are transferred, not copied.
+ * The app imports these types (and `import type` of solver types) but never the solver itself.
+ */
+import type { Budget, CourantNumbers } from "../solver/diagnostics/budget.js";
+import type { CellOutlines, FieldInfo, FieldKind } from "../solver/diagnostics/fields.js";
+import type { RunDescription, UnstableReport } from "../solver/driver/run.js";
+import type { Scenario, StepperSpec } from "../solver/scenario/schema.js";
+
+export type { Budget, CourantNumbers, CellOutlines, FieldInfo, FieldKind, RunDescription, UnstableReport, Scenario, StepperSpec };
+
+/** A failure as it reaches the UI: the solver's code, the offending field path if any, and a message. */
+export interface WorkerFailure {
+  readonly name: "SolverError" | "WorkerError";
+  readonly code: string;
+  readonly field?: string;
+  readonly message: string;
+}
+
+export interface MethodSummary {
+  name: string;
+  family: string;
+  order: number;
+  description: string;
+  options: string[];
+  imaginaryAxisBound?: number;
+}
+
+/** Which field the map shows. */
+export interface MapView {
+  kind: FieldKind;
+  layer: number;
+}
+
+/** One map frame: a value per cell (the buffer is transferred and should be handed back for reuse). */
+export interface Snapshot {
+  values: Float32Array;
+  kind: FieldKind;
+  layer: number;
+  min: number;
+  max: number;
+  step: number;
+  time: number;
+}
+
+export interface StepperCounters {
+  steps: number;
+  rhsEvaluations: number;
+  matvecs: number;
+  innerProducts: number;
+}
+
+/** Where a blow-up happened, with the cell to mark on the map. */
+export interface UnstableInfo extends UnstableReport {
+  /** The offending cell, or the first cell of the offending edge. */
+  cell: number;
+}
+
+/** Diagnostics of one chunk of steps, sent every chunk. */
+export interface ChunkReport {
+  step: number;
+  /** Simulated time [s]. */
+  time: number;
+  budget: Budget;
+  courant: CourantNumbers;
+  /** Counters of the current stepper since it was built. */
+  counters: StepperCounters;
+  /** Steps done in this chunk and the worker's wall time for them [ms]. */
+  chunkSteps: number;
+  chunkMs: number;
+  unstable: UnstableInfo | null;
+  snapshot: Snapshot;
+}
+
+export interface StepperInfo {
+  spec: StepperSpec;
+  label: string;
+  note?: string;
+}
+
+export interface InitResult {
+  description: RunDescription;
+  scenario: Scenario;
+  stepper: StepperInfo;
+  methods: MethodSummary[];
+  fields: FieldInfo[];
+  outlines: CellOutlines;
+  report: ChunkReport;
+}
