@@ -1,0 +1,126 @@
+import { describe, expect, it } from "vitest";
+import { createPhiAction, phiBackends } from "../../solver/linalg/registry";
+import { densePhi } from "../../solver/linalg/dense";
+import type { PhiBackendName } from "../../solver/linalg/types";
+import { seededRandom, weightedSkewOperator } from "./fixtures";
+import { mathjsPhiCombination, relativeError } from "./reference";
+
+// Random 30×30 operator, skew-adjoint in a diagonal weighted inner product, eigenvalues ±iω with
+// max ω = ρ = 1 and two zero eigenvalues (spectrum known by construction, fixtures.ts).
+const fx = weightedSkewOperator(30, 5, 1, 2);
+const n = fx.op.n;
+const rnd = seededRandom(3);
+const randomVectors = [0, 1, 2, 3].map(() => Float64Array.from({ length: n }, () => 2 * rnd() - 1));
+const zero = new Float64Array(n);
+
+// cases: pure exponential, increment form with φ_1, increment form with φ_1..φ_3
+const cases: { name: string; v: Float64Array[] }[] = [
+  { name: "e^{τA} v0", v: [randomVectors[0]] },
+  { name: "τ φ1 v1", v: [zero, randomVectors[1]] },
+  { name: "Σ_{k≤3} τ^k φ_k v_k", v: [zero, randomVectors[1], randomVectors[2], randomVectors[3]] },
+];
+const tauRhos = [0.1, 1.53, 7.67, 38.4, 200];
+const TOL = 1e-8;
+
+// independent reference: mathjs expm of the augmented matrix (reference.ts)
+const refs = new Map<string, Float64Array>();
+for (const c of cases) for (const tr of tauRhos) refs.set(`${c.name}@${tr}`, mathjsPhiCombination(fx.op.matrix, n, tr / fx.rho, c.v));
+
+const iterative: PhiBackendName[] = ["krylov", "taylor", "chebyshev", "substep", "rational"];
+
+describe("every backend reproduces Σ τ^k φ_k(τA) v_k on a weighted-skew 30×30 operator", () => {
+  for (const backend of iterative) {
+    for (const c of cases) {
+      it(`${backend}: ${c.name}, τρ = ${tauRhos.join(", ")}: within 10·tol of mathjs expm (augmented matrix) and of densePhi`, () => {
+        const action = createPhiAction(backend, fx.op, { tol: TOL, maxPhi: 3 });
+        const dense = densePhi(fx.op, { tol: TOL, maxPhi: 3 });
+        const out = new Float64Array(n), dref = new Float64Array(n);
+        for (const tr of tauRhos) {
+          if (backend === "rational" && tr === 200 && c.v.length !== 2) continue; // cost: one large case suffices
+          const tau = tr / fx.rho;
+          action.apply(out, tau, c.v);
+          dense.apply(dref, tau, c.v);
+          const ref = refs.get(`${c.name}@${tr}`)!;
+          expect(relativeError(dref, ref, fx.weights)).toBeLessThan(1e-11); // the two dense routes agree
+          expect(relativeError(out, ref, fx.weights), `${backend} τρ=${tr}`).toBeLessThan(10 * TOL);
+          expect(relativeError(out, dref, fx.weights)).toBeLessThan(10 * TOL);
+        }
+      });
+    }
+  }
+});
+
+describe("mass-like invariant: ℓᵀA = 0 and ℓᵀv_k = 0 imply ℓᵀ out = 0", () => {
+  // ℓᵀ φ_k(τA) = ℓᵀ/k!, so ℓᵀ out = Σ τ^k ℓᵀv_k / k! (series definition, numerics reference §6.1, §6.6)
+  const l = fx.leftNull;
+  const project = (x: Float64Array) => {
+    let a = 0, b = 0;
+    for (let i = 0; i < n; i++) { a += l[i] * x[i]; b += l[i] * l[i]; }
+    return x.map((xi, i) => xi - (a / b) * l[i]);
+  };
+  const v = [zero, project(randomVectors[1]), project(randomVectors[2])];
+  for (const backend of iterative) {
+    it(`${backend}: |ℓᵀ out| ≤ 1e-12 ‖ℓ‖‖out‖ at τρ = 38.4`, () => {
+      const action = createPhiAction(backend, fx.op, { tol: TOL, maxPhi: 2 });
+      const out = new Float64Array(n);
+      action.apply(out, 38.4, v);
+      let lo = 0, ll = 0, oo = 0;
+      for (let i = 0; i < n; i++) { lo += l[i] * out[i]; ll += l[i] ** 2; oo += out[i] ** 2; }
+      expect(Math.abs(lo)).toBeLessThan(1e-12 * Math.sqrt(ll * oo));
+      // and a v with a non-zero ℓ-component keeps ℓᵀ out = τ ℓᵀ v_1 exactly (φ_1(0) = 1)
+      const w = [zero, randomVectors[1]];
+      action.apply(out, 0.5, w);
+      let lv = 0; lo = 0;
+      for (let i = 0; i < n; i++) { lo += l[i] * out[i]; lv += l[i] * randomVectors[1][i]; }
+      expect(Math.abs(lo - 0.5 * lv)).toBeLessThan(1e-12 * Math.sqrt(ll * oo));
+    });
+  }
+});
+
+describe("work counters", () => {
+  for (const backend of iterative) {
+    it(`${backend}: stats.matvecs equals the operator's own count; inner products reported (0 for chebyshev and substep)`, () => {
+      const action = createPhiAction(backend, fx.op, { tol: TOL, maxPhi: 3 });
+      const out = new Float64Array(n);
+      const mv0 = fx.op.counters.matvecs, ip0 = fx.op.counters.innerProducts;
+      action.apply(out, 7.67, cases[1].v);
+      expect(action.stats.matvecs).toBe(fx.op.counters.matvecs - mv0);
+      expect(action.stats.matvecs).toBeGreaterThan(0);
+      expect(action.stats.innerProducts).toBe(fx.op.counters.innerProducts - ip0);
+      if (backend === "chebyshev" || backend === "substep") expect(action.stats.innerProducts).toBe(0);
+      else expect(action.stats.innerProducts).toBeGreaterThan(0);
+    });
+  }
+});
+
+describe("registry", () => {
+  it("lists every backend name once with a description", () => {
+    const names = phiBackends.map((b) => b.name).sort();
+    expect(names).toEqual(["chebyshev", "dense", "krylov", "rational", "substep", "taylor"]);
+    for (const b of phiBackends) expect(b.description.length).toBeGreaterThan(20);
+  });
+  const expectBadInput = (f: () => unknown, field: string) => {
+    try { f(); } catch (e) {
+      const err = e as { code?: string; field?: string; name?: string };
+      expect(err.name).toBe("SolverError");
+      expect(err.code).toBe("bad-input");
+      expect(err.field).toBe(field);
+      return;
+    }
+    throw new Error(`expected a SolverError for ${field}`);
+  };
+  it("rejects bad options with SolverError(bad-input) naming the field", () => {
+    expectBadInput(() => createPhiAction("krylov", fx.op, { tol: 0, maxPhi: 1 }), "stepper.tol");
+    expectBadInput(() => createPhiAction("krylov", fx.op, { tol: -1e-8, maxPhi: 1 }), "stepper.tol");
+    expectBadInput(() => createPhiAction("krylov", fx.op, { tol: NaN, maxPhi: 1 }), "stepper.tol");
+    expectBadInput(() => createPhiAction("krylov", fx.op, { tol: 1e-8, maxPhi: -1 }), "stepper.maxPhi");
+    expectBadInput(() => createPhiAction("nope" as PhiBackendName, fx.op, { tol: 1e-8, maxPhi: 1 }), "stepper.backend");
+    const plain = { n, counters: { matvecs: 0, innerProducts: 0 }, apply: fx.op.apply };
+    expectBadInput(() => createPhiAction("chebyshev", plain, { tol: 1e-8, maxPhi: 1 }), "stepper.backend");
+    expectBadInput(() => createPhiAction("rational", plain, { tol: 1e-8, maxPhi: 1 }), "stepper.backend");
+    expectBadInput(() => createPhiAction("chebyshev", { ...plain, spectralBound: 1 }, { tol: 1e-8, maxPhi: 1 }), "stepper.backend");
+    expectBadInput(() => createPhiAction("substep", plain, { tol: 1e-8, maxPhi: 1 }), "stepper.backend");
+    expectBadInput(() => createPhiAction("krylov", fx.op, { tol: 1e-8, maxPhi: 1, filter: { cutoff: 1, order: 8, strength: 36 } }), "stepper.filter");
+    expectBadInput(() => createPhiAction("chebyshev", fx.op, { tol: 1e-8, maxPhi: 1, filter: { cutoff: 0, order: 8, strength: 36 } }), "stepper.filter.cutoff");
+  });
+});
