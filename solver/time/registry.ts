@@ -5,6 +5,7 @@ import type { VerticalModes } from "../diagnostics/modes.js";
 import { checkTableau, explicitRk } from "./explicitRk.js";
 import { EXPLICIT_TABLEAUX, type ButcherTableau } from "./tableaux.js";
 import type { Stepper } from "./types.js";
+import { EXPONENTIAL_METHODS } from "./exponentialMethods.js";
 
 /** What a method factory gets: the model, the stepper spec from the scenario, and the vertical modes. */
 export interface MethodContext {
@@ -101,3 +102,5 @@ export function createStepper(ctx: MethodContext): Stepper {
   }
   return e.create(ctx);
 }
+
+for (const e of EXPONENTIAL_METHODS) registerMethod(e);
