@@ -4,6 +4,7 @@ import type { StepperSpec } from "../scenario/schema.js";
 import type { VerticalModes } from "../diagnostics/modes.js";
 import { checkTableau, explicitRk } from "./explicitRk.js";
 import { EXPLICIT_TABLEAUX, type ButcherTableau } from "./tableaux.js";
+import { SPLIT_EXPLICIT_METHOD } from "./splitExplicit.js";
 import type { Stepper } from "./types.js";
 import { EXPONENTIAL_METHODS } from "./exponentialMethods.js";
 
@@ -102,5 +103,7 @@ export function createStepper(ctx: MethodContext): Stepper {
   }
   return e.create(ctx);
 }
+
+registerMethod(SPLIT_EXPLICIT_METHOD);
 
 for (const e of EXPONENTIAL_METHODS) registerMethod(e);
