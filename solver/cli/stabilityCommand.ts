@@ -44,7 +44,8 @@ export function stabilityCommand(args: ParsedArgs, out: (s: string) => void, err
   if (shard && !json) throw new SolverError("bad-input", "--json: a sharded run writes a partial result; give --json FILE (then join the parts with merge)", "--json");
   const clock = () => performance.now() / 1000;
   const built = buildScenario(scenario);
-  const hooks = { clock, onProgress: progressReporter(err, clock, "stability") };
+  const field = args.options.has("steppers") ? "--steppers" : args.options.has("methods") ? "--methods" : "--method";
+  const hooks = { clock, onProgress: progressReporter(err, clock, "stability"), field };
   if (shard) {
     const part = runStability(built, configs, options, { ...hooks, shard });
     out(`slice ${shard.index}/${shard.count}: ${part.items.length} of ${part.nItems} steppers`);

@@ -62,7 +62,8 @@ export function sweepDefinition(args: ParsedArgs, duration: number | undefined):
   if (tolerance !== undefined && !(tolerance > 0)) throw new SolverError("bad-input", `--tolerance: the requested error must be > 0, got ${tolerance}`, "--tolerance");
   const matvecWeight = numberOption(args, "matvec-weight");
   if (matvecWeight !== undefined && !(matvecWeight >= 0)) throw new SolverError("bad-input", `--matvec-weight: must be ≥ 0, got ${matvecWeight}`, "--matvec-weight");
-  return { steppers, dts, dtFactors, duration, referenceSpec, referenceDt: numberOption(args, "reference-dt", { positive: true }), component, tolerance, matvecWeight };
+  const field = args.options.has("steppers") ? "--steppers" : "--methods";
+  return { steppers, field, dts, dtFactors, duration, referenceSpec, referenceDt: numberOption(args, "reference-dt", { positive: true }), component, tolerance, matvecWeight };
 }
 
 export function sweepCommand(args: ParsedArgs, out: (s: string) => void, err: (s: string) => void): number {

@@ -244,13 +244,13 @@ export function perturbedScenario(built: BuiltScenario, amplitude: number, seed 
 
 /** Stability searches for several steppers on one scenario, sharing the run and the energy scale. */
 export function stabilityStudy(original: BuiltScenario, configs: readonly StepperConfig[], options: StabilityOptions = {},
-  hooks: StudyHooks = {}): StabilityResult[] {
+  hooks: StudyHooks = {}, field = "--method"): StabilityResult[] {
   if (!configs.length) throw new SolverError("bad-input", "--method: give at least one method", "--method");
   const o = resolveStabilityOptions(new Run(original, { method: "rk4", dt: 1 }), options);
   const built = perturbedScenario(original, o.perturbation);
   const run = new Run(built, { ...configs[0], dt: 1 } as StepperSpec);
   // validate every stepper before any work
-  configs.forEach((c, i) => { getMethod(c.method, "--method"); run.setStepper({ ...c, dt: 1 } as StepperSpec, configs.length > 1 ? `--method[${i}]` : "--method"); });
+  configs.forEach((c, i) => { run.setStepper({ ...c, dt: 1 } as StepperSpec, configs.length > 1 || field === "--steppers" ? `${field}[${i}]` : field); });
   const scale = new EnergyScale(built);
   const tracker = new StudyTracker(hooks, configs.length * expectedTrials(o));
   const out: StabilityResult[] = [];
@@ -270,20 +270,23 @@ export interface StabilityPart extends PartHeader {
 
 export interface StabilityRunOptions extends StudyHooks {
   shard?: Shard;
+  /** Name of the argument the steppers came from, for error messages (default "--method"). */
+  field?: string;
 }
 
 /** Stability study as the CLI runs it: whole, or one slice (items = steppers) as a partial result. */
 export function runStability(built: BuiltScenario, configs: readonly StepperConfig[], options: StabilityOptions, o: StabilityRunOptions & { shard: Shard }): StabilityPart;
 export function runStability(built: BuiltScenario, configs: readonly StepperConfig[], options?: StabilityOptions, o?: StabilityRunOptions): StabilityResult[];
 export function runStability(built: BuiltScenario, configs: readonly StepperConfig[], options: StabilityOptions = {}, o: StabilityRunOptions = {}): StabilityResult[] | StabilityPart {
+  const field = o.field ?? "--method";
   if (!configs.length) throw new SolverError("bad-input", "--method: give at least one method", "--method");
   const probe = new Run(built, { method: "rk4", dt: 1 });
   const resolved = resolveStabilityOptions(probe, options);
-  configs.forEach((c, i) => { probe.setStepper({ ...c, dt: 1 } as StepperSpec, configs.length > 1 ? `--method[${i}]` : "--method"); });
-  if (!o.shard) return stabilityStudy(built, configs, options, o);
+  configs.forEach((c, i) => { probe.setStepper({ ...c, dt: 1 } as StepperSpec, configs.length > 1 || field === "--steppers" ? `${field}[${i}]` : field); });
+  if (!o.shard) return stabilityStudy(built, configs, options, o, field);
   const items = shardItems(configs.length, o.shard);
   const study = contentHash("stepwell-stability-v1", physicsContent(built), configs, resolved, built.initial);
-  const results = items.length ? stabilityStudy(built, items.map((k) => configs[k]), options, o) : [];
+  const results = items.length ? stabilityStudy(built, items.map((k) => configs[k]), options, o, field) : [];
   return { kind: "stepwell-stability-part", version: 1, study, shard: o.shard, nItems: configs.length, items, results };
 }
 

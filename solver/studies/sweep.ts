@@ -32,6 +32,8 @@ export interface SweepDefinition {
   floorFactor?: number;
   /** Rows with error above this are left out of the fits as far from asymptotic (default 0.3). */
   maxError?: number;
+  /** Name of the argument the steppers came from, for error messages (default "--methods"). */
+  field?: string;
 }
 
 /** Everything a sweep's rows and fits depend on, JSON-safe; shards carry it so that merge can finish the study. */
@@ -124,7 +126,8 @@ const listField = (d: SweepDefinition) => (d.dts ? "--dts" : "--dt-factors");
 
 /** Resolve a definition on a scenario: labels, the Δt actually used (the duration over a whole number of steps), the reference. */
 export function planSweep(built: BuiltScenario, def: SweepDefinition): SweepPlan {
-  if (!def.steppers.length) throw new SolverError("bad-input", "--methods: give at least one stepper", "--methods");
+  const sf = def.field ?? "--methods";
+  if (!def.steppers.length) throw new SolverError("bad-input", `${sf}: give at least one stepper`, sf);
   if ((def.dts === undefined) === (def.dtFactors === undefined)) {
     throw new SolverError("bad-input", "--dts: give exactly one of --dts (seconds) and --dt-factors (multiples of the RK4 limit)", "--dts");
   }
@@ -139,7 +142,7 @@ export function planSweep(built: BuiltScenario, def: SweepDefinition): SweepPlan
   if (!(duration > 0 && Number.isFinite(duration))) throw new SolverError("bad-input", `--duration: must be > 0, got ${duration}`, "--duration");
   const labels = new Set<string>();
   const steppers = def.steppers.map((s, i) => {
-    const f = def.steppers.length > 1 ? `--methods[${i}]` : "--methods";
+    const f = def.steppers.length > 1 || sf === "--steppers" ? `${sf}[${i}]` : sf;
     getMethod(s.method, `${f}.method`);
     probe.setStepper({ ...s, dt: 1 } as StepperSpec, f);
     const label = s.label ?? defaultLabel(s);
