@@ -47,6 +47,8 @@ export interface RestLinearOperator extends LinearOperator {
   fromInterface(out: Float64Array, y: Float64Array): void;
   /** Linear-energy inner product <a, b>_E (layer variables). */
   energyDot(a: Float64Array, b: Float64Array): number;
+  /** Multiply-adds of one `apply` (a deterministic cost measure). */
+  readonly multiplyAddsPerMatvec: number;
 }
 
 export interface RestOperatorOptions {
@@ -200,6 +202,7 @@ export function restLinearOperator(model: ShallowWaterModel, opts: RestOperatorO
     n, layout, counters, skew: true, spectralBound: Infinity,
     restThickness: H, edgeThickness: Hedge, restPv, coriolisCoef, coupling, fastestSpeed, maxCoriolis,
     interfaceForm: interfaceOp,
+    multiplyAddsPerMatvec: L * L * nc + L * (nnz + 2 * ne + m.cellEdgeOffset[nc]),
     apply(out, x) {
       applyLayers(out, x);
       counters.matvecs++;

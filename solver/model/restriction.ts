@@ -60,6 +60,8 @@ export interface ModalRestriction {
   liftApply(out: Float64Array, y: Float64Array): void;
   /** The restricted linear part M = Π̃ L Π as an operator on layer vectors. */
   readonly restricted: LinearOperator;
+  /** Multiply-adds of one L̂ matvec as implemented (a deterministic cost measure; compare RestLinearOperator's). */
+  readonly multiplyAddsPerMatvec: number;
 }
 
 export function modalRestriction(model: ShallowWaterModel, nModes: number, rest: RestLinearOperator = restLinearOperator(model)): ModalRestriction {
@@ -325,6 +327,7 @@ export function modalRestriction(model: ShallowWaterModel, nModes: number, rest:
   return {
     modes: m, layout, modalLayout, flat, speeds, rest,
     restrict, prolong, project, operator: modalOp, liftApply, restricted: restrictedOp,
+    multiplyAddsPerMatvec: (flat ? m : mm) * (nnzT + 2 * ne + nnzC),
   };
 }
 

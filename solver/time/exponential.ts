@@ -25,7 +25,7 @@ import { restLinearOperator, type RestLinearOperator } from "../model/linear.js"
 import { jacobianOperator } from "../model/jacobian.js";
 import { modalRestriction, restrictedPhiAction } from "../model/restriction.js";
 import { checkExpTable, type ExpRkTable } from "./expTables.js";
-import { emptyStats, type Stepper } from "./types.js";
+import { emptyStats, type OdeProblem, type Stepper } from "./types.js";
 
 /** What the engine needs from a linear part A. */
 export interface LinearPart {
@@ -186,7 +186,7 @@ export interface ExponentialInfo {
 }
 
 /** The engine: one stepper for any table and linear part. All work arrays are allocated here. */
-export function exponentialRk(table: ExpRkTable, model: ShallowWaterModel, lin: LinearPart, info: ExponentialInfo): Stepper {
+export function exponentialRk(table: ExpRkTable, model: OdeProblem, lin: LinearPart, info: ExponentialInfo): Stepper {
   checkExpTable(table);
   const n = model.n;
   const s = table.b.length;
