@@ -1,4 +1,4 @@
-import { useEffect, useState } from "react";
+import { useCallback, useEffect, useMemo, useState } from "react";
 import { DriftPlots } from "./panels/DriftPlots.js";
 import { FieldMap } from "./panels/FieldMap.js";
 import { ModesTable } from "./panels/ModesTable.js";
@@ -36,7 +36,7 @@ export function App() {
     return () => window.removeEventListener("keydown", onKey);
   }, [sb.toggle, sb.stepOnce]);
 
-  const exportScenario = () => {
+  const exportScenario = useCallback(() => {
     const s = sb.currentScenario();
     if (!s) return;
     const blob = new Blob([JSON.stringify(s, null, 2)], { type: "application/json" });
@@ -45,10 +45,10 @@ export function App() {
     a.download = `${s.name}.json`;
     a.click();
     setTimeout(() => URL.revokeObjectURL(a.href), 1000);
-  };
+  }, [sb.currentScenario]);
 
   const s = sb.setup;
-  const layerNames = s ? s.scenario.layers.map((l) => l.name ?? "") : [];
+  const layerNames = useMemo(() => (s ? s.scenario.layers.map((l) => l.name ?? "") : []), [s?.scenario]);
   return (
     <div className="app" data-testid="app" data-ready={s && !sb.loading ? "yes" : "no"}>
       <header>
@@ -70,7 +70,7 @@ export function App() {
               <b>{s.scenario.name}</b> · {s.description.nCells} cells · {s.description.nLayers} layers · {s.outlines.kind === "basin" ? "closed basin" : "doubly periodic"}
             </div>
             <FieldMap outlines={s.outlines} fields={s.fields} nLayers={s.description.nLayers} layerNames={layerNames}
-              view={sb.view} onView={sb.setView} getSnapshot={sb.getSnapshot} snapshotVersion={sb.snapshotVersion}
+              view={sb.view} onView={sb.setView} getSnapshot={sb.getSnapshot} snapshotVersion={sb.snapshotVersion} subscribeSnapshot={sb.subscribeSnapshot}
               unstable={sb.unstable} maxWidth={620} maxHeight={480} />
           </div>
           <div className="right">

@@ -1,6 +1,6 @@
-import { StrictMode } from "react";
 import { createRoot } from "react-dom/client";
 import { App } from "./App.js";
 import "./styles.css";
 
-createRoot(document.getElementById("root")!).render(<StrictMode><App /></StrictMode>);
+// No StrictMode: its doubled development renders would distort the long-task figures the browser tests record.
+createRoot(document.getElementById("root")!).render(<App />);

@@ -17,6 +17,8 @@ export const DEFAULT_SCENARIO = "shelf-gyre-basin";
 /** Worker time per chunk the loop aims for [ms]: short enough for a snappy pause, long enough to amortise messages. */
 const CHUNK_TARGET_MS = 30;
 const HISTORY_LIMIT = 3000;
+/** While running, panels (text, plots) refresh at most this often [ms]; the map redraws on every snapshot. */
+const PANEL_REFRESH_MS = 200;
 
 export interface Notice {
   id: number;
@@ -61,6 +63,11 @@ export function useSandbox() {
   const clockRef = useRef<{ wall: number; sim: number }[]>([]);
   const noticeId = useRef(0);
   const builtinsRef = useRef<Builtin[]>([]);
+  const snapshotListeners = useRef(new Set<() => void>());
+  const pendingReport = useRef<ChunkReport | null>(null);
+  const pendingRates = useRef<Rates | null>(null);
+  const flushTimer = useRef<ReturnType<typeof setTimeout> | null>(null);
+  const lastFlush = useRef(0);
   /** The hash this page wrote itself (sharing), so that it is not reloaded as if a new link had been pasted. */
   const lastSharedHash = useRef("");
 
@@ -79,21 +86,36 @@ export function useSandbox() {
     return s && s.byteLength > 0 ? transfer(s, [s.buffer]) : undefined;
   };
 
-  const acceptSnapshot = (s: Snapshot) => {
+  /** Push pending panel data into React state (throttled while running, at once otherwise). */
+  const flush = () => {
+    if (flushTimer.current) { clearTimeout(flushTimer.current); flushTimer.current = null; }
+    lastFlush.current = performance.now();
+    if (pendingReport.current) { setReport(pendingReport.current); pendingReport.current = null; }
+    if (pendingRates.current) { setRates(pendingRates.current); pendingRates.current = null; }
+    setHistoryVersion((v) => v + 1);
+    setSnapshotVersion((v) => v + 1);
+  };
+  const scheduleFlush = (now: boolean) => {
+    if (now || !runningRef.current) { flush(); return; }
+    if (flushTimer.current) return;
+    const wait = Math.max(0, PANEL_REFRESH_MS - (performance.now() - lastFlush.current));
+    flushTimer.current = setTimeout(flush, wait);
+  };
+
+  const acceptSnapshot = (s: Snapshot, now = true) => {
     const prev = snapshotRef.current;
     if (prev && prev.values !== s.values && prev.values.byteLength > 0) spareRef.current = prev.values;
     snapshotRef.current = s;
     mapPerf.snapshots++;
-    setSnapshotVersion((v) => v + 1);
+    for (const f of snapshotListeners.current) f();
+    scheduleFlush(now);
   };
 
   const acceptReport = (rep: ChunkReport, fresh = false) => {
-    acceptSnapshot(rep.snapshot);
-    setReport(rep);
+    pendingReport.current = rep;
     const sample: BudgetSample = { time: rep.time, energy: rep.budget.energy, mass: rep.budget.mass };
     if (fresh) historyRef.current = [sample];
     else if (rep.chunkSteps > 0) historyRef.current = thin([...historyRef.current, sample], HISTORY_LIMIT);
-    setHistoryVersion((v) => v + 1);
     const c = rep.counters;
     const now = performance.now();
     const clock = clockRef.current;
@@ -102,12 +124,13 @@ export function useSandbox() {
     while (clock.length > 2 && now - clock[0].wall > 2000) clock.shift();
     const first = clock[0];
     const daysPerSecond = clock.length > 1 && now > first.wall ? (rep.time - first.sim) / 86400 / ((now - first.wall) / 1000) : 0;
-    setRates({
+    pendingRates.current = {
       daysPerSecond,
       rhsPerStep: c.steps ? c.rhsEvaluations / c.steps : 0,
       matvecsPerStep: c.steps ? c.matvecs / c.steps : 0,
-    });
+    };
     if (rep.unstable) setUnstable(rep.unstable);
+    acceptSnapshot(rep.snapshot, fresh || !!rep.unstable);
   };
 
   const adopt = (res: InitResult) => {
@@ -127,6 +150,7 @@ export function useSandbox() {
   const stop = () => {
     runningRef.current = false;
     setRunning(false);
+    flush();
   };
 
   const handleFailure = (e: unknown, what: string) => {
@@ -308,11 +332,16 @@ export function useSandbox() {
   }, []);
 
   const getSnapshot = useCallback(() => snapshotRef.current, []);
+  /** The map subscribes here to redraw on every snapshot without a React render. */
+  const subscribeSnapshot = useCallback((f: () => void) => {
+    snapshotListeners.current.add(f);
+    return () => { snapshotListeners.current.delete(f); };
+  }, []);
   const history = useMemo(() => historyRef.current, [historyVersion]);
 
   return {
     loading, setup, builtins, report, running, view, notices, unstable, rates, scenarioError, stepperError, shareUrl,
-    snapshotVersion, history, getSnapshot,
+    snapshotVersion, history, getSnapshot, subscribeSnapshot,
     run, pause, toggle, stepOnce, reset, setView, applyStepper, applyScenario, importScenario, currentScenario, share,
     dismiss, clearScenarioError: () => setScenarioError(null),
   };

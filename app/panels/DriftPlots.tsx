@@ -1,4 +1,4 @@
-import { useMemo } from "react";
+import { memo, useMemo } from "react";
 import { extent, line, scaleLinear, scaleLog, schemeTableau10 } from "d3";
 import type { CourantNumbers } from "../../workers/protocol.js";
 import { driftSeries, type BudgetSample } from "../drift.js";
@@ -60,7 +60,7 @@ function Plot({ title, testid, days, series, logScale }: { title: string; testid
 }
 
 /** Relative energy and per-layer mass drift against simulated time, and the Courant numbers of the current Δt. */
-export function DriftPlots({ samples, layerNames, logScale, onLogScale, courant, dt }: DriftPlotsProps) {
+export const DriftPlots = memo(function DriftPlots({ samples, layerNames, logScale, onLogScale, courant, dt }: DriftPlotsProps) {
   const d = useMemo(() => driftSeries(samples), [samples]);
   const energy = useMemo(() => [{ name: "energy", colour: "#1f4e99", y: d.energy }], [d]);
   const mass = useMemo(() => d.mass.map((y, k) => ({ name: `layer ${k}${layerNames[k] ? ` ${layerNames[k]}` : ""}`, colour: schemeTableau10[k % 10], y })), [d, layerNames]);
@@ -82,4 +82,4 @@ export function DriftPlots({ samples, layerNames, logScale, onLogScale, courant,
       </p>
     </section>
   );
-}
+});

@@ -1,4 +1,4 @@
-import { useEffect, useMemo, useRef, useState } from "react";
+import { memo, useEffect, useMemo, useRef, useState } from "react";
 import type { CellOutlines, FieldInfo, MapView, Snapshot, UnstableInfo } from "../../workers/protocol.js";
 import { fmt, km } from "../format.js";
 import { buildRaster, cellPath, coastPath, mapFrame, type MapRaster } from "../map/raster.js";
@@ -16,6 +16,7 @@ interface FieldMapProps {
   /** Reads the latest snapshot; `snapshotVersion` changes whenever there is a new one. */
   readonly getSnapshot: () => Snapshot | null;
   readonly snapshotVersion: number;
+  readonly subscribeSnapshot: (f: () => void) => () => void;
   readonly unstable: UnstableInfo | null;
   readonly maxWidth: number;
   readonly maxHeight: number;
@@ -41,7 +42,7 @@ function paint(img: ImageData, raster: MapRaster, snap: Snapshot, info: FieldInf
   }
 }
 
-export function FieldMap(p: FieldMapProps) {
+export const FieldMap = memo(function FieldMap(p: FieldMapProps) {
   const canvasRef = useRef<HTMLCanvasElement>(null);
   const [hover, setHover] = useState<Hover | null>(null);
   const info = p.fields.find((f) => f.kind === p.view.kind) ?? p.fields[0];
@@ -58,9 +59,8 @@ export function FieldMap(p: FieldMapProps) {
 
   // redraw once per display frame at most, whenever a snapshot, the marks or the geometry change
   const pending = useRef(0);
-  useEffect(() => {
-    cancelAnimationFrame(pending.current);
-    pending.current = requestAnimationFrame(() => {
+  const drawRef = useRef<() => void>(() => undefined);
+  drawRef.current = () => {
       const canvas = canvasRef.current;
       const snap = p.getSnapshot();
       if (!canvas || !snap || snap.values.length !== p.outlines.nCells) return;
@@ -93,9 +93,14 @@ export function FieldMap(p: FieldMapProps) {
       mapPerf.drawMsTotal += ms;
       mapPerf.drawMsMax = Math.max(mapPerf.drawMsMax, ms);
       canvas.dataset.draws = String(mapPerf.draws);
-    });
-    return () => cancelAnimationFrame(pending.current);
-  }, [p.snapshotVersion, raster, coast, hoverPath, markPath, info, work]);
+  };
+  const requestDraw = () => {
+    if (pending.current) return;
+    pending.current = requestAnimationFrame(() => { pending.current = 0; drawRef.current(); });
+  };
+  useEffect(() => p.subscribeSnapshot(requestDraw), [p.subscribeSnapshot]);
+  useEffect(requestDraw, [raster, coast, hoverPath, markPath, info, work]);
+  useEffect(() => () => { cancelAnimationFrame(pending.current); pending.current = 0; }, []);
 
   const onMove = (ev: React.MouseEvent<HTMLCanvasElement>) => {
     const r = ev.currentTarget.getBoundingClientRect();
@@ -145,4 +150,4 @@ export function FieldMap(p: FieldMapProps) {
       </div>
     </section>
   );
-}
+});

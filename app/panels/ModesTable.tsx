@@ -1,3 +1,4 @@
+import { memo } from "react";
 import type { MethodSummary, RunDescription } from "../../workers/protocol.js";
 import { fmt } from "../format.js";
 
@@ -13,7 +14,7 @@ const RK4_BOUND = 2 * Math.SQRT2;
  * Vertical modes and a Δt limit per method: for a method whose stability region reaches |ωΔt| ≤ bound on the
  * imaginary axis, Δt_max = bound/ω_max with ω_max = √6 c0/d, i.e. the RK4 limit scaled by bound/(2√2).
  */
-export function ModesTable({ description, methods, dt }: ModesTableProps) {
+export const ModesTable = memo(function ModesTable({ description, methods, dt }: ModesTableProps) {
   return (
     <section aria-label="Modes" data-testid="modes-panel">
       <h3>Vertical modes</h3>
@@ -47,4 +48,4 @@ export function ModesTable({ description, methods, dt }: ModesTableProps) {
       </table>
     </section>
   );
-}
+});

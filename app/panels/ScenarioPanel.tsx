@@ -1,4 +1,4 @@
-import { useEffect, useRef, useState } from "react";
+import { memo, useEffect, useRef, useState } from "react";
 import type { Scenario, WorkerFailure } from "../../workers/protocol.js";
 import type { Builtin } from "../useSandbox.js";
 
@@ -103,7 +103,7 @@ function FieldError({ error, path }: { error: WorkerFailure | null; path: string
   return <span className="field-error" data-testid="field-error" data-field={path}>{error!.message}</span>;
 }
 
-export function ScenarioPanel(p: ScenarioPanelProps) {
+export const ScenarioPanel = memo(function ScenarioPanel(p: ScenarioPanelProps) {
   const [draft, setDraft] = useState<Draft>(() => draftOf(p.scenario));
   const fileRef = useRef<HTMLInputElement>(null);
   useEffect(() => setDraft(draftOf(p.scenario)), [p.scenario]);
@@ -196,4 +196,4 @@ export function ScenarioPanel(p: ScenarioPanelProps) {
       </div>
     </section>
   );
-}
+});

@@ -1,4 +1,4 @@
-import { useEffect, useState } from "react";
+import { memo, useEffect, useState } from "react";
 import type { MethodSummary, StepperSpec, WorkerFailure } from "../../workers/protocol.js";
 import { fmt } from "../format.js";
 
@@ -40,7 +40,7 @@ function showValue(v: unknown): string {
   return typeof v === "string" ? v : v === undefined ? "" : JSON.stringify(v);
 }
 
-export function StepperPanel(p: StepperPanelProps) {
+export const StepperPanel = memo(function StepperPanel(p: StepperPanelProps) {
   const [method, setMethod] = useState(p.spec.method);
   const [dt, setDt] = useState(String(p.spec.dt));
   const [options, setOptions] = useState<Record<string, string>>({});
@@ -108,4 +108,4 @@ export function StepperPanel(p: StepperPanelProps) {
       {p.note && <p className="hint">Note: {p.note}</p>}
     </section>
   );
-}
+});
