@@ -268,6 +268,21 @@ export function krylovPhi(op: LinearOperator, opts: KrylovOptions): KrylovPhiAct
     return ev.err <= allowedPerScale * ev.scale ? ev.err : -1;
   }
 
+  // when to test next: every max(1, m/40) vectors, sooner when a linear extrapolation of
+  // log(estimate/allowed) from the last two tests says the tolerance is close (half of that distance)
+  let nextCheck = 0, lastCheckM = 0, lastCheckLog = 0;
+  function scheduleCheck(tau: number): void {
+    const ratio = Math.log(Math.max(evalResult.err, 1e-300) / Math.max(SAFETY * tol * evalResult.scale, 1e-300));
+    let gap = Math.max(1, Math.floor(m / 40));
+    if (lastCheckM > 0 && ratio < lastCheckLog) {
+      const slope = (ratio - lastCheckLog) / (m - lastCheckM);
+      gap = Math.max(1, Math.min(gap, Math.floor((0.5 * -ratio) / slope)));
+    }
+    void tau;
+    lastCheckM = m; lastCheckLog = ratio;
+    nextCheck = m + gap;
+  }
+
   /** Gershgorin-type bound of the spectral radius of the current H (for deciding when to test). */
   function ritzBound(): number {
     let g = 0;
@@ -324,6 +339,7 @@ export function krylovPhi(op: LinearOperator, opts: KrylovOptions): KrylovPhiAct
       const s = 1 / betaW;
       for (let i = 0; i < n; i++) V[0][i] = W[p][i] * s;
       m = 0; breakdown = false; eigRows = 0;
+      nextCheck = 0; lastCheckM = 0; lastCheckLog = 0;
       let h = -1, err = 0;
       let restarted = false;
       while (true) {
@@ -337,11 +353,11 @@ export function krylovPhi(op: LinearOperator, opts: KrylovOptions): KrylovPhiAct
           err = evaluate(h, true).err;
           break;
         }
-        if (breakdown || atLimit || m >= 0.5 * rem * ritzBound() || m < 4) {
+        if (breakdown || atLimit || (m >= nextCheck && (m >= 0.5 * rem * ritzBound() || m < 4))) {
           if (skewMode) decompose(breakdown || atLimit);
-          else if (!breakdown && !atLimit && m > 12 && m % Math.ceil(m / 10) !== 0) continue;
           const e = tryStep(rem, tau);
           if (e >= 0 || breakdown) { h = rem; err = Math.max(e, 0); break; }
+          scheduleCheck(tau);
           if (atLimit) {
             if (skewMode && eigRows !== m) decompose(true);
             h = searchStep(rem, tau);
