@@ -308,13 +308,61 @@ function buildFromLattice(L: Lattice, wet: Uint8Array | null, kind: Mesh["kind"]
     }
   }
 
-  return {
+  const base = {
     kind, nCells, nEdges, nVertices, width, height, spacing: L.spacing,
     cellX, cellY, cellArea, cellEdgeOffset, cellEdgeIndex, cellEdgeSign, cellVertexIndex, cellNeighbor, cellKiteArea,
     edgeX, edgeY, edgeNormalX, edgeNormalY, edgeCells, edgeVertices, edgeLength, edgeCellDistance, edgeOpen,
     vertexX, vertexY, vertexArea, vertexCells, vertexEdges, vertexEdgeSign, vertexKiteArea, vertexInterior,
     tangentOffset, tangentIndex, tangentWeight, tangentCoef,
   };
+  return { ...base, ...kernelCoefficients(base) };
+}
+
+/** The precombined coefficients of a mesh, derived from its geometry (any cell degree, any CSR layout). */
+export type KernelCoefficients = Pick<Mesh,
+  "cellEdgeDivCoef" | "cellEdgeKeCoef" | "edgeCellsClamped" | "edgeInvDistance" | "vertexCurlCoef" | "vertexKiteFraction" | "vertexCellsClamped">;
+
+/**
+ * Combined per-slot coefficients the fused tendency kernels read instead of dividing in their inner loops:
+ * sign·l_e/A_i, l_e d_e/(4A_i), 1/d_e, sign·d_e/A_v (0 off the interior), A_iv/A_v, and clamped index pairs
+ * so that coastline edges and dry kites need no branch.
+ */
+export function kernelCoefficients(m: Omit<Mesh, keyof KernelCoefficients>): KernelCoefficients {
+  const { nCells, nEdges, nVertices, cellEdgeOffset, cellEdgeIndex, cellEdgeSign, cellArea, edgeLength, edgeCellDistance, edgeCells } = m;
+  const nSlots = cellEdgeOffset[nCells];
+  const cellEdgeDivCoef = new Float64Array(nSlots);
+  const cellEdgeKeCoef = new Float64Array(nSlots);
+  for (let i = 0; i < nCells; i++) {
+    for (let q = cellEdgeOffset[i]; q < cellEdgeOffset[i + 1]; q++) {
+      const e = cellEdgeIndex[q];
+      cellEdgeDivCoef[q] = (cellEdgeSign[q] * edgeLength[e]) / cellArea[i];
+      cellEdgeKeCoef[q] = (edgeLength[e] * edgeCellDistance[e]) / (4 * cellArea[i]);
+    }
+  }
+  const edgeCellsClamped = new Int32Array(2 * nEdges);
+  const edgeInvDistance = new Float64Array(nEdges);
+  for (let e = 0; e < nEdges; e++) {
+    const c1 = edgeCells[2 * e];
+    const c2 = edgeCells[2 * e + 1];
+    edgeCellsClamped[2 * e] = c1;
+    edgeCellsClamped[2 * e + 1] = c2 >= 0 ? c2 : c1;
+    edgeInvDistance[e] = 1 / edgeCellDistance[e];
+  }
+  const { vertexEdges, vertexEdgeSign, vertexArea, vertexInterior, vertexCells, vertexKiteArea } = m;
+  const vertexCurlCoef = new Float64Array(3 * nVertices);
+  const vertexKiteFraction = new Float64Array(3 * nVertices);
+  const vertexCellsClamped = new Int32Array(3 * nVertices);
+  for (let v = 0; v < nVertices; v++) {
+    let wet = 0;
+    for (let j = 3 * v; j < 3 * v + 3; j++) if (vertexCells[j] >= 0) wet = vertexCells[j];
+    for (let j = 3 * v; j < 3 * v + 3; j++) {
+      vertexCurlCoef[j] = vertexInterior[v] ? (vertexEdgeSign[j] * edgeCellDistance[vertexEdges[j]]) / vertexArea[v] : 0;
+      const c = vertexCells[j];
+      vertexKiteFraction[j] = c >= 0 ? vertexKiteArea[j] / vertexArea[v] : 0;
+      vertexCellsClamped[j] = c >= 0 ? c : wet;
+    }
+  }
+  return { cellEdgeDivCoef, cellEdgeKeCoef, edgeCellsClamped, edgeInvDistance, vertexCurlCoef, vertexKiteFraction, vertexCellsClamped };
 }
 
 /** Deterministic generator for jittered test meshes (mulberry32; common practice, no source). */

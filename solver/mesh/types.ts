@@ -69,4 +69,20 @@ export interface Mesh {
   readonly tangentWeight: Float64Array;
   /** W_{e,e'} l_{e'} / d_e, the factor the kernels use. */
   readonly tangentCoef: Float64Array;
+
+  // --- precombined read-only coefficients for the fused tendency kernels (see `kernelCoefficients`)
+  /** Per cell-edge slot, sign·l_e / A_i: the divergence weight [1/m]. */
+  readonly cellEdgeDivCoef: Float64Array;
+  /** Per cell-edge slot, l_e d_e / (4 A_i): the kinetic-energy weight [1]. */
+  readonly cellEdgeKeCoef: Float64Array;
+  /** `edgeCells` with the outside (-1) of a coastline edge replaced by its wet cell. */
+  readonly edgeCellsClamped: Int32Array;
+  /** 1 / d_e [1/m]. */
+  readonly edgeInvDistance: Float64Array;
+  /** Per vertex-edge slot, sign·d_e / A_v; 0 at non-interior vertices (free slip) [1/m]. */
+  readonly vertexCurlCoef: Float64Array;
+  /** Per vertex-cell slot, kite fraction A_iv / A_v; 0 for a dry cell. */
+  readonly vertexKiteFraction: Float64Array;
+  /** `vertexCells` with dry cells (-1) replaced by a wet cell of the same vertex (their fraction is 0). */
+  readonly vertexCellsClamped: Int32Array;
 }

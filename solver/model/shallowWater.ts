@@ -1,7 +1,7 @@
 import type { Mesh } from "../mesh/types.js";
 import {
-  addScaled, bernoulliGradient, continuity, edgeThickness, kineticEnergy, linearDrag, montgomeryPotential,
-  potentialVorticity, pvFlux, relativeVorticity, thicknessFlux, vectorLaplacian, windForcing,
+  addScaled, cellContinuityBernoulli, edgeFluxAndPv, edgeMomentum, edgeThickness, linearDrag, paddedLayers, vectorLaplacian,
+  vertexPotentialVorticity, windForcing,
 } from "./terms.js";
 
 /**
@@ -58,8 +58,16 @@ export function stateLayout(mesh: Mesh, nLayers: number): StateLayout {
 
 /** Work arrays of one tendency evaluation, allocated once per model. */
 interface Work {
-  hEdge: Float64Array; flux: Float64Array; ke: Float64Array; M: Float64Array; eta: Float64Array;
-  vort: Float64Array; qVertex: Float64Array; qEdge: Float64Array;
+  /** F_e, q_e and F_e q_e per edge and layer, [P·e + k] with P = paddedLayers(L) (see terms.ts). */
+  fluxAll: Float64Array; qEdgeAll: Float64Array; fluxPvAll: Float64Array;
+  /** P·tangentIndex[t] (read-only, set at construction). */
+  tangentSlot: Int32Array;
+  /** q_v per vertex and layer, [P·v + k]. */
+  qVertexAll: Float64Array;
+  /** B = K + M per cell and layer, [P·i + k]. */
+  bernoulli: Float64Array;
+  /** ĥ_e of the top layer (wind forcing only). */
+  hEdge: Float64Array;
   div: Float64Array; lap: Float64Array; lap2: Float64Array; vort2: Float64Array;
 }
 
@@ -75,34 +83,35 @@ export class ShallowWaterModel {
     this.n = this.layout.n;
     const { nCells: nc, nEdges: ne, nVertices: nv } = mesh;
     const L = params.nLayers;
+    const P = paddedLayers(L);
     this.w = {
-      hEdge: new Float64Array(ne), flux: new Float64Array(ne), ke: new Float64Array(nc),
-      M: new Float64Array(L * nc), eta: new Float64Array(L * nc),
-      vort: new Float64Array(nv), qVertex: new Float64Array(nv), qEdge: new Float64Array(ne),
+      fluxAll: new Float64Array(P * ne), qEdgeAll: new Float64Array(P * ne), fluxPvAll: new Float64Array(P * ne),
+      tangentSlot: mesh.tangentIndex.map((e) => P * e), qVertexAll: new Float64Array(P * nv), bernoulli: new Float64Array(P * nc),
+      hEdge: new Float64Array(ne),
       div: new Float64Array(nc), lap: new Float64Array(ne), lap2: new Float64Array(ne), vort2: new Float64Array(nv),
     };
   }
 
-  /** out = F(x): the full tendency of thickness and velocity (reference §3.7). */
+  /**
+   * out = F(x): the full tendency of thickness and velocity (reference §3.7), by four fused passes over all
+   * layers (vertices, edges, cells, edges; see terms.ts) and the optional forcing and dissipation terms.
+   */
   tendency(out: Float64Array, x: Float64Array, _t: number): void {
     this.rhsEvaluations++;
     const { mesh: m, params: p, w } = this;
-    const { nLayers: L, nCells: nc, nEdges: ne, uOffset } = this.layout;
-    montgomeryPotential(w.M, w.eta, x, p.bottom, p.reducedGravity, L, nc);
-    for (let k = 0; k < L; k++) {
-      const hOff = k * nc;
-      const uOff = uOffset + k * ne;
-      edgeThickness(w.hEdge, m, x, hOff);
-      thicknessFlux(w.flux, m, w.hEdge, x, uOff);
-      continuity(out, hOff, m, w.flux);
-      kineticEnergy(w.ke, m, x, uOff);
-      relativeVorticity(w.vort, m, x, uOff);
-      potentialVorticity(w.qVertex, w.qEdge, m, w.vort, x, hOff, p.coriolisVertex);
-      pvFlux(out, uOff, m, w.flux, w.qEdge);
-      bernoulliGradient(out, uOff, m, w.ke, w.M, hOff);
-      if (k === 0 && p.windStress) windForcing(out, uOff, m, p.windStress, p.rho0, w.hEdge);
-      if (k === L - 1 && p.bottomDrag > 0) linearDrag(out, uOff, m, x, uOff, p.bottomDrag);
-      if (p.viscosity > 0 || p.biharmonic > 0) {
+    const { nLayers: L, nEdges: ne, uOffset } = this.layout;
+    vertexPotentialVorticity(w.qVertexAll, m, x, uOffset, L, p.coriolisVertex);
+    edgeFluxAndPv(w.fluxAll, w.qEdgeAll, w.fluxPvAll, m, x, uOffset, L, w.qVertexAll);
+    cellContinuityBernoulli(out, w.bernoulli, m, x, uOffset, L, w.fluxAll, p.bottom, p.reducedGravity);
+    edgeMomentum(out, m, uOffset, L, w.fluxAll, w.qEdgeAll, w.fluxPvAll, w.bernoulli, w.tangentSlot);
+    if (p.windStress) {
+      edgeThickness(w.hEdge, m, x, 0);
+      windForcing(out, uOffset, m, p.windStress, p.rho0, w.hEdge);
+    }
+    if (p.bottomDrag > 0) linearDrag(out, uOffset + (L - 1) * ne, m, x, uOffset + (L - 1) * ne, p.bottomDrag);
+    if (p.viscosity > 0 || p.biharmonic > 0) {
+      for (let k = 0; k < L; k++) {
+        const uOff = uOffset + k * ne;
         vectorLaplacian(w.lap, m, x, uOff, w.div, w.vort2);
         if (p.viscosity > 0) addScaled(out, uOff, w.lap, p.viscosity, ne);
         if (p.biharmonic > 0) {
