@@ -55,11 +55,15 @@ export function App() {
         <h1>Stepwell <small>time-stepper sandbox</small></h1>
         <RunControls running={sb.running} ready={!!s && !sb.loading} time={sb.report?.time ?? 0} steps={sb.report?.step ?? 0}
           rates={sb.rates} label={s?.stepper.label ?? ""} onToggle={sb.toggle} onStep={() => void sb.stepOnce()} onReset={() => void sb.reset()} />
-        <div className="share">
-          <button data-testid="share-button" disabled={!s} onClick={sb.share}>Share link</button>
-          {sb.shareUrl && <input data-testid="share-link" readOnly value={sb.shareUrl} onFocus={(e) => e.target.select()} aria-label="Share link" />}
-        </div>
+        <button data-testid="share-button" disabled={!s} onClick={sb.share}>Share link</button>
       </header>
+      {sb.shareUrl && (
+        <div className="share-row" data-testid="share-row">
+          <span>Link to this scenario and stepper (also copied to the clipboard when the browser allows):</span>
+          <input data-testid="share-link" readOnly value={sb.shareUrl} onFocus={(e) => e.target.select()} aria-label="Share link" />
+          <button onClick={sb.hideShare} aria-label="Hide the link">×</button>
+        </div>
+      )}
       <Notices notices={sb.notices} unstable={sb.unstable} onDismiss={sb.dismiss} />
       {!s ? (
         <p className="loading" data-testid="loading">Loading the scenario…</p>

@@ -343,7 +343,7 @@ export function useSandbox() {
     loading, setup, builtins, report, running, view, notices, unstable, rates, scenarioError, stepperError, shareUrl,
     snapshotVersion, history, getSnapshot, subscribeSnapshot,
     run, pause, toggle, stepOnce, reset, setView, applyStepper, applyScenario, importScenario, currentScenario, share,
-    dismiss, clearScenarioError: () => setScenarioError(null),
+    dismiss, clearScenarioError: () => setScenarioError(null), hideShare: () => setShareUrl(""),
   };
 }
 

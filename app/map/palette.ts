@@ -37,8 +37,10 @@ export const NO_VALUE = pack("rgb(60,60,60)");
 export function colourDomain(scale: "diverging" | "sequential", min: number, max: number): [number, number] {
   if (!Number.isFinite(min) || !Number.isFinite(max)) return [0, 1];
   if (scale === "diverging") {
-    const lim = Math.max(Math.abs(min), Math.abs(max)) || 1e-30;
+    // a field that is zero everywhere (a basin at rest) gets a unit range, so the bar reads ±1 rather than ±1e-30
+    const lim = Math.max(Math.abs(min), Math.abs(max)) || 1;
     return [-lim, lim];
   }
-  return max > min ? [min, max] : [min - 0.5 * (Math.abs(min) || 1e-30), min + 0.5 * (Math.abs(min) || 1e-30)];
+  const half = 0.5 * (Math.abs(min) || 1);
+  return max > min ? [min, max] : [min - half, min + half];
 }

@@ -13,13 +13,13 @@ export function Notices({ notices, unstable, onDismiss }: NoticesProps) {
   return (
     <div className="notices" aria-live="polite">
       {unstable && (
-        <div className="notice error" role="alert" data-testid="blowup-message">
+        <div className="notice error" role="alert" data-testid="blowup-message"><span>
           <b>The run went unstable and was stopped.</b> Step {unstable.step}, t = {formatDays(unstable.time)} ({fmt(unstable.time)} s):{" "}
           {unstable.reason} in layer {unstable.layer} at {unstable.field === "thickness" ? "cell" : "edge"} {unstable.index}{" "}
           (x {km(unstable.x)}, y {km(unstable.y)}, marked on the map). Courant numbers: fast wave {fmt(unstable.courant.barotropic)},
           slow wave {fmt(unstable.courant.baroclinic)}, flow {fmt(unstable.courant.advection)}. The map shows the last good state;
           lower Δt and run again, or reset.
-        </div>
+        </span></div>
       )}
       {notices.map((n) => (
         <div key={n.id} className={`notice ${n.kind}`} role={n.kind === "error" ? "alert" : "status"} data-testid={n.testid}>

@@ -68,7 +68,6 @@ describe("browser sandbox", () => {
     expect(hover).toMatch(/^-?[\d.e+-]+ m$/m);
     expect(hover).toMatch(/x [\d.]+ km · y [\d.]+ km/);
     await page.screenshot({ path: shot("01-overview") });
-    await page.locator(byId("field-map")).screenshot({ path: shot("02-field-map-hover") });
     expect(errors).toEqual([]);
   });
 
@@ -83,6 +82,10 @@ describe("browser sandbox", () => {
     expect(await text(page, "courant")).toMatch(/fast wave [\d.]+/);
     expect(await text(page, "rhs-per-step")).toBe("4"); // RK4: four tendency evaluations per step (Kutta 1901)
     await page.locator(byId("run-controls")).screenshot({ path: shot("03-run-controls") });
+    const box = (await page.locator(byId("map-canvas")).boundingBox())!;
+    await page.mouse.move(box.x + box.width * 0.3, box.y + box.height * 0.6);
+    await page.locator(byId("map-hover")).waitFor();
+    await page.locator(byId("field-map")).screenshot({ path: shot("02-field-map") });
     await page.locator(byId("drift-panel")).screenshot({ path: shot("04-drift-plots") });
     // another field and another layer while paused
     const f1 = await mapFingerprint(page);
@@ -117,6 +120,23 @@ describe("browser sandbox", () => {
     await page.fill(byId("dt-input"), "-5");
     await page.click(byId("apply-stepper"));
     await expect.poll(() => text(page, "stepper-error")).toContain("stepper.dt");
+    // methods registered with matrix-function options show them; applying one and stepping counts matvecs
+    const names = await page.locator(`${byId("method-select")} option`).evaluateAll((os) => os.map((o) => (o as HTMLOptionElement).value));
+    for (const name of names) {
+      await page.selectOption(byId("method-select"), name);
+      if ((await page.locator(byId("option-backend")).count()) === 0) continue;
+      expect(await page.locator(byId("option-linear")).count()).toBe(1);
+      expect(await page.locator(byId("option-tolerance")).count()).toBe(1);
+      await page.fill(byId("dt-input"), "60");
+      await page.locator(byId("stepper-panel")).screenshot({ path: shot("05b-stepper-options") });
+      await page.click(byId("apply-stepper"));
+      await expect.poll(() => text(page, "stepper-label")).toContain(name);
+      const s1 = await stepCount(page);
+      await page.click(byId("step-button"));
+      await expect.poll(() => stepCount(page), { timeout: 20_000 }).toBe(s1 + 1);
+      await expect.poll(async () => Number(await text(page, "matvecs-per-step"))).toBeGreaterThan(0);
+      break;
+    }
   });
 
   it("an unstable Δt stops the run with step, time, reason and Courant numbers, and marks the cell", async () => {
@@ -184,7 +204,7 @@ describe("browser sandbox", () => {
     await page.click(byId("share-button"));
     const url = await page.locator(byId("share-link")).inputValue();
     expect(url).toMatch(/#setup=[A-Za-z0-9_-]+\.[0-9a-f]{8}$/);
-    await page.locator("header").screenshot({ path: shot("08-share") });
+    await page.screenshot({ path: shot("08-share"), clip: { x: 0, y: 0, width: 1280, height: 160 } });
     const otherErrors: string[] = [];
     const other = await openApp(sb, url.slice(url.indexOf("#")), otherErrors);
     expect(await text(other, "scenario-name")).toContain("tiny-ring");
