@@ -4,6 +4,7 @@ export interface BenchSection {
   run(ctx: { log: (s: string) => void; quick: boolean }): Promise<unknown> | unknown;
 }
 
+import { demoSection, operatorSection, phiSection } from "./fastSteppers";
 import { scalingSection } from "./scaling";
 
-export const EXTRA_SECTIONS: BenchSection[] = [scalingSection];
+export const EXTRA_SECTIONS: BenchSection[] = [operatorSection, phiSection, demoSection, scalingSection];
