@@ -7,7 +7,7 @@ import { fmt, loadScenarioArg, table, writeJson } from "./io.js";
 import { STEPPER_CLI_OPTIONS, stepperFromArgs } from "./stepperArgs.js";
 import { SolverError } from "../errors.js";
 
-export const RUN_USAGE = "run SCENARIO [--method M] [--dt S] [--steps N | --duration S] [--linear L] [--backend B] [--tolerance T] [--substeps N] [--filter F] [--json FILE]";
+export const RUN_USAGE = "run SCENARIO [--method M] [--dt S] [--steps N | --duration S] [--linear L] [--backend B] [--tolerance T] [--substeps N] [--filter F] [--passes N] [--json FILE]";
 
 export function runCommand(args: ParsedArgs, out: (s: string) => void): number {
   rejectUnknown(args, [...STEPPER_CLI_OPTIONS, "steps", "duration", "json", "quiet"], "run");
@@ -41,7 +41,7 @@ export function runCommand(args: ParsedArgs, out: (s: string) => void): number {
     ["simulated time", `${fmt(result.simulatedSeconds, "s")} (${fmt(result.simulatedSeconds / 86400, "days", 3)})`],
     ["wall time", fmt(result.wallSeconds, "s", 3)],
     ["wall time per simulated day", fmt(result.simulatedSeconds > 0 ? (result.wallSeconds * 86400) / result.simulatedSeconds : NaN, "s", 3)],
-    ["tendency evaluations", String(result.rhsEvaluations)],
+    ["tendency evaluations", fmt(result.rhsEvaluations, "", 6)],
     ["matvecs (per step)", `${result.matvecs} (${fmt(result.matvecsPerStep, "", 3)})`],
     ["inner products", String(result.innerProducts)],
     ["max relative mass drift", fmt(result.mass.maxRelativeDrift, "", 3)],

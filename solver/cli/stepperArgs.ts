@@ -2,7 +2,7 @@ import type { Scenario, StepperSpec } from "../scenario/schema.js";
 import { numberOption, stringOption, type ParsedArgs } from "./args.js";
 
 /** CLI options that become stepper options in the scenario's `stepper` object. */
-export const STEPPER_OPTION_KEYS = ["linear", "backend", "tolerance", "substeps", "filter"] as const;
+export const STEPPER_OPTION_KEYS = ["linear", "backend", "tolerance", "substeps", "filter", "passes"] as const;
 export const STEPPER_CLI_OPTIONS = ["method", "dt", ...STEPPER_OPTION_KEYS] as const;
 
 /**
