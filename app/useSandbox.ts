@@ -107,6 +107,7 @@ export function useSandbox() {
     if (prev && prev.values !== s.values && prev.values.byteLength > 0) spareRef.current = prev.values;
     snapshotRef.current = s;
     mapPerf.snapshots++;
+    if (s.recycled) mapPerf.recycled++;
     for (const f of snapshotListeners.current) f();
     scheduleFlush(now);
   };

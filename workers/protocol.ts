@@ -41,6 +41,8 @@ export interface Snapshot {
   max: number;
   step: number;
   time: number;
+  /** True when the buffer was one the UI handed back (no allocation for this snapshot). */
+  recycled: boolean;
 }
 
 export interface StepperCounters {

@@ -40,9 +40,10 @@ function current(): Run {
 
 function snapshot(r: Run, view: MapView, recycled?: Float32Array): Snapshot {
   const n = r.mesh.nCells;
-  const values = recycled && recycled.length === n ? recycled : new Float32Array(n);
+  const reuse = !!recycled && recycled.length === n;
+  const values = reuse ? recycled : new Float32Array(n);
   const range = computeField(values, view.kind, view.layer, r.model, r.state, work!);
-  return { values, kind: view.kind, layer: view.layer, min: range.min, max: range.max, step: r.steps, time: r.time };
+  return { values, kind: view.kind, layer: view.layer, min: range.min, max: range.max, step: r.steps, time: r.time, recycled: reuse };
 }
 
 function report(r: Run, view: MapView, chunkSteps: number, chunkMs: number, recycled?: Float32Array): ChunkReport {

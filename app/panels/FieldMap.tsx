@@ -47,7 +47,12 @@ export const FieldMap = memo(function FieldMap(p: FieldMapProps) {
   const [hover, setHover] = useState<Hover | null>(null);
   const info = p.fields.find((f) => f.kind === p.view.kind) ?? p.fields[0];
   const frame = useMemo(() => mapFrame(p.outlines, p.maxWidth, p.maxHeight), [p.outlines, p.maxWidth, p.maxHeight]);
-  const raster = useMemo(() => buildRaster(p.outlines, frame.width, frame.height, frame.scale), [p.outlines, frame]);
+  const raster = useMemo(() => {
+    const t0 = performance.now();
+    const r = buildRaster(p.outlines, frame.width, frame.height, frame.scale);
+    mapPerf.rasterMs = performance.now() - t0;
+    return r;
+  }, [p.outlines, frame]);
   const coast = useMemo(() => coastPath(p.outlines, raster), [p.outlines, raster]);
   const work = useMemo(() => ({
     img: new ImageData(raster.width, raster.height),

@@ -3,7 +3,7 @@
  * Small scenarios (a few hundred cells) are loaded through share links where speed matters; the main demo is
  * used where the test is about the page as a user first sees it. Screenshots: test-output/screenshots/.
  */
-import { writeFileSync } from "node:fs";
+import { readFileSync, writeFileSync } from "node:fs";
 import { cpus, loadavg } from "node:os";
 import path from "node:path";
 import { afterAll, beforeAll, describe, expect, it } from "vitest";
@@ -116,6 +116,16 @@ describe("browser sandbox", () => {
     await runFor(page, 800);
     expect(await stepCount(page)).toBeGreaterThan(steps0);
     await expect.poll(() => text(page, "rhs-per-step")).toBe("3"); // three-stage SSP RK3 (Shu & Osher 1988)
+    // Δt changed while running lands between chunks and the run goes on
+    await page.click(byId("run-button"));
+    await page.fill(byId("dt-input"), "40");
+    await page.click(byId("apply-stepper"));
+    await expect.poll(() => text(page, "courant")).toContain("Δt = 40 s");
+    const s2 = await stepCount(page);
+    await expect.poll(() => stepCount(page)).toBeGreaterThan(s2);
+    expect(await text(page, "run-button")).toBe("Pause");
+    await page.click(byId("run-button"));
+    await expect.poll(() => text(page, "run-button")).toBe("Run");
     // a bad option value is refused with the solver's field-named reason
     await page.fill(byId("dt-input"), "-5");
     await page.click(byId("apply-stepper"));
@@ -193,6 +203,16 @@ describe("browser sandbox", () => {
     await page.fill(byId("input-mesh.cellsX"), "20");
     await page.click(byId("apply-scenario"));
     await expect.poll(() => page.locator(byId("map-canvas")).getAttribute("data-cells")).toBe("320");
+    // export, then import the exported file: the same setup comes back
+    const [download] = await Promise.all([page.waitForEvent("download"), page.click(byId("scenario-export"))]);
+    const exported = JSON.parse(readFileSync((await download.path())!, "utf8"));
+    expect(exported.mesh.cellsX).toBe(20);
+    expect(exported.stepper.method).toBe("rk4");
+    await page.selectOption(byId("builtin-select"), "ring-wave");
+    await expect.poll(() => text(page, "scenario-name")).toContain("ring-wave");
+    await page.setInputFiles(byId("scenario-import"), { name: "roundtrip.json", mimeType: "application/json", buffer: Buffer.from(JSON.stringify(exported)) });
+    await expect.poll(() => text(page, "scenario-name")).toContain("tiny-ring");
+    expect(await page.locator(byId("map-canvas")).getAttribute("data-cells")).toBe("320");
   });
 
   it("a share link reproduces scenario and stepper; a tampered link says so and falls back to the default", async () => {
@@ -287,7 +307,7 @@ describe("browser sandbox", () => {
       w.__long = [];
       new PerformanceObserver((list) => { for (const e of list.getEntries()) w.__long.push({ start: e.startTime, duration: e.duration }); })
         .observe({ type: "longtask" });
-      Object.assign((window as unknown as { __stepwellPerf: object }).__stepwellPerf, { draws: 0, drawMsTotal: 0, drawMsMax: 0, snapshots: 0 });
+      Object.assign((window as unknown as { __stepwellPerf: object }).__stepwellPerf, { draws: 0, drawMsTotal: 0, drawMsMax: 0, snapshots: 0, recycled: 0 });
       w.__frames = [];
       w.__framesOn = true;
       const tick = (t: number) => { w.__frames.push(t); if (w.__framesOn) requestAnimationFrame(tick); };
@@ -306,7 +326,7 @@ describe("browser sandbox", () => {
     await page.click(byId("run-button"));
     await expect.poll(() => text(page, "run-button")).toBe("Run");
     const m = await page.evaluate((t0) => {
-      const w = window as unknown as { __long: { start: number; duration: number }[]; __frames: number[]; __framesOn: boolean; __stepwellPerf: { draws: number; drawMsTotal: number; drawMsMax: number; snapshots: number } };
+      const w = window as unknown as { __long: { start: number; duration: number }[]; __frames: number[]; __framesOn: boolean; __stepwellPerf: { draws: number; drawMsTotal: number; drawMsMax: number; snapshots: number; recycled: number; rasterMs: number } };
       w.__framesOn = false;
       const f = w.__frames.filter((t) => t >= t0);
       const gaps = f.slice(1).map((t, i) => t - f[i]).sort((a, b) => a - b);
@@ -325,6 +345,8 @@ describe("browser sandbox", () => {
         mapDrawMeanMs: w.__stepwellPerf.drawMsTotal / Math.max(1, w.__stepwellPerf.draws),
         mapDrawMaxMs: w.__stepwellPerf.drawMsMax,
         snapshots: w.__stepwellPerf.snapshots,
+        recycledSnapshots: w.__stepwellPerf.recycled,
+        rasterBuildMs: w.__stepwellPerf.rasterMs,
       };
     }, start);
     // the machine's load average goes with the figures: on a shared 2-core machine it dominates them
@@ -335,5 +357,7 @@ describe("browser sandbox", () => {
     expect(figures.steps).toBeGreaterThan(0);
     expect(m.snapshots).toBeGreaterThan(1);
     expect(m.mapDraws).toBeGreaterThan(1);
+    // ping-pong buffers: after the first two chunks every snapshot reuses a buffer the page handed back
+    expect(m.recycledSnapshots).toBeGreaterThanOrEqual(m.snapshots - 2);
   });
 });
