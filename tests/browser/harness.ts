@@ -43,7 +43,11 @@ export async function startSandbox(): Promise<Sandbox> {
     // a cache of its own so that a developer's `npm start` and the tests never write the same folder
     cacheDir: path.join(ROOT, "node_modules", ".vite-browser-tests"),
     server: { host: "127.0.0.1", port, strictPort: true, hmr: false, watch: null },
-    optimizeDeps: { include: ["react", "react-dom", "react-dom/client", "react/jsx-dev-runtime", "d3", "comlink", "zod"] },
+    // crawl the worker too and pre-bundle up front, so no late discovery reloads a page in the middle of a test
+    optimizeDeps: {
+      entries: ["index.html", "workers/simulation.worker.ts"],
+      include: ["react", "react-dom", "react-dom/client", "react/jsx-dev-runtime", "d3", "comlink", "zod"],
+    },
   });
   await server.listen();
   const browser = await chromium.launch({

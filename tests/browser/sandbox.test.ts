@@ -112,7 +112,7 @@ describe("browser sandbox", () => {
     await expect.poll(() => text(page, "stepper-label")).toContain("ssprk3");
     expect(await stepCount(page)).toBe(steps0); // nothing was reset
     expect(await text(page, "sim-time")).toBe(time0);
-    await page.locator(byId("stepper-panel")).screenshot({ path: shot("05-stepper-panel") });
+    await page.screenshot({ path: shot("05-stepper-panel") });
     await runFor(page, 800);
     expect(await stepCount(page)).toBeGreaterThan(steps0);
     await expect.poll(() => text(page, "rhs-per-step")).toBe("3"); // three-stage SSP RK3 (Shu & Osher 1988)
@@ -138,7 +138,8 @@ describe("browser sandbox", () => {
       expect(await page.locator(byId("option-linear")).count()).toBe(1);
       expect(await page.locator(byId("option-tolerance")).count()).toBe(1);
       await page.fill(byId("dt-input"), "60");
-      await page.locator(byId("stepper-panel")).screenshot({ path: shot("05b-stepper-options") });
+      await page.locator(byId("option-tolerance")).scrollIntoViewIfNeeded();
+      await page.screenshot({ path: shot("05b-stepper-options") });
       await page.click(byId("apply-stepper"));
       await expect.poll(() => text(page, "stepper-label")).toContain(name);
       const s1 = await stepCount(page);
@@ -197,7 +198,8 @@ describe("browser sandbox", () => {
     await page.click(byId("apply-scenario"));
     await expect.poll(() => text(page, "scenario-error")).toContain("mesh.spacing");
     expect(await page.locator('[data-testid="field-error"][data-field="mesh.spacing"]').count()).toBe(1);
-    await page.locator(byId("scenario-panel")).screenshot({ path: shot("07-scenario-panel-error") });
+    await page.locator(byId("scenario-error")).scrollIntoViewIfNeeded();
+    await page.screenshot({ path: shot("07-scenario-panel-error") });
     // a good edit rebuilds the mesh: 20 × 16 cells
     await page.fill(byId("input-mesh.spacing"), "20");
     await page.fill(byId("input-mesh.cellsX"), "20");
@@ -265,7 +267,7 @@ describe("browser sandbox", () => {
     // SSP RK3 reaches √3 on the imaginary axis (Gottlieb, Shu & Tadmor 2001): limit = √3/(2√2) × RK4's
     const sspRow = (await page.locator(`${byId("limits-table")} tr[data-method="ssprk3"] td`).allTextContents())[1];
     expect(Number(sspRow) / Number(rk4Row)).toBeCloseTo(Math.sqrt(3) / (2 * Math.SQRT2), 3);
-    await page.locator(byId("modes-panel")).screenshot({ path: shot("10-modes-table") });
+    await page.screenshot({ path: shot("10-modes-table") });
     await page.locator("body").click({ position: { x: 5, y: 790 } });
     await page.keyboard.press(" ");
     await expect.poll(() => text(page, "run-button")).toBe("Pause");
