@@ -35,6 +35,8 @@ export interface RestLinearOperator extends LinearOperator {
   readonly coriolisCoef: Float64Array;
   /** The layer-coupling matrix 𝒢 (row-major L×L) [m/s²]. */
   readonly coupling: Float64Array;
+  /** Bound of the spectral radius (see RestOperatorOptions) [1/s]. */
+  readonly spectralBound: number;
   /** Barotropic speed of the deepest column [m/s]. */
   readonly fastestSpeed: number;
   /** Largest |f| on the mesh [1/s]. */
