@@ -14,7 +14,7 @@ interface DriftPlotsProps {
 }
 
 const W = 440;
-const H = 128;
+const H = 110;
 const M = { l: 64, r: 10, t: 10, b: 28 };
 /** Smallest |drift| shown on the log scale (below double-precision round-off of a relative quantity). */
 const FLOOR = 1e-17;
