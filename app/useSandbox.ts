@@ -227,8 +227,10 @@ export function useSandbox() {
     };
   }, []);
 
-  const runLoop = async () => {
-    while (runningRef.current) {
+  /** Each run gets a number, so a loop still awaiting its last chunk after a quick pause/run ends instead of doubling up. */
+  const loopId = useRef(0);
+  const runLoop = async (id: number) => {
+    while (runningRef.current && id === loopId.current) {
       let rep: ChunkReport;
       try {
         const n = stepsPerChunk.current;
@@ -251,7 +253,7 @@ export function useSandbox() {
     runningRef.current = true;
     setRunning(true);
     clockRef.current.length = 0;
-    void runLoop();
+    void runLoop(++loopId.current);
   }, []);
 
   const pause = useCallback(() => stop(), []);
@@ -344,7 +346,7 @@ export function useSandbox() {
     loading, setup, builtins, report, running, view, notices, unstable, rates, scenarioError, stepperError, shareUrl,
     snapshotVersion, history, getSnapshot, subscribeSnapshot,
     run, pause, toggle, stepOnce, reset, setView, applyStepper, applyScenario, importScenario, currentScenario, share,
-    dismiss, clearScenarioError: () => setScenarioError(null), hideShare: () => setShareUrl(""),
+    dismiss, hideShare: () => setShareUrl(""),
   };
 }
 

@@ -2,7 +2,7 @@
  * UI side of the solver worker: one queue of calls (so a stepper change never lands inside a chunk), every call
  * raced against the worker's death and a time limit, and a restart when the worker dies.
  */
-import { transfer, wrap, type Remote } from "comlink";
+import { wrap, type Remote } from "comlink";
 import type { SimulationApi } from "./simulation.worker.js";
 import type { WorkerFailure } from "./protocol.js";
 
@@ -88,11 +88,6 @@ export class SolverClient {
     const p = this.queue.then(run, run);
     this.queue = p.catch(() => undefined);
     return p;
-  }
-
-  /** Mark a buffer to be moved to the worker (a snapshot being handed back for reuse). */
-  static give<T>(value: T, buffers: Transferable[]): T {
-    return transfer(value, buffers);
   }
 
   dispose(): void {

@@ -361,5 +361,7 @@ describe("browser sandbox", () => {
     expect(m.mapDraws).toBeGreaterThan(1);
     // ping-pong buffers: after the first two chunks every snapshot reuses a buffer the page handed back
     expect(m.recycledSnapshots).toBeGreaterThanOrEqual(m.snapshots - 2);
+    // nothing in the whole session on the shared page (blow-up, bad files, broken links, worker crash) logged an error
+    expect(errors).toEqual([]);
   });
 });
