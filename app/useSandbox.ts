@@ -193,28 +193,35 @@ export function useSandbox() {
   };
 
   useEffect(() => {
-    const c = new SolverClient({
-      onRestart: (reason) => {
-        stop();
-        notify("error", "worker-restarted", `The solver worker stopped (${reason}). A new one was started and the run was set back to its start.`);
-        const s = scenarioRef.current;
-        void (async () => {
-          const fail = s ? await load(s) : null;
-          if (!s || fail) await loadDefault();
-        })();
-      },
-    });
-    clientRef.current = c;
-    void (async () => {
+    /** Fetch the built-ins, then load the link in the address bar or the default scenario. */
+    const boot = async () => {
       try {
         builtinsRef.current = await c.call((r) => r.builtins());
         setBuiltins(builtinsRef.current);
         await startFromLocation();
       } catch (e) {
         setLoading(false);
-        notify("error", "run-error", `The solver could not start: ${failureMessage(e)}`);
+        if (!(isWorkerFailure(e) && e.code === "worker-died")) notify("error", "run-error", `The solver could not start: ${failureMessage(e)}`);
       }
-    })();
+    };
+    const c = new SolverClient({
+      onRestart: (reason, gaveUp) => {
+        stop();
+        if (gaveUp) {
+          notify("error", "worker-restarted", `The solver worker keeps stopping (${reason}); it was not started again. Reload the page to try once more.`);
+          return;
+        }
+        notify("error", "worker-restarted", `The solver worker stopped (${reason}). A new one was started and the run was set back to its start.`);
+        const s = scenarioRef.current;
+        void (async () => {
+          if (!builtinsRef.current.length) { await boot(); return; }
+          const fail = s ? await load(s) : null;
+          if (!s || fail) await loadDefault();
+        })();
+      },
+    });
+    clientRef.current = c;
+    void boot();
     const onHash = () => { if (window.location.hash !== lastSharedHash.current) void startFromLocation(); };
     window.addEventListener("hashchange", onHash);
     if (import.meta.env.DEV) {

@@ -9,8 +9,11 @@ import type { WorkerFailure } from "./protocol.js";
 export type SolverRemote = Remote<SimulationApi>;
 
 export interface SolverClientOptions {
-  /** Called when the worker died and a fresh one was started (the caller re-initialises it). */
-  onRestart: (reason: string) => void;
+  /**
+   * Called when the worker died: with gaveUp = false a fresh one was started (the caller re-initialises it);
+   * with gaveUp = true it kept dying right away (e.g. its code fails to load) and no further one is started.
+   */
+  onRestart: (reason: string, gaveUp: boolean) => void;
   /** Longest a call may take before the worker is declared dead [ms]. */
   callTimeoutMs?: number;
 }
@@ -32,6 +35,8 @@ export class SolverClient {
   private died!: Promise<never>;
   private killDeath!: (reason: string) => void;
   private disposed = false;
+  private gaveUp = false;
+  private readonly restartTimes: number[] = [];
   restarts = 0;
 
   constructor(private readonly opts: SolverClientOptions) {
@@ -57,18 +62,29 @@ export class SolverClient {
 
   /** End the current worker, fail its pending calls, start a fresh one and tell the owner. */
   restart(reason: string): void {
-    if (this.disposed) return;
+    if (this.disposed || this.gaveUp) return;
     const kill = this.killDeath;
     this.worker.terminate();
     this.restarts++;
+    const now = Date.now();
+    this.restartTimes.push(now);
+    while (this.restartTimes.length && now - this.restartTimes[0] > 10_000) this.restartTimes.shift();
     this.queue = Promise.resolve();
+    if (this.restartTimes.length > 3) {
+      // three deaths in ten seconds: starting another would only loop; every later call fails at once
+      this.gaveUp = true;
+      kill(reason);
+      this.opts.onRestart(reason, true);
+      return;
+    }
     this.spawn();
     kill(reason);
-    this.opts.onRestart(reason);
+    this.opts.onRestart(reason, false);
   }
 
   /** Queue a call on the remote; it rejects with a WorkerFailure on solver errors, death or time-out. */
   call<T>(f: (r: SolverRemote) => Promise<T>, timeoutMs = this.opts.callTimeoutMs ?? 30_000): Promise<T> {
+    if (this.gaveUp) return Promise.reject({ name: "WorkerError", code: "worker-died", message: "the solver worker could not be kept running" } satisfies WorkerFailure);
     const died = this.died;
     const remote = this.remote;
     const run = async (): Promise<T> => {

@@ -45,11 +45,23 @@ async function loadLink(hash: string, name = "tiny-ring") {
   await expect.poll(() => stepCount(page)).toBe(0);
 }
 
+/** After a pause the chunk already in the worker still lands: wait until the step count stops changing. */
+async function settled(page: Page): Promise<number> {
+  let last = -1;
+  for (;;) {
+    const n = await stepCount(page);
+    if (n === last) return n;
+    last = n;
+    await page.waitForTimeout(250);
+  }
+}
+
 async function runFor(page: Page, ms: number) {
   await page.click(byId("run-button"));
   await page.waitForTimeout(ms);
   await page.click(byId("run-button"));
   await expect.poll(() => text(page, "run-button")).toBe("Run");
+  await settled(page);
 }
 
 describe("browser sandbox", () => {
@@ -126,6 +138,7 @@ describe("browser sandbox", () => {
     expect(await text(page, "run-button")).toBe("Pause");
     await page.click(byId("run-button"));
     await expect.poll(() => text(page, "run-button")).toBe("Run");
+    await settled(page);
     // a bad option value is refused with the solver's field-named reason
     await page.fill(byId("dt-input"), "-5");
     await page.click(byId("apply-stepper"));
@@ -273,7 +286,7 @@ describe("browser sandbox", () => {
     await expect.poll(() => text(page, "run-button")).toBe("Pause");
     await page.keyboard.press(" ");
     await expect.poll(() => text(page, "run-button")).toBe("Run");
-    const s0 = await stepCount(page);
+    const s0 = await settled(page);
     await page.keyboard.press("s");
     await expect.poll(() => stepCount(page)).toBe(s0 + 1);
   });
@@ -327,6 +340,7 @@ describe("browser sandbox", () => {
     }
     await page.click(byId("run-button"));
     await expect.poll(() => text(page, "run-button")).toBe("Run");
+    await settled(page);
     const m = await page.evaluate((t0) => {
       const w = window as unknown as { __long: { start: number; duration: number }[]; __frames: number[]; __framesOn: boolean; __stepwellPerf: { draws: number; drawMsTotal: number; drawMsMax: number; snapshots: number; recycled: number; rasterMs: number } };
       w.__framesOn = false;
