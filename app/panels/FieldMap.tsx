@@ -46,13 +46,15 @@ export const FieldMap = memo(function FieldMap(p: FieldMapProps) {
   const canvasRef = useRef<HTMLCanvasElement>(null);
   const [hover, setHover] = useState<Hover | null>(null);
   const info = p.fields.find((f) => f.kind === p.view.kind) ?? p.fields[0];
+  // the canvas holds device pixels (up to 2 per CSS pixel) so hexagons stay sharp on dense screens
+  const dpr = Math.min(2, Math.max(1, Math.round(window.devicePixelRatio || 1)));
   const frame = useMemo(() => mapFrame(p.outlines, p.maxWidth, p.maxHeight), [p.outlines, p.maxWidth, p.maxHeight]);
   const raster = useMemo(() => {
     const t0 = performance.now();
-    const r = buildRaster(p.outlines, frame.width, frame.height, frame.scale);
+    const r = buildRaster(p.outlines, frame.width * dpr, frame.height * dpr, frame.scale * dpr);
     mapPerf.rasterMs = performance.now() - t0;
     return r;
-  }, [p.outlines, frame]);
+  }, [p.outlines, frame, dpr]);
   const coast = useMemo(() => coastPath(p.outlines, raster), [p.outlines, raster]);
   const work = useMemo(() => ({
     img: new ImageData(raster.width, raster.height),
@@ -75,12 +77,12 @@ export const FieldMap = memo(function FieldMap(p: FieldMapProps) {
       ctx.putImageData(work.img, 0, 0);
       if (p.outlines.coast.length) {
         ctx.strokeStyle = "#2b2b2b";
-        ctx.lineWidth = 1.5;
+        ctx.lineWidth = 1.5 * dpr;
         ctx.stroke(coast);
       }
       if (hoverPath) {
         ctx.strokeStyle = "#000";
-        ctx.lineWidth = 2;
+        ctx.lineWidth = 2 * dpr;
         ctx.stroke(hoverPath);
       }
       if (markPath) {
@@ -88,9 +90,9 @@ export const FieldMap = memo(function FieldMap(p: FieldMapProps) {
         ctx.fill(markPath);
         const [cx, cy] = raster.toPixel(p.outlines.cellX[marked], p.outlines.cellY[marked]);
         ctx.strokeStyle = "#ff00ff";
-        ctx.lineWidth = 3;
+        ctx.lineWidth = 3 * dpr;
         ctx.beginPath();
-        ctx.arc(cx, cy, 14, 0, 2 * Math.PI);
+        ctx.arc(cx, cy, 14 * dpr, 0, 2 * Math.PI);
         ctx.stroke();
       }
       const ms = performance.now() - t0;
@@ -139,19 +141,19 @@ export const FieldMap = memo(function FieldMap(p: FieldMapProps) {
         <span className="hint" title={info.description}>{info.description}</span>
       </div>
       <div className="map-body">
-        <div className="canvas-wrap" style={{ width: raster.width, height: raster.height }}>
-          <canvas ref={canvasRef} width={raster.width} height={raster.height} data-testid="map-canvas"
+        <div className="canvas-wrap" style={{ width: frame.width, height: frame.height }}>
+          <canvas ref={canvasRef} width={raster.width} height={raster.height} style={{ width: frame.width, height: frame.height }} data-testid="map-canvas"
             data-cells={p.outlines.nCells} data-covered-cells={raster.coveredCells}
             onMouseMove={onMove} onMouseLeave={() => setHover(null)} />
           {hover && (
             <div className="hover" data-testid="map-hover"
-              style={{ left: Math.min(hover.px + 14, raster.width - 190), top: Math.max(hover.py - 56, 0) }}>
+              style={{ left: Math.min(hover.px + 14, frame.width - 190), top: Math.max(hover.py - 56, 0) }}>
               <div><b>{fmt(hoverValue, 4)} {info.unit}</b></div>
               <div>cell {hover.cell} · x {km(hover.x)} · y {km(hover.y)}</div>
             </div>
           )}
         </div>
-        {snap && <ColourBar scale={info.scale} min={snap.min} max={snap.max} unit={info.unit} label={info.label} height={Math.min(raster.height, 360)} />}
+        {snap && <ColourBar scale={info.scale} min={snap.min} max={snap.max} unit={info.unit} label={info.label} height={Math.min(frame.height, 360)} />}
       </div>
     </section>
   );
