@@ -45,7 +45,7 @@ export function useSandbox() {
   const [view, setViewState] = useState<MapView>({ kind: "surface", layer: 0 });
   const [notices, setNotices] = useState<Notice[]>([]);
   const [unstable, setUnstable] = useState<UnstableInfo | null>(null);
-  const [rates, setRates] = useState<Rates>({ daysPerSecond: 0, rhsPerStep: 0, matvecsPerStep: 0 });
+  const [rates, setRates] = useState<Rates>({ daysPerSecond: 0, rhsPerStep: NaN, matvecsPerStep: NaN });
   const [scenarioError, setScenarioError] = useState<WorkerFailure | null>(null);
   const [stepperError, setStepperError] = useState<WorkerFailure | null>(null);
   const [shareUrl, setShareUrl] = useState("");
@@ -127,8 +127,8 @@ export function useSandbox() {
     const daysPerSecond = clock.length > 1 && now > first.wall ? (rep.time - first.sim) / 86400 / ((now - first.wall) / 1000) : 0;
     pendingRates.current = {
       daysPerSecond,
-      rhsPerStep: c.steps ? c.rhsEvaluations / c.steps : 0,
-      matvecsPerStep: c.steps ? c.matvecs / c.steps : 0,
+      rhsPerStep: c.steps ? c.rhsEvaluations / c.steps : NaN,
+      matvecsPerStep: c.steps ? c.matvecs / c.steps : NaN,
     };
     if (rep.unstable) setUnstable(rep.unstable);
     acceptSnapshot(rep.snapshot, fresh || !!rep.unstable);
@@ -301,6 +301,8 @@ export function useSandbox() {
       setStepperError(null);
       setUnstable(null);
       setReport((rep) => (rep ? { ...rep, courant: info.courant, unstable: null } : rep));
+      // the new stepper's counters start at zero: no per-step figures until it has stepped
+      setRates((r) => ({ ...r, rhsPerStep: NaN, matvecsPerStep: NaN }));
       setNotices((ns) => ns.filter((n) => n.testid !== "run-error"));
       return true;
     } catch (e) {

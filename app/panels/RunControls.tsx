@@ -25,8 +25,8 @@ export function RunControls(p: RunControlsProps) {
         <div><dt>simulated</dt><dd data-testid="sim-time">{formatDays(p.time)}</dd></div>
         <div><dt>days / second</dt><dd data-testid="days-per-second">{p.running ? fmt(p.rates.daysPerSecond) : "—"}</dd></div>
         <div><dt>steps</dt><dd data-testid="step-count">{p.steps}</dd></div>
-        <div><dt>tendency calls / step</dt><dd data-testid="rhs-per-step">{fmt(p.rates.rhsPerStep)}</dd></div>
-        <div><dt>matvecs / step</dt><dd data-testid="matvecs-per-step">{fmt(p.rates.matvecsPerStep)}</dd></div>
+        <div><dt>tendency calls / step</dt><dd data-testid="rhs-per-step">{Number.isFinite(p.rates.rhsPerStep) ? fmt(p.rates.rhsPerStep) : "—"}</dd></div>
+        <div><dt>matvecs / step</dt><dd data-testid="matvecs-per-step">{Number.isFinite(p.rates.matvecsPerStep) ? fmt(p.rates.matvecsPerStep) : "—"}</dd></div>
         <div><dt>stepper</dt><dd data-testid="stepper-label">{p.label}</dd></div>
       </dl>
     </section>
