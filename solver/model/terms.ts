@@ -1,4 +1,5 @@
 import type { Mesh } from "../mesh/types.js";
+import { divergence } from "../mesh/operators.js";
 
 /**
  * One function per term of the TRiSK multi-layer equations (numerics reference §3.6–3.7), for one layer.
@@ -142,17 +143,9 @@ export function linearDrag(out: Float64Array, outOff: number, m: Mesh, u: Float6
  * `div` (nCells) and `vort` (nVertices) are work arrays; writes `out` (nEdges, zero on coastline edges).
  */
 export function vectorLaplacian(out: Float64Array, m: Mesh, u: Float64Array, uOff: number, div: Float64Array, vort: Float64Array): void {
-  const { cellEdgeOffset: off, cellEdgeIndex: idx, cellEdgeSign: sgn, edgeLength: len, cellArea } = m;
-  for (let i = 0; i < m.nCells; i++) {
-    let acc = 0;
-    for (let q = off[i]; q < off[i + 1]; q++) {
-      const e = idx[q];
-      acc += sgn[q] * len[e] * u[uOff + e];
-    }
-    div[i] = acc / cellArea[i];
-  }
+  divergence(div, m, u, 0, uOff);
   relativeVorticity(vort, m, u, uOff);
-  const { edgeCells: ec, edgeVertices: ev, edgeCellDistance: dc, edgeOpen } = m;
+  const { edgeCells: ec, edgeVertices: ev, edgeCellDistance: dc, edgeLength: len, edgeOpen } = m;
   for (let e = 0; e < m.nEdges; e++) {
     out[e] = edgeOpen[e]
       ? (div[ec[2 * e + 1]] - div[ec[2 * e]]) / dc[e] - (vort[ev[2 * e + 1]] - vort[ev[2 * e]]) / len[e]
