@@ -127,32 +127,47 @@ export function restLinearOperator(model: ShallowWaterModel, opts: RestOperatorO
   const { cellEdgeOffset: cOff, cellEdgeIndex: cIdx, cellEdgeSign: cSgn, edgeLength: len, cellArea } = m;
   const { edgeCells: ec, edgeCellDistance: dc, edgeOpen, tangentOffset: tOff, tangentIndex: tIdx } = m;
 
+  // precombined continuity coefficients −n_{e,i} l_e Ĥ_{k,e}/A_i per layer and cell-edge slot, and 1/d_e
+  const nSlots = cOff[nc];
+  const contCoef = new Float64Array(L * nSlots);
+  for (let k = 0; k < L; k++) {
+    for (let i = 0; i < nc; i++) {
+      for (let q = cOff[i]; q < cOff[i + 1]; q++) {
+        const e = cIdx[q];
+        contCoef[k * nSlots + q] = (-cSgn[q] * len[e] * Hedge[k * ne + e]) / cellArea[i];
+      }
+    }
+  }
+  const invD = Float64Array.from(dc, (d) => 1 / d);
+
+  /** out = L x in layer variables. Arrays are aliased to locals so the loops read them from registers. */
   function applyLayers(out: Float64Array, x: Float64Array): void {
+    const G = coupling, M = Mp, cc = coriolisCoef, kc = contCoef, inv = invD;
+    const to = tOff, ti = tIdx, co = cOff, ci = cIdx, edges = ec, open = edgeOpen;
     // M'_k = Σ_j 𝒢_kj h'_j per cell
     for (let i = 0; i < nc; i++) {
       for (let k = 0; k < L; k++) {
         let s = 0;
-        for (let j = 0; j < L; j++) s += coupling[k * L + j] * x[j * nc + i];
-        Mp[k * nc + i] = s;
+        for (let j = 0; j < L; j++) s += G[k * L + j] * x[j * nc + i];
+        M[k * nc + i] = s;
       }
     }
     for (let k = 0; k < L; k++) {
-      const uOff = uOffset + k * ne, hOff = k * nc, cOffK = k * nnz, eOffK = k * ne;
+      const uOff = uOffset + k * ne, hOff = k * nc, cOffK = k * nnz, sOffK = k * nSlots;
       // momentum: Coriolis with rest PV minus the Montgomery gradient
       for (let e = 0; e < ne; e++) {
-        if (!edgeOpen[e]) { out[uOff + e] = 0; continue; }
+        if (open[e] === 0) { out[uOff + e] = 0; continue; }
         let acc = 0;
-        for (let q = tOff[e]; q < tOff[e + 1]; q++) acc += coriolisCoef[cOffK + q] * x[uOff + tIdx[q]];
-        out[uOff + e] = acc - (Mp[hOff + ec[2 * e + 1]] - Mp[hOff + ec[2 * e]]) / dc[e];
+        const end = to[e + 1];
+        for (let q = to[e]; q < end; q++) acc += cc[cOffK + q] * x[uOff + ti[q]];
+        out[uOff + e] = acc - (M[hOff + edges[2 * e + 1]] - M[hOff + edges[2 * e]]) * inv[e];
       }
       // continuity: −D(Ĥ_k u_k)
       for (let i = 0; i < nc; i++) {
         let acc = 0;
-        for (let q = cOff[i]; q < cOff[i + 1]; q++) {
-          const e = cIdx[q];
-          acc += cSgn[q] * len[e] * Hedge[eOffK + e] * x[uOff + e];
-        }
-        out[hOff + i] = -acc / cellArea[i];
+        const end = co[i + 1];
+        for (let q = co[i]; q < end; q++) acc += kc[sOffK + q] * x[uOff + ci[q]];
+        out[hOff + i] = acc;
       }
     }
   }

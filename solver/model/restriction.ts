@@ -160,11 +160,12 @@ export function modalRestriction(model: ShallowWaterModel, nModes: number, rest:
     }
   }
   // flat bottom: keep the diagonals only (the off-diagonal entries are round-off)
+  // stored mode-major (one contiguous single-layer operator per mode) so each mode's loop streams its own data
   const corDiag = new Float64Array(nnzT * m), gradDiag = new Float64Array(ne * 2 * m), divDiag = new Float64Array(nnzC * m);
   if (flat) {
-    for (let q = 0; q < nnzT; q++) for (let a = 0; a < m; a++) corDiag[q * m + a] = corBlk[q * mm + a * m + a];
-    for (let r = 0; r < 2 * ne; r++) for (let a = 0; a < m; a++) gradDiag[r * m + a] = gradBlk[r * mm + a * m + a];
-    for (let q = 0; q < nnzC; q++) for (let a = 0; a < m; a++) divDiag[q * m + a] = divBlk[q * mm + a * m + a];
+    for (let q = 0; q < nnzT; q++) for (let a = 0; a < m; a++) corDiag[a * nnzT + q] = corBlk[q * mm + a * m + a];
+    for (let r = 0; r < 2 * ne; r++) for (let a = 0; a < m; a++) gradDiag[a * 2 * ne + r] = gradBlk[r * mm + a * m + a];
+    for (let q = 0; q < nnzC; q++) for (let a = 0; a < m; a++) divDiag[a * nnzC + q] = divBlk[q * mm + a * m + a];
   }
 
   const counters: OperatorCounters = { matvecs: 0, innerProducts: 0 };
@@ -172,13 +173,16 @@ export function modalRestriction(model: ShallowWaterModel, nModes: number, rest:
   /** Velocity part of L̂ y into out (modal layout, velocity block only). */
   function applyVelocity(out: Float64Array, y: Float64Array): void {
     if (flat) {
+      // arrays aliased to locals so the loops do not reload them from the closure
+      const cd = corDiag, gd = gradDiag, to = tOff, ti = tIdx, edges = ec, open = edgeOpen;
       for (let a = 0; a < m; a++) {
-        const uo = mOffset + a * ne, ho = a * nc;
+        const uo = mOffset + a * ne, ho = a * nc, co = a * nnzT, go = a * 2 * ne;
         for (let e = 0; e < ne; e++) {
-          if (!edgeOpen[e]) { out[uo + e] = 0; continue; }
+          if (open[e] === 0) { out[uo + e] = 0; continue; }
           let acc = 0;
-          for (let q = tOff[e]; q < tOff[e + 1]; q++) acc += corDiag[q * m + a] * y[uo + tIdx[q]];
-          acc += gradDiag[(2 * e) * m + a] * y[ho + ec[2 * e]] + gradDiag[(2 * e + 1) * m + a] * y[ho + ec[2 * e + 1]];
+          const end = to[e + 1];
+          for (let q = to[e]; q < end; q++) acc += cd[co + q] * y[uo + ti[q]];
+          acc += gd[go + 2 * e] * y[ho + edges[2 * e]] + gd[go + 2 * e + 1] * y[ho + edges[2 * e + 1]];
           out[uo + e] = acc;
         }
       }
@@ -208,11 +212,13 @@ export function modalRestriction(model: ShallowWaterModel, nModes: number, rest:
   /** Thickness part of L̂ y. */
   function applyThickness(out: Float64Array, y: Float64Array): void {
     if (flat) {
+      const dd = divDiag, co = cOff, ci = cIdx;
       for (let a = 0; a < m; a++) {
-        const uo = mOffset + a * ne, ho = a * nc;
+        const uo = mOffset + a * ne, ho = a * nc, dOff = a * nnzC;
         for (let i = 0; i < nc; i++) {
           let acc = 0;
-          for (let q = cOff[i]; q < cOff[i + 1]; q++) acc += divDiag[q * m + a] * y[uo + cIdx[q]];
+          const end = co[i + 1];
+          for (let q = co[i]; q < end; q++) acc += dd[dOff + q] * y[uo + ci[q]];
           out[ho + i] = acc;
         }
       }
