@@ -159,10 +159,12 @@ export function modalRestriction(model: ShallowWaterModel, nModes: number, rest:
       }
     }
   }
-  // flat bottom: keep the diagonals only (the off-diagonal entries are round-off)
+  // flat bottom: keep the diagonals only (the off-diagonal entries are round-off); with one mode the blocks are
+  // 1×1 and the diagonal path is exact for any bottom
+  const diagonal = flat || m === 1;
   // stored mode-major (one contiguous single-layer operator per mode) so each mode's loop streams its own data
   const corDiag = new Float64Array(nnzT * m), gradDiag = new Float64Array(ne * 2 * m), divDiag = new Float64Array(nnzC * m);
-  if (flat) {
+  if (diagonal) {
     for (let q = 0; q < nnzT; q++) for (let a = 0; a < m; a++) corDiag[a * nnzT + q] = corBlk[q * mm + a * m + a];
     for (let r = 0; r < 2 * ne; r++) for (let a = 0; a < m; a++) gradDiag[a * 2 * ne + r] = gradBlk[r * mm + a * m + a];
     for (let q = 0; q < nnzC; q++) for (let a = 0; a < m; a++) divDiag[a * nnzC + q] = divBlk[q * mm + a * m + a];
@@ -172,7 +174,7 @@ export function modalRestriction(model: ShallowWaterModel, nModes: number, rest:
 
   /** Velocity part of L̂ y into out (modal layout, velocity block only). */
   function applyVelocity(out: Float64Array, y: Float64Array): void {
-    if (flat) {
+    if (diagonal) {
       // arrays aliased to locals so the loops do not reload them from the closure
       const cd = corDiag, gd = gradDiag, to = tOff, ti = tIdx, edges = ec, open = edgeOpen;
       for (let a = 0; a < m; a++) {
@@ -211,7 +213,7 @@ export function modalRestriction(model: ShallowWaterModel, nModes: number, rest:
   }
   /** Thickness part of L̂ y. */
   function applyThickness(out: Float64Array, y: Float64Array): void {
-    if (flat) {
+    if (diagonal) {
       const dd = divDiag, co = cOff, ci = cIdx;
       for (let a = 0; a < m; a++) {
         const uo = mOffset + a * ne, ho = a * nc, dOff = a * nnzC;

@@ -106,7 +106,7 @@ export const demoSection: BenchSection = {
     const raw = builtinScenario("shelf-gyre-basin") as Record<string, unknown>;
     const probe = createRun(raw);
     const limit = probe.rk4DtLimit();
-    const simulated = quick ? 21600 : 86400;
+    const simulated = quick ? 21600 : 43200;
     const perDay = (r: ReturnType<typeof execute>) => (r.wallSeconds * 86400) / r.simulatedSeconds;
     const rk4 = execute(createRun(raw, { method: "rk4", dt: 0.95 * limit }), { duration: simulated, clock: () => performance.now() / 1000 });
     const rk4PerDay = perDay(rk4);
