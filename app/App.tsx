@@ -89,7 +89,7 @@ export function App() {
               </div>
               <div role="tabpanel" className="tab-body">
                 {tab === "stepper" && (
-                  <StepperPanel methods={s.methods} spec={s.stepper.spec} note={s.stepper.note} rk4DtLimit={s.description.rk4DtLimit}
+                  <StepperPanel methods={s.methods} spec={s.stepper.spec} label={s.stepper.label} note={s.stepper.note} rk4DtLimit={s.description.rk4DtLimit}
                     running={sb.running} error={sb.stepperError} onApply={sb.applyStepper} />
                 )}
                 {tab === "scenario" && (

@@ -6,8 +6,10 @@ import type { Budget, CourantNumbers } from "../solver/diagnostics/budget.js";
 import type { CellOutlines, FieldInfo, FieldKind } from "../solver/diagnostics/fields.js";
 import type { RunDescription, UnstableReport } from "../solver/driver/run.js";
 import type { Scenario, StepperSpec } from "../solver/scenario/schema.js";
+import type { ChoiceConflict, OptionChoice, OptionDescription, OptionValue } from "../solver/time/optionChoices.js";
 
 export type { Budget, CourantNumbers, CellOutlines, FieldInfo, FieldKind, RunDescription, UnstableReport, Scenario, StepperSpec };
+export type { ChoiceConflict, OptionChoice, OptionDescription, OptionValue };
 
 /** A failure as it reaches the UI: the solver's code, the offending field path if any, and a message. */
 export interface WorkerFailure {
@@ -23,6 +25,8 @@ export interface MethodSummary {
   order: number;
   description: string;
   options: string[];
+  /** How to offer each option (kind, choices, default, help) for the loaded scenario's layer count. */
+  choices: OptionDescription[];
   imaginaryAxisBound?: number;
 }
 

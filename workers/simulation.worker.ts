@@ -9,6 +9,7 @@ import { createRun, type Run } from "../solver/driver/run.js";
 import { parseScenarioText, type StepperSpec } from "../solver/scenario/schema.js";
 import { BUILTIN_SCENARIOS } from "../solver/scenario/builtins.js";
 import { listMethods } from "../solver/time/registry.js";
+import { optionChoices } from "../solver/time/optionChoices.js";
 import type { ChunkReport, InitResult, MapView, MethodSummary, Snapshot, StepperInfo, WorkerFailure } from "./protocol.js";
 
 let run: Run | undefined;
@@ -65,10 +66,11 @@ function stepperInfo(r: Run): StepperInfo {
   return { spec: { ...r.spec }, label: r.stepper.label, note: r.stepper.note };
 }
 
-function methods(): MethodSummary[] {
+/** The registered methods, with option pickers for a scenario of `nLayers` layers (default: the loaded one's). */
+function methods(nLayers = run?.model.params.nLayers ?? 1): MethodSummary[] {
   return listMethods().map((m) => ({
     name: m.name, family: m.family, order: m.order, description: m.description, options: [...m.options],
-    imaginaryAxisBound: m.imaginaryAxisBound,
+    choices: optionChoices(m.name, nLayers), imaginaryAxisBound: m.imaginaryAxisBound,
   }));
 }
 
@@ -79,7 +81,7 @@ function start(raw: unknown, stepper: StepperSpec | undefined, view: MapView): I
   const outlines = cellOutlines(next.mesh);
   const result: InitResult = {
     description: next.describe(), scenario: next.built.scenario, stepper: stepperInfo(next),
-    methods: methods(), fields: [...FIELDS], outlines, report: report(next, view, 0, 0),
+    methods: methods(next.model.params.nLayers), fields: [...FIELDS], outlines, report: report(next, view, 0, 0),
   };
   return transfer(result, [
     outlines.offset.buffer, outlines.vertexXY.buffer, outlines.cellX.buffer, outlines.cellY.buffer, outlines.coast.buffer,
@@ -117,7 +119,7 @@ const api = {
     r.reset();
     return moved(report(r, view, 0, 0));
   }),
-  methods: guarded(methods),
+  methods: guarded((nLayers?: number) => methods(nLayers)),
   /** The built-in scenarios as plain scenario-file objects. */
   builtins: guarded((): { name: string; description: string; scenario: unknown }[] =>
     BUILTIN_SCENARIOS.map((b) => ({ name: b.name, description: b.description, scenario: structuredClone(b) as unknown }))),

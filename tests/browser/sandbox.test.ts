@@ -163,6 +163,77 @@ describe("browser sandbox", () => {
     }
   });
 
+  it("option pickers follow the method family; etdrk4 with modes:1 and chebyshev runs; bad values and combinations are refused inline", async () => {
+    await loadLink(link(smallScenario(60)));
+    await page.click(byId("tab-stepper"));
+    const optionValues = (id: string) => page.locator(`${byId(id)} option`).evaluateAll((os) => os.map((o) => (o as HTMLOptionElement).value));
+    const defaultOf = (id: string) => page.locator(`${byId(id)} option[data-default="yes"]`).getAttribute("value");
+    await page.selectOption(byId("method-select"), "etdrk4");
+    // two layers: rest, modes:1, modes:2, jacobian; defaults rest and krylov
+    expect(await optionValues("option-linear")).toEqual(["rest", "modes:1", "modes:2", "jacobian"]);
+    expect(await defaultOf("option-linear")).toBe("rest");
+    expect(await defaultOf("option-backend")).toBe("krylov");
+    expect(await optionValues("option-backend")).toEqual(expect.arrayContaining(["krylov", "taylor", "chebyshev", "rational"]));
+    expect(await optionValues("option-filter")).toEqual(["off", "8", "16"]);
+    expect(await page.locator(byId("option-tolerance")).getAttribute("placeholder")).toContain("1e-8");
+    await page.selectOption(byId("option-linear"), "modes:1");
+    await page.selectOption(byId("option-backend"), "chebyshev");
+    expect(await text(page, "choice-help-backend")).toContain("Chebyshev");
+    await page.click(byId("apply-stepper"));
+    await expect.poll(() => text(page, "stepper-label")).toContain("etdrk4 (linear=modes:1, backend=chebyshev");
+    expect(await page.locator(byId("stepper-error")).count()).toBe(0);
+    const s0 = await stepCount(page);
+    await runFor(page, 1200);
+    expect(await stepCount(page)).toBeGreaterThan(s0);
+    await expect.poll(async () => Number(await text(page, "matvecs-per-step"))).toBeGreaterThan(0);
+    await page.click(byId("run-button")); // a second stretch: the run goes on from there
+    const s1 = await stepCount(page);
+    await expect.poll(() => stepCount(page), { timeout: 20_000 }).toBeGreaterThan(s1);
+    await page.click(byId("run-button"));
+    await expect.poll(() => text(page, "run-button")).toBe("Run");
+    await settled(page);
+    // jacobian marks chebyshev as unavailable; applying it anyway shows the solver's reason under the backend
+    await page.selectOption(byId("option-linear"), "jacobian");
+    expect(await page.locator(`${byId("option-backend")} option[value="chebyshev"]`).getAttribute("data-conflict")).toBe("yes");
+    expect(await text(page, "option-conflict-backend")).toContain("jacobian");
+    await page.click(byId("apply-stepper"));
+    await expect.poll(() => text(page, "option-error-backend")).toContain("stepper.backend");
+    expect(await text(page, "stepper-label")).toContain("backend=chebyshev"); // the running stepper stays
+    // an out-of-range tolerance and a fractional sub-step count are refused by field
+    await page.selectOption(byId("option-backend"), "krylov");
+    await page.fill(byId("option-tolerance"), "2");
+    await page.click(byId("apply-stepper"));
+    await expect.poll(() => text(page, "option-error-tolerance")).toContain("stepper.tolerance");
+    await page.fill(byId("option-tolerance"), "1e-6");
+    await page.fill(byId("option-substeps"), "2.5");
+    await page.click(byId("apply-stepper"));
+    await expect.poll(() => text(page, "option-error-substeps")).toContain("stepper.substeps");
+    await page.fill(byId("option-substeps"), "0"); // 0 = automatic
+    await page.click(byId("apply-stepper"));
+    await expect.poll(() => text(page, "stepper-label")).toContain("linear=jacobian, backend=krylov, tol=0.000001");
+    expect(await page.locator(byId("stepper-error")).count()).toBe(0);
+    // split-explicit has its own filter and passes
+    await page.selectOption(byId("method-select"), "split-explicit");
+    expect(await optionValues("option-filter")).toEqual(["boxcar", "hann"]);
+    expect(await optionValues("option-passes")).toEqual(["1", "2", "3", "4"]);
+    expect(await defaultOf("option-passes")).toBe("2");
+    expect(await page.locator(byId("option-linear")).count()).toBe(0);
+    // a Rosenbrock method with a fixed linear part says that its order drops
+    await page.selectOption(byId("method-select"), "exprb2");
+    expect(await defaultOf("option-linear")).toBe("jacobian");
+    expect(await page.locator(byId("option-linear")).inputValue()).toBe("jacobian");
+    await page.selectOption(byId("option-linear"), "rest");
+    await page.click(byId("apply-stepper"));
+    await expect.poll(() => text(page, "stepper-label")).toContain("exprb2 (linear=rest");
+    await expect.poll(() => text(page, "stepper-note")).toMatch(/exprb2 .*order drops/);
+    const s2 = await settled(page);
+    await page.click(byId("step-button"));
+    await expect.poll(() => stepCount(page), { timeout: 20_000 }).toBe(s2 + 1);
+    await page.locator(byId("stepper-note")).scrollIntoViewIfNeeded();
+    await page.screenshot({ path: shot("05c-stepper-pickers") });
+    expect(errors).toEqual([]);
+  });
+
   it("an unstable Δt stops the run with step, time, reason and Courant numbers, and marks the cell", async () => {
     // RK4 is stable for |ωΔt| ≤ 2√2 on the imaginary axis; 3× the limit grows the fastest mode every step
     await loadLink(link(smallScenario(350)));
