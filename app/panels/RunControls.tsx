@@ -27,7 +27,7 @@ export function RunControls(p: RunControlsProps) {
         <div><dt>steps</dt><dd data-testid="step-count">{p.steps}</dd></div>
         <div><dt>tendency calls / step</dt><dd data-testid="rhs-per-step">{Number.isFinite(p.rates.rhsPerStep) ? fmt(p.rates.rhsPerStep) : "—"}</dd></div>
         <div><dt>matvecs / step</dt><dd data-testid="matvecs-per-step">{Number.isFinite(p.rates.matvecsPerStep) ? fmt(p.rates.matvecsPerStep) : "—"}</dd></div>
-        <div><dt>stepper</dt><dd data-testid="stepper-label">{p.label}</dd></div>
+        <div className="stepper-stat"><dt>stepper</dt><dd data-testid="stepper-label" title={p.label}>{p.label}</dd></div>
       </dl>
     </section>
   );

@@ -271,7 +271,7 @@ export function createExponentialStepper(
   const order = fixedRosenbrock ? table.orderWithFixedLinear ?? 1 : table.order;
   const note = fixedRosenbrock
     ? `${method} is an exponential Rosenbrock method built for linear: jacobian; with the fixed linear part ${part.name} its order ` +
-      `drops to about ${order} (the reference sheet measured 1, 1 and 2 for exprb2, exprb32 and exprb43 with a fixed operator)`
+      `drops to about ${order} (measured with a fixed operator: about 1, 1 and 2 for exprb2, exprb32 and exprb43)`
     : undefined;
   const opts = [`linear=${part.name}`, `backend=${backend}`, `tol=${tolerance}`];
   if (substeps) opts.push(`substeps=${substeps}`);
