@@ -190,22 +190,45 @@ export function modalRestriction(model: ShallowWaterModel, nModes: number, rest:
       }
       return;
     }
+    // m×m blocks (modes couple over topography); arrays aliased to locals for the loops
+    const cb = corBlk, gb = gradBlk, to = tOff, ti = tIdx, edges = ec, open = edgeOpen;
+    if (m === 2) {
+      // two modes written out: the general a/b loops cost several times more in V8
+      const u0 = mOffset, u1 = mOffset + ne;
+      for (let e = 0; e < ne; e++) {
+        if (open[e] === 0) { out[u0 + e] = 0; out[u1 + e] = 0; continue; }
+        let acc0 = 0, acc1 = 0;
+        const end = to[e + 1];
+        for (let q = to[e]; q < end; q++) {
+          const e2 = ti[q], blk = 4 * q;
+          const y0 = y[u0 + e2], y1 = y[u1 + e2];
+          acc0 += cb[blk] * y0 + cb[blk + 1] * y1;
+          acc1 += cb[blk + 2] * y0 + cb[blk + 3] * y1;
+        }
+        const c1 = edges[2 * e], c2 = edges[2 * e + 1], g1 = 8 * e, g2 = 8 * e + 4;
+        const h10 = y[c1], h11 = y[nc + c1], h20 = y[c2], h21 = y[nc + c2];
+        out[u0 + e] = acc0 + gb[g1] * h10 + gb[g1 + 1] * h11 + gb[g2] * h20 + gb[g2 + 1] * h21;
+        out[u1 + e] = acc1 + gb[g1 + 2] * h10 + gb[g1 + 3] * h11 + gb[g2 + 2] * h20 + gb[g2 + 3] * h21;
+      }
+      return;
+    }
     for (let e = 0; e < ne; e++) {
       for (let a = 0; a < m; a++) out[mOffset + a * ne + e] = 0;
-      if (!edgeOpen[e]) continue;
-      for (let q = tOff[e]; q < tOff[e + 1]; q++) {
-        const e2 = tIdx[q], blk = q * mm;
+      if (open[e] === 0) continue;
+      const end = to[e + 1];
+      for (let q = to[e]; q < end; q++) {
+        const e2 = ti[q], blk = q * mm;
         for (let a = 0; a < m; a++) {
           let acc = 0;
-          for (let b = 0; b < m; b++) acc += corBlk[blk + a * m + b] * y[mOffset + b * ne + e2];
+          for (let b = 0; b < m; b++) acc += cb[blk + a * m + b] * y[mOffset + b * ne + e2];
           out[mOffset + a * ne + e] += acc;
         }
       }
       for (let side = 0; side < 2; side++) {
-        const c = ec[2 * e + side], blk = (e * 2 + side) * mm;
+        const c = edges[2 * e + side], blk = (e * 2 + side) * mm;
         for (let a = 0; a < m; a++) {
           let acc = 0;
-          for (let b = 0; b < m; b++) acc += gradBlk[blk + a * m + b] * y[b * nc + c];
+          for (let b = 0; b < m; b++) acc += gb[blk + a * m + b] * y[b * nc + c];
           out[mOffset + a * ne + e] += acc;
         }
       }
@@ -226,13 +249,31 @@ export function modalRestriction(model: ShallowWaterModel, nModes: number, rest:
       }
       return;
     }
+    const db = divBlk, co = cOff, ci = cIdx;
+    if (m === 2) {
+      const u0 = mOffset, u1 = mOffset + ne;
+      for (let i = 0; i < nc; i++) {
+        let acc0 = 0, acc1 = 0;
+        const end = co[i + 1];
+        for (let q = co[i]; q < end; q++) {
+          const e = ci[q], blk = 4 * q;
+          const y0 = y[u0 + e], y1 = y[u1 + e];
+          acc0 += db[blk] * y0 + db[blk + 1] * y1;
+          acc1 += db[blk + 2] * y0 + db[blk + 3] * y1;
+        }
+        out[i] = acc0;
+        out[nc + i] = acc1;
+      }
+      return;
+    }
     for (let i = 0; i < nc; i++) {
       for (let a = 0; a < m; a++) out[a * nc + i] = 0;
-      for (let q = cOff[i]; q < cOff[i + 1]; q++) {
-        const e = cIdx[q], blk = q * mm;
+      const end = co[i + 1];
+      for (let q = co[i]; q < end; q++) {
+        const e = ci[q], blk = q * mm;
         for (let a = 0; a < m; a++) {
           let acc = 0;
-          for (let b = 0; b < m; b++) acc += divBlk[blk + a * m + b] * y[mOffset + b * ne + e];
+          for (let b = 0; b < m; b++) acc += db[blk + a * m + b] * y[mOffset + b * ne + e];
           out[a * nc + i] += acc;
         }
       }
