@@ -86,16 +86,18 @@ const physics = z.object({
 
 const interfaceIndex = z.number().int({ error: "must be a whole number" }).min(0, { error: "must be ≥ 0 (0 = free surface)" });
 
+/** A Gaussian displacement amplitude·exp(−r²/radius²) of interface k (0 = free surface), centred unless x, y are given. */
+const gaussianFields = {
+  amplitude: finite("amplitude [m]"),
+  radius: positive("radius [m]"),
+  interface: interfaceIndex.default(0),
+  x: finite("x [m]").optional(),
+  y: finite("y [m]").optional(),
+};
+
 const initial = z.discriminatedUnion("type", [
   z.object({ type: z.literal("rest") }).strict(),
-  z.object({
-    type: z.literal("bump"),
-    amplitude: finite("amplitude [m]"),
-    radius: positive("radius [m]"),
-    interface: interfaceIndex.default(0),
-    x: finite("x [m]").optional(),
-    y: finite("y [m]").optional(),
-  }).strict(),
+  z.object({ type: z.literal("bump"), ...gaussianFields }).strict(),
   z.object({
     type: z.literal("step"),
     /** Displacement of the interface on the raised side [m]. */
@@ -107,15 +109,8 @@ const initial = z.discriminatedUnion("type", [
     width: positive("width [m]").optional(),
     axis: z.enum(["x", "y"]).optional(),
   }).strict(),
-  z.object({
-    type: z.literal("balanced"),
-    /** Peak displacement of the interface in balance with the flow [m]. */
-    amplitude: finite("amplitude [m]"),
-    radius: positive("radius [m]"),
-    interface: interfaceIndex.default(0),
-    x: finite("x [m]").optional(),
-    y: finite("y [m]").optional(),
-  }).strict(),
+  /** A Gaussian interface displacement with the flow in discrete balance with it. */
+  z.object({ type: z.literal("balanced"), ...gaussianFields }).strict(),
 ]);
 
 export const stepperSchema = z.object({
