@@ -28,6 +28,7 @@ export interface MethodSummary {
   /** How to offer each option (kind, choices, default, help) for the loaded scenario's layer count. */
   choices: OptionDescription[];
   imaginaryAxisBound?: number;
+  baroclinicAxisBound?: number;
 }
 
 /** Which field the map shows. */

@@ -70,7 +70,7 @@ function stepperInfo(r: Run): StepperInfo {
 function methods(nLayers = run?.model.params.nLayers ?? 1): MethodSummary[] {
   return listMethods().map((m) => ({
     name: m.name, family: m.family, order: m.order, description: m.description, options: [...m.options],
-    choices: optionChoices(m.name, nLayers), imaginaryAxisBound: m.imaginaryAxisBound,
+    choices: optionChoices(m.name, nLayers), imaginaryAxisBound: m.imaginaryAxisBound, baroclinicAxisBound: m.baroclinicAxisBound,
   }));
 }
 

@@ -30,12 +30,17 @@ export const ModesTable = memo(function ModesTable({ description, methods, dt }:
           ))}
         </tbody>
       </table>
-      <h3>Δt limit estimates (fastest gravity wave, {description.nCells} cells, d = {fmt(description.spacing / 1000)} km)</h3>
+      <h3>Δt limit estimates ({description.nCells} cells, d = {fmt(description.spacing / 1000)} km)</h3>
+      <p className="hint">Explicit methods: the fastest gravity wave. Split-explicit: the first baroclinic wave (the barotropic
+        mode is sub-cycled). Exponential methods have no linear gravity-wave limit; measure theirs with a stability study.</p>
       <table className="grid-table" data-testid="limits-table">
         <thead><tr><th>method</th><th>Δt limit [s]</th><th>current Δt / limit</th></tr></thead>
         <tbody>
           {methods.map((m) => {
-            const limit = m.imaginaryAxisBound !== undefined ? (description.rk4DtLimit * m.imaginaryAxisBound) / RK4_BOUND : NaN;
+            // fastest wave for fully explicit methods; first baroclinic wave (ω1 = √6 c1/d) for split methods
+            const c1 = description.modes[1]?.speed;
+            const limit = m.imaginaryAxisBound !== undefined ? (description.rk4DtLimit * m.imaginaryAxisBound) / RK4_BOUND
+              : m.baroclinicAxisBound !== undefined && c1 ? (m.baroclinicAxisBound * description.spacing) / (Math.sqrt(6) * c1) : NaN;
             return (
               <tr key={m.name} data-method={m.name}>
                 <td>{m.name}</td>

@@ -26,6 +26,11 @@ export interface MethodEntry {
   readonly options: readonly string[];
   /** Linear stability bound on the imaginary axis, |ω Δt| ≤ bound, if the method has one. */
   readonly imaginaryAxisBound?: number;
+  /**
+   * For methods that treat the barotropic mode separately: the bound |ω1 Δt| ≤ bound on the first baroclinic
+   * gravity wave (ω1 = √6 c1/d on the hexagonal mesh) that then limits the long step.
+   */
+  readonly baroclinicAxisBound?: number;
   create(ctx: MethodContext): Stepper;
 }
 
