@@ -3,6 +3,7 @@ import { basinHexMesh, periodicHexMesh } from "../mesh/hexLattice.js";
 import { displacement, skewGradient, vertexToCell } from "../mesh/operators.js";
 import type { Mesh } from "../mesh/types.js";
 import { layerCoupling } from "../diagnostics/modes.js";
+import { luSolve } from "../linalg/dense.js";
 import { ShallowWaterModel, type ModelParams } from "../model/shallowWater.js";
 import type { InitialSpec, MeshSpec, Scenario } from "./schema.js";
 
@@ -137,36 +138,15 @@ function balancedState(x: Float64Array, model: ShallowWaterModel, spec: Extract<
     vertexToCell(mCell, m, psi);
     for (let i = 0; i < nc; i++) mAll[k * nc + i] = p.f0 * mCell[i];
   }
-  // h' = 𝒢⁻¹ M' cell by cell (small dense solve by Gaussian elimination)
+  // h' = 𝒢⁻¹ M' cell by cell (small dense LU solve)
   const A = new Float64Array(L * L);
   const rhs = new Float64Array(L);
+  const piv = new Int32Array(L);
   for (let i = 0; i < nc; i++) {
     A.set(G);
     for (let k = 0; k < L; k++) rhs[k] = mAll[k * nc + i];
-    solveSmall(A, rhs, L);
+    luSolve(A, rhs, L, 1, piv);
     for (let k = 0; k < L; k++) x[k * nc + i] += rhs[k];
-  }
-}
-
-/** In-place Gaussian elimination with partial pivoting; the solution overwrites b. */
-export function solveSmall(A: Float64Array, b: Float64Array, n: number): void {
-  for (let c = 0; c < n; c++) {
-    let piv = c;
-    for (let r = c + 1; r < n; r++) if (Math.abs(A[r * n + c]) > Math.abs(A[piv * n + c])) piv = r;
-    if (piv !== c) {
-      for (let k = 0; k < n; k++) { const t = A[c * n + k]; A[c * n + k] = A[piv * n + k]; A[piv * n + k] = t; }
-      const t = b[c]; b[c] = b[piv]; b[piv] = t;
-    }
-    for (let r = c + 1; r < n; r++) {
-      const f = A[r * n + c] / A[c * n + c];
-      for (let k = c; k < n; k++) A[r * n + k] -= f * A[c * n + k];
-      b[r] -= f * b[c];
-    }
-  }
-  for (let r = n - 1; r >= 0; r--) {
-    let s = b[r];
-    for (let k = r + 1; k < n; k++) s -= A[r * n + k] * b[k];
-    b[r] = s / A[r * n + r];
   }
 }
 
