@@ -1,5 +1,6 @@
 import type { ShallowWaterModel } from "../model/shallowWater.js";
 import { relativeVorticity } from "../model/terms.js";
+import { cellToVertex, tangential } from "../mesh/operators.js";
 
 /** Integral diagnostics of one state (numerics reference §1.4, §3.7). Units in the field names' comments. */
 export interface Budget {
@@ -22,6 +23,8 @@ export interface BudgetWork {
   /** Interface heights of the rest state, layer-major [m]. */
   etaRest: Float64Array;
   vort: Float64Array;
+  /** Vertex thickness h_v (kite average) [m]. */
+  hVertex: Float64Array;
   tan: Float64Array;
 }
 
@@ -37,6 +40,7 @@ export function budgetWork(model: ShallowWaterModel): BudgetWork {
     eta: new Float64Array(nc),
     etaRest,
     vort: new Float64Array(model.mesh.nVertices),
+    hVertex: new Float64Array(model.mesh.nVertices),
     tan: new Float64Array(model.mesh.nEdges),
   };
 }
@@ -99,18 +103,16 @@ export function computeBudget(model: ShallowWaterModel, x: Float64Array, w: Budg
   for (let k = 0; k < L; k++) {
     const uOff = uOffset + k * ne;
     // tangential component from the TRiSK reconstruction
+    tangential(w.tan, m, x, 0, uOff);
     for (let e = 0; e < ne; e++) {
-      let acc = 0;
-      for (let q = m.tangentOffset[e]; q < m.tangentOffset[e + 1]; q++) acc += m.tangentCoef[q] * x[uOff + m.tangentIndex[q]];
       const un = x[uOff + e];
-      const s = Math.sqrt(un * un + acc * acc);
+      const s = Math.sqrt(un * un + w.tan[e] * w.tan[e]);
       if (s > maxSpeed) maxSpeed = s;
     }
     relativeVorticity(w.vort, m, x, uOff);
+    cellToVertex(w.hVertex, m, x, 0, k * nc);
     for (let v = 0; v < m.nVertices; v++) {
-      let hv = 0;
-      for (let j = 3 * v; j < 3 * v + 3; j++) if (m.vertexCells[j] >= 0) hv += m.vertexKiteArea[j] * x[k * nc + m.vertexCells[j]];
-      hv /= m.vertexArea[v];
+      const hv = w.hVertex[v];
       const q = (w.vort[v] + f[v]) / hv;
       enstrophy += 0.5 * m.vertexArea[v] * hv * q * q;
     }
