@@ -47,6 +47,9 @@ export const ETD2RK: ExpRkTable = {
   c: [0, 1], a: [[], [[phi(1)]]], b: [[phi(1), phi(2, -1)], [phi(2)]],
 };
 
+/** Final stage shared by both fourth-order ETD methods (Cox & Matthews 2002; Krogstad 2005 keeps it). */
+const ETDRK4_WEIGHTS: PhiRow = [[phi(1), phi(2, -3), phi(3, 4)], [phi(2, 2), phi(3, -4)], [phi(2, 2), phi(3, -4)], [phi(2, -1), phi(3, 4)]];
+
 /** Cox–Matthews ETDRK4. a_41 = ½φ1(z/2)(e^{z/2} − 1) = φ1(z) − φ1(z/2), so row 4 mixes the nodes 1 and ½. */
 export const ETDRK4: ExpRkTable = {
   name: "etdrk4", order: 4, linearPart: "fixed",
@@ -58,7 +61,7 @@ export const ETDRK4: ExpRkTable = {
     [[], [phi(1, 1 / 2, 1 / 2)]],
     [[phi(1), phi(1, -1, 1 / 2)], [], [phi(1, 1, 1 / 2)]],
   ],
-  b: [[phi(1), phi(2, -3), phi(3, 4)], [phi(2, 2), phi(3, -4)], [phi(2, 2), phi(3, -4)], [phi(2, -1), phi(3, 4)]],
+  b: ETDRK4_WEIGHTS,
 };
 
 export const ETDRK4_KROGSTAD: ExpRkTable = {
@@ -71,7 +74,7 @@ export const ETDRK4_KROGSTAD: ExpRkTable = {
     [[phi(1, 1 / 2, 1 / 2), phi(2, -1, 1 / 2)], [phi(2, 1, 1 / 2)]],
     [[phi(1), phi(2, -2)], [], [phi(2, 2)]],
   ],
-  b: [[phi(1), phi(2, -3), phi(3, 4)], [phi(2, 2), phi(3, -4)], [phi(2, 2), phi(3, -4)], [phi(2, -1), phi(3, 4)]],
+  b: ETDRK4_WEIGHTS,
 };
 
 export const EXPRB2: ExpRkTable = {
