@@ -1,6 +1,7 @@
 import { SolverError } from "../errors.js";
 import { parseArgs } from "./args.js";
 import { COMMANDS } from "./commands.js";
+import { preloadModules } from "./modules.js";
 
 function help(): string {
   const lines = ["Stepwell — usage: npm run --silent stepwell -- <command> [options]", ""];
@@ -27,7 +28,9 @@ export async function main(
   }
   try {
     if (rest.includes("--help")) { out(`usage: ${cmd.usage}\n  ${cmd.summary}`); return 0; }
-    return await cmd.run(parseArgs(rest, cmd.flags ?? []), out, err);
+    const parsed = parseArgs(rest, cmd.flags ?? []);
+    await preloadModules(parsed);
+    return await cmd.run(parsed, out, err);
   } catch (e) {
     if (e instanceof SolverError) {
       err(`stepwell ${name}: ${e.message}`);

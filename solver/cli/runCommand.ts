@@ -6,8 +6,30 @@ import { numberOption, rejectUnknown, stringOption, type ParsedArgs } from "./ar
 import { fmt, loadScenarioArg, table, writeJson } from "./io.js";
 import { STEPPER_CLI_OPTIONS, stepperFromArgs } from "./stepperArgs.js";
 import { SolverError } from "../errors.js";
+import { builtinScenario } from "../scenario/builtins.js";
+import { dirname } from "node:path";
+import { loadedModule, userDirectory, userPath } from "./modules.js";
+import type { StepperDefinition } from "../time/interface.js";
 
-export const RUN_USAGE = "run SCENARIO [--method M] [--dt S] [--steps N | --duration S] [--linear L] [--backend B] [--tolerance T] [--substeps N] [--filter F] [--passes N] [--json FILE]";
+export const RUN_USAGE = "run SCENARIO [--method M | --stepper-module FILE] [--dt S] [--steps N | --duration S] [--linear L] [--backend B] [--tolerance T] [--substeps N] [--filter F] [--passes N] [--option key=value …] [--json FILE]";
+
+/**
+ * The stepper of a run: `--stepper-module FILE`, or a `"module"` in the scenario's stepper (relative to the
+ * scenario file), loaded and registered; otherwise the scenario's or `--method`'s built-in.
+ */
+export function stepperForCommand(scenario: ReturnType<typeof parseScenario>, scenarioArg: string | undefined, args: ParsedArgs) {
+  const moduleArg = stringOption(args, "stepper-module");
+  let definition: StepperDefinition | undefined;
+  let key: string | undefined;
+  if (moduleArg) {
+    ({ key, definition } = loadedModule(moduleArg, "--stepper-module"));
+  } else if (scenario.stepper.module && !stringOption(args, "method")) {
+    const base = scenarioArg && !builtinScenario(scenarioArg) ? dirname(userPath(scenarioArg)) : userDirectory();
+    ({ key, definition } = loadedModule(scenario.stepper.module, "stepper.module", base));
+    scenario.stepper = { ...scenario.stepper, module: key, method: definition.name };
+  }
+  return stepperFromArgs(scenario, args, definition, key);
+}
 
 export function runCommand(args: ParsedArgs, out: (s: string) => void): number {
   rejectUnknown(args, [...STEPPER_CLI_OPTIONS, "steps", "duration", "json", "quiet"], "run");
@@ -15,7 +37,7 @@ export function runCommand(args: ParsedArgs, out: (s: string) => void): number {
   const steps = numberOption(args, "steps", { positive: true, integer: true });
   const duration = numberOption(args, "duration", { positive: true });
   if (steps !== undefined && duration !== undefined) throw new SolverError("bad-input", "--steps: give either --steps or --duration, not both", "--steps");
-  const spec = stepperFromArgs(scenario, args);
+  const spec = stepperForCommand(scenario, args.positional[0], args);
   const run = new Run(buildScenario(scenario), spec);
   const quiet = args.options.has("quiet");
   const total = steps ?? Math.round((duration ?? scenario.duration) / run.dt);

@@ -1,5 +1,6 @@
 import { mkdirSync, readFileSync, renameSync, writeFileSync } from "node:fs";
-import { join } from "node:path";
+import { dirname, join } from "node:path";
+import { loadedModule, userPath } from "./modules.js";
 import { SolverError } from "../errors.js";
 import type { Scenario } from "../scenario/schema.js";
 import { referenceCache, type ReferenceCache, type ReferenceRecord } from "../studies/reference.js";
@@ -53,9 +54,13 @@ export function parseMethodList(text: string, field: string): StepperConfig[] {
   });
 }
 
-/** `--steppers FILE`: a JSON array of stepper objects as in a scenario file (a `dt` there is ignored). */
-export function readSteppersFile(path: string): StepperConfig[] {
+/**
+ * `--steppers FILE`: a JSON array of stepper objects as in a scenario file (a `dt` there is ignored); a
+ * `"module"` entry is a user stepper module, relative to the file.
+ */
+export function readSteppersFile(arg: string): StepperConfig[] {
   let raw: unknown;
+  const path = userPath(arg);
   try {
     raw = JSON.parse(readFileSync(path, "utf8"));
   } catch (e) {
@@ -65,7 +70,12 @@ export function readSteppersFile(path: string): StepperConfig[] {
   return raw.map((s, i) => {
     if (!s || typeof s !== "object" || Array.isArray(s)) throw new SolverError("bad-input", `--steppers[${i}]: must be an object like { "method": "rk4" }`, `--steppers[${i}]`);
     const o = { ...(s as Record<string, unknown>) };
-    if (typeof o.method !== "string" || !o.method) throw new SolverError("bad-input", `--steppers[${i}].method: is required (a method name)`, `--steppers[${i}].method`);
+    if (typeof o.module === "string") {
+      const { key, definition } = loadedModule(o.module, `--steppers[${i}].module`, dirname(path));
+      o.module = key;
+      o.method = definition.name;
+    }
+    if (typeof o.method !== "string" || !o.method) throw new SolverError("bad-input", `--steppers[${i}].method: is required (a method name, or "module": a stepper module file)`, `--steppers[${i}].method`);
     if (o.label !== undefined && typeof o.label !== "string") throw new SolverError("bad-input", `--steppers[${i}].label: must be a string`, `--steppers[${i}].label`);
     delete o.dt;
     return o as StepperConfig;

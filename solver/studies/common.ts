@@ -40,7 +40,7 @@ export class StudyTracker {
 
 /** A stepper's default label: the method and its options in the `--methods` syntax, e.g. `exprb32(backend=krylov;linear=modes:1)`. */
 export function defaultLabel(spec: Record<string, unknown>): string {
-  const opts = Object.keys(spec).filter((k) => k !== "method" && k !== "dt" && k !== "label").sort();
+  const opts = Object.keys(spec).filter((k) => k !== "method" && k !== "dt" && k !== "label" && k !== "module").sort();
   if (!opts.length) return String(spec.method);
   const val = (v: unknown) => (typeof v === "object" && v !== null ? JSON.stringify(v) : String(v));
   return `${String(spec.method)}(${opts.map((k) => `${k}=${val(spec[k])}`).join(";")})`;

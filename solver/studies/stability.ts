@@ -2,7 +2,7 @@ import { SolverError } from "../errors.js";
 import { Run } from "../driver/run.js";
 import type { BuiltScenario } from "../scenario/build.js";
 import type { StepperSpec } from "../scenario/schema.js";
-import { getMethod } from "../time/registry.js";
+import { definitionOf } from "../time/registry.js";
 import { seededRandom } from "../mesh/hexLattice.js";
 import { defaultLabel, StudyTracker, type StudyHooks } from "./common.js";
 import { contentHash } from "./hash.js";
@@ -181,7 +181,7 @@ export function expectedTrials(o: ResolvedStabilityOptions): number {
  */
 export function stabilitySearch(run: Run, scale: EnergyScale, config: StepperConfig, o: ResolvedStabilityOptions,
   tracker?: StudyTracker): StabilityResult {
-  const entry = getMethod(config.method, "--method");
+  const entry = definitionOf(config, "--method");
   const limit = run.rk4DtLimit();
   const label = config.label ?? defaultLabel(config);
   const trials: StabilityTrial[] = [];

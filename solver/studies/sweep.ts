@@ -3,7 +3,7 @@ import { execute } from "../driver/execute.js";
 import { Run } from "../driver/run.js";
 import type { BuiltScenario } from "../scenario/build.js";
 import type { StepperSpec } from "../scenario/schema.js";
-import { getMethod } from "../time/registry.js";
+import { definitionOf } from "../time/registry.js";
 import { defaultLabel, StudyTracker, type StudyHooks } from "./common.js";
 import { canonicalJson, contentHash } from "./hash.js";
 import { ERROR_COMPONENTS, stateErrors, type ErrorComponent, type LayerErrors, type StateErrors } from "./metrics.js";
@@ -143,7 +143,7 @@ export function planSweep(built: BuiltScenario, def: SweepDefinition): SweepPlan
   const labels = new Set<string>();
   const steppers = def.steppers.map((s, i) => {
     const f = def.steppers.length > 1 || sf === "--steppers" ? `${sf}[${i}]` : sf;
-    getMethod(s.method, `${f}.method`);
+    definitionOf(s, f);
     probe.setStepper({ ...s, dt: 1 } as StepperSpec, f);
     const label = s.label ?? defaultLabel(s);
     if (labels.has(label)) throw new SolverError("bad-input", `${f}: the label "${label}" is used twice; give each stepper its own label`, f);
@@ -160,7 +160,7 @@ export function planSweep(built: BuiltScenario, def: SweepDefinition): SweepPlan
     return { requested: r, dt: duration / steps, steps };
   });
   const refSpec: StepperConfig = def.referenceSpec ?? { method: "rk4" };
-  getMethod(refSpec.method, "--reference-method");
+  definitionOf(refSpec, "--reference-method");
   probe.setStepper({ ...refSpec, dt: 1 } as StepperSpec, "--reference-method");
   const minDt = Math.min(...dts.map((d) => d.dt));
   const reference = planReference(refSpec, def.referenceDt ?? Math.min(minDt / 4, limit / 2), duration);
