@@ -121,7 +121,7 @@ export const stepperSchema = z.object({
   label: z.string().optional(),
 }).passthrough().superRefine((s, ctx) => {
   if (s.method === undefined && s.module === undefined) ctx.addIssue({ code: "custom", path: ["method"], message: "is required: a method name (or give \"module\": a stepper module file)" });
-}).transform((s) => ({ ...s, method: s.method ?? "" }));
+}).transform((s) => ({ ...s, method: s.method ?? "user-module" }));
 
 export const scenarioSchema = z.object({
   name: z.string({ error: "must be a string" }).min(1, { error: "must not be empty" }),
