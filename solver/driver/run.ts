@@ -1,6 +1,6 @@
 import { SolverError } from "../errors.js";
 import { budgetWork, computeBudget, courantNumbers, type Budget, type BudgetWork, type CourantNumbers } from "../diagnostics/budget.js";
-import { hexMaxFrequency, verticalModes, type VerticalModes } from "../model/modes.js";
+import { deepestColumnSpeed, hexMaxFrequency, verticalModes, type VerticalModes } from "../model/modes.js";
 import { problemFor, type ModelProblem } from "../model/problem.js";
 import { buildScenario, type BuiltScenario } from "../scenario/build.js";
 import { parseScenario, stepperSchema, type Scenario, type StepperSpec } from "../scenario/schema.js";
@@ -99,10 +99,7 @@ export class Run {
   /** Barotropic speed over the deepest water column (topography makes c0 vary) [m/s]. */
   fastestSpeed(): number {
     const p = this.model.params;
-    let deepest = 0;
-    for (let i = 0; i < p.bottom.length; i++) deepest = Math.max(deepest, -p.bottom[i]);
-    const nominal = p.nominalThickness.reduce((a, b) => a + b, 0);
-    return this.modes.speeds[0] * Math.sqrt(Math.max(deepest, nominal) / nominal);
+    return deepestColumnSpeed(p.reducedGravity, p.nominalThickness, p.bottom);
   }
 
   budget(x: Float64Array = this.state): Budget {
