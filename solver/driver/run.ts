@@ -1,4 +1,5 @@
 import { SolverError } from "../errors.js";
+import { EnergyBudgetTracker } from "../diagnostics/energyBudget.js";
 import { budgetWork, computeBudget, courantNumbers, type Budget, type BudgetWork, type CourantNumbers } from "../diagnostics/budget.js";
 import { hexMaxFrequency, RK4_IMAGINARY_BOUND, verticalModes, type VerticalModes } from "../diagnostics/modes.js";
 import { buildScenario, type BuiltScenario } from "../scenario/build.js";
@@ -50,6 +51,8 @@ export class Run {
   time = 0;
   steps = 0;
   unstable: UnstableReport | null = null;
+  /** The energy budget over the steps of `advance`, once switched on with `trackEnergyBudget` (null: off). */
+  energyBudget: EnergyBudgetTracker | null = null;
   private readonly work: BudgetWork;
 
   constructor(built: BuiltScenario, spec?: StepperSpec) {
@@ -100,6 +103,17 @@ export class Run {
     for (let i = 0; i < p.bottom.length; i++) deepest = Math.max(deepest, -p.bottom[i]);
     const nominal = p.nominalThickness.reduce((a, b) => a + b, 0);
     return this.modes.speeds[0] * Math.sqrt(Math.max(deepest, nominal) / nominal);
+  }
+
+  /**
+   * Switch the energy budget on (from the current state and time, costing one extra tendency evaluation per step,
+   * counted apart from the stepper's) or off.
+   */
+  trackEnergyBudget(on = true): EnergyBudgetTracker | null {
+    if (!on) { this.energyBudget = null; return null; }
+    this.energyBudget ??= new EnergyBudgetTracker(this.model);
+    this.energyBudget.start(this.state, this.time);
+    return this.energyBudget;
   }
 
   budget(x: Float64Array = this.state): Budget {
@@ -157,6 +171,7 @@ export class Run {
       }
       this.time += dt;
       this.steps++;
+      this.energyBudget?.afterStep(this.state, this.time);
     }
     return true;
   }
@@ -167,6 +182,7 @@ export class Run {
     this.time = 0;
     this.steps = 0;
     this.unstable = null;
+    this.energyBudget?.start(this.state, 0);
   }
 }
 
