@@ -96,7 +96,8 @@ export function driftUndefinedReason(model: ShallowWaterModel, initialEnergy: nu
   return null;
 }
 
-interface Powers { wind: number; drag: number; viscous: number; dWind: number; dDrag: number; dViscous: number }
+/** Wind power, drag and viscous loss rates [m⁵ s⁻³] and their time derivatives along the tendency [m⁵ s⁻⁴]. */
+export interface Powers { wind: number; drag: number; viscous: number; dWind: number; dDrag: number; dViscous: number }
 
 export class EnergyBudgetTracker {
   private readonly work: BudgetWork;
@@ -153,7 +154,7 @@ export class EnergyBudgetTracker {
   }
 
   /** The three powers and their time derivatives at state x with tendency f = F(x). */
-  private powers(x: Float64Array, f: Float64Array): Powers {
+  powers(x: Float64Array, f: Float64Array): Powers {
     const m = this.model.mesh;
     const p = this.model.params;
     const { nLayers: L, nCells: nc, nEdges: ne, uOffset } = this.model.layout;
