@@ -588,7 +588,7 @@ export function polygonProblem(v: readonly (readonly [number, number])[]): { ind
     if (j === undefined) seen.set(key, i);
     else if (!firstRepeat) firstRepeat = [j, i];
   }
-  if (seen.size < 3) return { index: null, message: `has only ${seen.size} distinct vertex${seen.size === 1 ? "" : "es"}; a polygon needs at least 3` };
+  if (seen.size < 3) return { index: null, message: `has only ${seen.size} distinct ${seen.size === 1 ? "vertex" : "vertices"}; a polygon needs at least 3` };
   if (firstRepeat) {
     const [j, i] = firstRepeat;
     const closing = j === 0 && i === n - 1 ? " (the outline closes by itself; leave the last vertex out)" : "";

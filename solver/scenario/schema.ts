@@ -172,10 +172,16 @@ export function meshSizeProblem(m: MeshSpecOf, nLayers: number, limits: Limits):
   } else {
     const shape = basinShapeOf(m);
     const lat = basinLattice(shape, m.spacing);
-    const sizePath = m.shape === "polygon" && m.width === undefined && m.height === undefined ? ["vertices"] : lat.across >= lat.along ? ["width"] : ["height"];
     const side = Math.max(lat.across, lat.along);
     if (!(side <= limits.cellsPerSide)) {
-      return { path: sizePath, message: `makes a basin of ${describeSize(shape)}, ${formatCount(Math.ceil(side))} cells across at mesh.spacing ${m.spacing} m, ` +
+      // blame the size when no ocean is that large (wider than the Earth's circumference, 40 075 km), else the spacing
+      const extent = Math.max(lat.across * m.spacing, lat.along * m.spacing * Math.sqrt(3) / 2);
+      if (extent > EARTH_CIRCUMFERENCE) {
+        const sizePath = m.shape === "polygon" && m.width === undefined && m.height === undefined ? ["vertices"] : lat.across >= lat.along ? ["width"] : ["height"];
+        return { path: sizePath, message: `makes a basin of ${describeSize(shape)}, wider than the Earth's circumference; it would be ${formatCount(Math.ceil(side))} cells ` +
+          `across at mesh.spacing ${m.spacing} m, more than the limit of ${limits.cellsPerSide} cells along a side` };
+      }
+      return { path: ["spacing"], message: `is ${m.spacing} m: a basin of ${describeSize(shape)} would be ${formatCount(Math.ceil(side))} cells across, ` +
         `more than the limit of ${limits.cellsPerSide} cells along a side` };
     }
     if (!(lat.nx * lat.ny <= limits.latticePoints)) {
@@ -201,6 +207,9 @@ export function meshSizeProblem(m: MeshSpecOf, nLayers: number, limits: Limits):
   }
   return null;
 }
+
+/** Equatorial circumference of the Earth [m] (WGS 84: 2π × 6 378 137 m). */
+const EARTH_CIRCUMFERENCE = 2 * Math.PI * 6378137;
 
 function scenarioSchemaWith(limits: Limits, runLength: boolean) {
   return z.object({
