@@ -8,6 +8,11 @@ import { parseScenario } from "../solver/scenario/schema";
 import { runSweep } from "../solver/studies/sweep";
 import { builtinScenario } from "../solver/scenario/builtins";
 import { seededRandom } from "../solver/mesh/hexLattice";
+import { main } from "../solver/cli/main";
+import { sweepCsv } from "../solver/cli/sweepCommand";
+import { mkdtempSync, readFileSync } from "node:fs";
+import { tmpdir } from "node:os";
+import { join } from "node:path";
 
 /** A small smooth basin run with every forcing and dissipation term of the model. */
 function forcedDamped(over: Record<string, unknown> = {}): Record<string, unknown> {
@@ -160,5 +165,36 @@ describe("no drift figure without a scale", () => {
     }
     // the residual of the finer run is smaller (fourth-order stepper and rule)
     expect(res.rows[1].energyResidual!).toBeLessThan(res.rows[0].energyResidual! / 8);
+  });
+});
+
+describe("the energy budget on the command line", () => {
+  it("run --json has energyBudget with the named fields, and the summary prints them with units", async () => {
+    const dir = mkdtempSync(join(tmpdir(), "stepwell-budget-"));
+    const file = join(dir, "demo.json");
+    let out = "";
+    let err = "";
+    const code = await main(["run", "shelf-gyre-basin", "--steps", "12", "--quiet", "--json", file], (t) => { out += t + "\n"; }, (t) => { err += t + "\n"; });
+    expect(err).toBe("");
+    expect(code).toBe(0);
+    const j = JSON.parse(readFileSync(file, "utf8"));
+    for (const k of ["change", "windWork", "dragLoss", "viscousLoss", "residual", "relativeResidual"]) expect(typeof j.energyBudget[k]).toBe("number");
+    expect(j.energyBudget.residual).toBeCloseTo(j.energyBudget.change - (j.energyBudget.windWork - j.energyBudget.dragLoss - j.energyBudget.viscousLoss), 3);
+    expect(j.energy.maxRelativeDrift).toBeNull();
+    expect(typeof j.energy.reason).toBe("string");
+    expect(j.budgetSeries.time.at(-1)).toBe(1200);
+    expect(out).toMatch(/m⁵ s⁻²\s+J/);
+    for (const label of ["change of total energy", "wind work", "bottom-drag loss", "viscous loss", "residual", "relative residual"]) expect(out).toContain(label);
+    expect(out).toMatch(/max relative energy drift\s+n\/a/);
+  });
+
+  it("the sweep CSV carries energyDrift (empty when null) and energyResidual", () => {
+    const built = buildScenario(parseScenario(forcedDamped({ duration: 1000 })));
+    const res = runSweep(built, { steppers: [{ method: "rk4" }], dts: [100] });
+    const [header, row] = sweepCsv(res.rows).trim().split("\n");
+    const cols = header.split(",");
+    const cells = row.split(",");
+    expect(cells[cols.indexOf("energyDrift")]).toBe("");
+    expect(Number(cells[cols.indexOf("energyResidual")])).toBe(res.rows[0].energyResidual);
   });
 });
