@@ -76,6 +76,8 @@ export interface ChunkReport {
   /** Steps done in this chunk and the worker's wall time for them [ms]. */
   chunkSteps: number;
   chunkMs: number;
+  /** Part of chunkMs spent on the energy budget (one extra tendency evaluation per step) [ms]. */
+  budgetMs: number;
   unstable: UnstableInfo | null;
   snapshot: Snapshot;
   /**

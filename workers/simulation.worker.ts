@@ -56,7 +56,7 @@ function report(r: Run, view: MapView, chunkSteps: number, chunkMs: number, recy
   return {
     step: r.steps, time: r.time, budget, courant: r.courant(budget),
     counters: { steps: st.steps, rhsEvaluations: st.rhsEvaluations, matvecs: st.matvecs, innerProducts: st.innerProducts },
-    chunkSteps, chunkMs,
+    chunkSteps, chunkMs, budgetMs: 0,
     unstable: u ? { ...u, cell: u.field === "thickness" ? u.index : r.mesh.edgeCells[2 * u.index] } : null,
     snapshot: snapshot(r, view, recycled),
     energyBudget: eb,
@@ -88,7 +88,8 @@ function methods(nLayers = run?.model.params.nLayers ?? 1): MethodSummary[] {
 function start(raw: unknown, stepper: StepperSpec | undefined, view: MapView): InitResult {
   const next = createRun(raw, stepper); // throws before the current run is touched
   run = next;
-  next.trackEnergyBudget();
+  const tracker = next.trackEnergyBudget();
+  if (tracker) tracker.clock = () => performance.now() / 1000;
   work = fieldWork(next.model);
   const outlines = cellOutlines(next.mesh);
   const result: InitResult = {
@@ -111,8 +112,11 @@ const api = {
     const r = current();
     const t0 = performance.now();
     const s0 = r.steps;
+    const b0 = r.energyBudget?.seconds ?? 0;
     r.advance(Math.max(0, Math.floor(n)));
-    return moved(report(r, view, r.steps - s0, performance.now() - t0, recycled));
+    const rep = report(r, view, r.steps - s0, performance.now() - t0, recycled);
+    rep.budgetMs = 1000 * ((r.energyBudget?.seconds ?? 0) - b0);
+    return moved(rep);
   }),
   /** The map field of the current state, e.g. after the user picks another field while paused. */
   snapshot: guarded((view: MapView, recycled?: Float32Array): Snapshot => {
