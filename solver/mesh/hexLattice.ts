@@ -579,6 +579,17 @@ function segmentsMeet(p1: readonly number[], p2: readonly number[], p3: readonly
  * `index` is the offending vertex (or the first vertex of the offending edge), null for the list as a whole.
  */
 export function polygonProblem(v: readonly (readonly [number, number])[]): { index: number | null; message: string } | null {
+  const known = polygonChecked.get(v);
+  if (known !== undefined) return known;
+  const r = findPolygonProblem(v);
+  polygonChecked.set(v, r);
+  return r;
+}
+
+/** Results of polygonProblem per vertex list (the schema asks twice about the same list). */
+const polygonChecked = new WeakMap<object, { index: number | null; message: string } | null>();
+
+function findPolygonProblem(v: readonly (readonly [number, number])[]): { index: number | null; message: string } | null {
   const n = v.length;
   const seen = new Map<string, number>();
   let firstRepeat: [number, number] | null = null;
@@ -599,8 +610,17 @@ export function polygonProblem(v: readonly (readonly [number, number])[]): { ind
   for (let i = 2; i < n && collinear; i++) if (orient(v[0][0], v[0][1], v[1][0], v[1][1], v[i][0], v[i][1]) !== 0) collinear = false;
   if (collinear) return { index: null, message: "has zero area: all its vertices lie on one line" };
   const next = (i: number) => (i + 1) % n;
+  // bounding box of each edge, to skip the orientation tests for pairs far apart
+  const box = new Float64Array(4 * n);
   for (let i = 0; i < n; i++) {
+    const a = v[i], b = v[next(i)];
+    box[4 * i] = Math.min(a[0], b[0]); box[4 * i + 1] = Math.max(a[0], b[0]);
+    box[4 * i + 2] = Math.min(a[1], b[1]); box[4 * i + 3] = Math.max(a[1], b[1]);
+  }
+  for (let i = 0; i < n; i++) {
+    const x0 = box[4 * i], x1 = box[4 * i + 1], y0 = box[4 * i + 2], y1 = box[4 * i + 3];
     for (let j = i + 1; j < n; j++) {
+      if (box[4 * j] > x1 || box[4 * j + 1] < x0 || box[4 * j + 2] > y1 || box[4 * j + 3] < y0) continue;
       const a = v[i], b = v[next(i)], c = v[j], d = v[next(j)];
       if (next(i) === j || next(j) === i) {
         // neighbouring edges share one vertex; they only fail by folding back along each other
