@@ -12,13 +12,13 @@ const positive = (what: string) => z.number({ error: `${what} must be a number` 
 const finite = (what: string) => z.number({ error: `${what} must be a number` }).finite();
 const nonNegative = (what: string) => finite(what).min(0, { error: `${what} must be ≥ 0` });
 
-const cellCount = (max: number) => z.number({ error: "must be a number" }).int({ error: "must be a whole number of cells" }).min(4, { error: "must be ≥ 4" })
-  .max(max, { error: (i) => `is ${i.input} cells along a side, more than the limit of ${max}` });
+/** Cells along one side of a periodic mesh; the upper bound is checked with the memory in `meshSizeProblem`. */
+const cellCount = () => z.number({ error: "must be a number" }).int({ error: "must be a whole number of cells" }).min(4, { error: "must be ≥ 4" });
 
-const periodicMeshFor = (limits: Limits) => z.object({
+const periodicMeshFor = () => z.object({
   type: z.literal("periodic-hex"),
-  cellsX: cellCount(limits.cellsPerSide),
-  cellsY: cellCount(limits.cellsPerSide)
+  cellsX: cellCount(),
+  cellsY: cellCount()
     .refine((n) => n % 2 === 0, { error: "must be even (rows of the hexagonal lattice pair up across the periodic boundary)" }),
   spacing: positive("spacing [m]"),
   jitter: z.number().min(0).max(0.1, { error: "must lie in [0, 0.1] (fraction of the spacing)" }).optional(),
@@ -160,7 +160,14 @@ export function meshSizeProblem(m: MeshSpecOf, nLayers: number, limits: Limits):
   // zod runs this refinement even when a field failed its own check; those are reported on their own
   const ok = (v: unknown) => typeof v === "number" && v > 0 && Number.isFinite(v);
   if (!ok(m.spacing)) return null;
-  if (m.type === "periodic-hex" && !(m.cellsX <= limits.cellsPerSide && m.cellsY <= limits.cellsPerSide)) return null;
+  if (m.type === "periodic-hex") {
+    if (!(Number.isInteger(m.cellsX) && Number.isInteger(m.cellsY) && m.cellsX >= 4 && m.cellsY >= 4)) return null;
+    const side = m.cellsX >= m.cellsY ? "cellsX" : "cellsY";
+    if (m[side] > limits.cellsPerSide) {
+      return { path: [side], message: `is ${m[side]} cells along a side, more than the limit of ${limits.cellsPerSide}; the ${m.cellsX} × ${m.cellsY} mesh would need about ` +
+        `${formatBytes(estimateRunBytes(m.cellsX * m.cellsY, nLayers))} of memory` };
+    }
+  }
   if (m.type === "basin-hex") {
     if (m.shape === "polygon" ? !m.vertices || polygonProblem(m.vertices) !== null : !ok(m.width) || !ok(m.height)) return null;
     if ((m.width !== undefined && !ok(m.width)) || (m.height !== undefined && !ok(m.height))) return null;
@@ -176,13 +183,14 @@ export function meshSizeProblem(m: MeshSpecOf, nLayers: number, limits: Limits):
     if (!(side <= limits.cellsPerSide)) {
       // blame the size when no ocean is that large (wider than the Earth's circumference, 40 075 km), else the spacing
       const extent = Math.max(lat.across * m.spacing, lat.along * m.spacing * Math.sqrt(3) / 2);
+      const memory = `; about ${formatCount(shapeArea(shape) / hexCellArea(m.spacing))} cells would need about ${formatBytes(estimateRunBytes(shapeArea(shape) / hexCellArea(m.spacing), nLayers))} of memory`;
       if (extent > EARTH_CIRCUMFERENCE) {
         const sizePath = m.shape === "polygon" && m.width === undefined && m.height === undefined ? ["vertices"] : lat.across >= lat.along ? ["width"] : ["height"];
         return { path: sizePath, message: `makes a basin of ${describeSize(shape)}, wider than the Earth's circumference; it would be ${formatCount(Math.ceil(side))} cells ` +
-          `across at mesh.spacing ${m.spacing} m, more than the limit of ${limits.cellsPerSide} cells along a side` };
+          `across at mesh.spacing ${m.spacing} m, more than the limit of ${limits.cellsPerSide} cells along a side${memory}` };
       }
       return { path: ["spacing"], message: `is ${m.spacing} m: a basin of ${describeSize(shape)} would be ${formatCount(Math.ceil(side))} cells across, ` +
-        `more than the limit of ${limits.cellsPerSide} cells along a side` };
+        `more than the limit of ${limits.cellsPerSide} cells along a side${memory}` };
     }
     if (!(lat.nx * lat.ny <= limits.latticePoints)) {
       return { path: ["spacing"], message: `is ${m.spacing} m: the ${lat.nx} × ${lat.ny} lattice around the basin is more than the limit of ${formatCount(limits.latticePoints)} points` };
@@ -215,7 +223,7 @@ function scenarioSchemaWith(limits: Limits, runLength: boolean) {
   return z.object({
     name: z.string({ error: "must be a string" }).min(1, { error: "must not be empty" }),
     description: z.string().optional(),
-    mesh: z.discriminatedUnion("type", [periodicMeshFor(limits), basinMeshFor(limits)], { error: 'mesh.type must be "periodic-hex" or "basin-hex"' }),
+    mesh: z.discriminatedUnion("type", [periodicMeshFor(), basinMeshFor(limits)], { error: 'mesh.type must be "periodic-hex" or "basin-hex"' }),
     layers: z.array(layer).min(1, { error: "needs at least one layer" }).max(limits.layers, { error: `at most ${limits.layers} layers` }),
     physics,
     initial,
