@@ -185,6 +185,13 @@ describe("oversized and endless inputs through the CLI: exit 2 and one line nami
     }, 90_000);
   }
 
+  it("a stability study refuses a minimum step count over the bound, and its halving stops at the bound", async () => {
+    let err = "";
+    const code = await main(["stability", "ring-wave", "--min-steps", "2000000"], () => {}, (t) => { err += t; });
+    expect(code).toBe(2);
+    expect(err).toMatch(/^stepwell stability: --min-steps: 2000000 steps is more than the limit of 1000000 steps \(raise it with --max-steps N\)$/);
+  });
+
   it("in-process the same inputs give the same exit code (no internal error)", async () => {
     let err = "";
     const code = await main(["run", file("huge2.json", { ...ring(), mesh: { type: "periodic-hex", cellsX: 100000, cellsY: 100000, spacing: 1000 } })], () => {}, (s) => { err += s; });

@@ -35,7 +35,7 @@ export interface Limits {
 export const LIMITS: Limits = Object.freeze({
   cellsPerSide: 4096,
   cells: 250_000,
-  memoryBytes: 4 * 1024 ** 3,
+  memoryBytes: 4e9,
   latticePoints: 4_000_000,
   polygonVertices: 5000,
   layers: 12,
