@@ -6,12 +6,15 @@ import { numberOption, rejectUnknown, stringOption, type ParsedArgs } from "./ar
 import { fmt, loadScenarioArg, table, writeJson } from "./io.js";
 import { STEPPER_CLI_OPTIONS, stepperFromArgs } from "./stepperArgs.js";
 import { SolverError } from "../errors.js";
+import { checkRunLength, checkStepCount } from "../scenario/limits.js";
+import { LIMIT_OPTIONS, LIMIT_USAGE, limitsFromArgs } from "./limitArgs.js";
 import { builtinScenario } from "../scenario/builtins.js";
 import { dirname } from "node:path";
 import { loadedModule, userDirectory, userPath } from "./modules.js";
 import type { StepperDefinition } from "../time/interface.js";
 
-export const RUN_USAGE = "run SCENARIO [--method M | --stepper-module FILE] [--dt S] [--steps N | --duration S] [--linear L] [--backend B] [--tolerance T] [--substeps N] [--filter F] [--passes N] [--option key=value …] [--json FILE]";
+export const RUN_USAGE = "run SCENARIO [--method M | --stepper-module FILE] [--dt S] [--steps N | --duration S] [--linear L] [--backend B] [--tolerance T] [--substeps N] [--filter F] [--passes N] [--option key=value …] " +
+  `${LIMIT_USAGE} [--json FILE]`;
 
 /**
  * The stepper of a run: `--stepper-module FILE`, or a `"module"` in the scenario's stepper (relative to the
@@ -32,12 +35,17 @@ export function stepperForCommand(scenario: ReturnType<typeof parseScenario>, sc
 }
 
 export function runCommand(args: ParsedArgs, out: (s: string) => void): number {
-  rejectUnknown(args, [...STEPPER_CLI_OPTIONS, "steps", "duration", "json", "quiet"], "run");
-  const scenario = parseScenario(loadScenarioArg(args.positional[0]));
+  rejectUnknown(args, [...STEPPER_CLI_OPTIONS, "steps", "duration", "json", "quiet", ...LIMIT_OPTIONS], "run");
+  const limits = limitsFromArgs(args);
   const steps = numberOption(args, "steps", { positive: true, integer: true });
   const duration = numberOption(args, "duration", { positive: true });
   if (steps !== undefined && duration !== undefined) throw new SolverError("bad-input", "--steps: give either --steps or --duration, not both", "--steps");
+  const dtGiven = args.options.has("dt");
+  // the run length is checked on what will run: the scenario's own only when no option replaces it
+  const scenario = parseScenario(loadScenarioArg(args.positional[0]), "", { limits, runLength: steps === undefined && duration === undefined && !dtGiven });
   const spec = stepperForCommand(scenario, args.positional[0], args);
+  if (steps !== undefined) checkStepCount(steps, limits, "--steps");
+  else checkRunLength(duration ?? scenario.duration, spec.dt, limits, duration !== undefined ? "--duration" : "duration", dtGiven ? "--dt" : "stepper.dt");
   const run = new Run(buildScenario(scenario), spec);
   const quiet = args.options.has("quiet");
   const total = steps ?? Math.round((duration ?? scenario.duration) / run.dt);
@@ -68,8 +76,26 @@ export function runCommand(args: ParsedArgs, out: (s: string) => void): number {
     ["inner products", String(result.innerProducts)],
     ["max relative mass drift", fmt(result.mass.maxRelativeDrift, "", 3)],
     ["energy initial → final", `${fmt(result.energy.initial * run.model.params.rho0, "J")} → ${fmt(result.energy.final * run.model.params.rho0, "J")}`],
-    ["max relative energy drift", fmt(result.energy.maxRelativeDrift, "", 3)],
+    ["max relative energy drift", result.energy.maxRelativeDrift === null ? "n/a (see below)" : fmt(result.energy.maxRelativeDrift, "", 3)],
   ]));
+  if (result.energy.reason) out(`Energy drift n/a: ${result.energy.reason}.`);
+  const eb = result.energyBudget;
+  if (eb) {
+    const rho0 = run.model.params.rho0;
+    const row = (name: string, v: number) => [name, fmt(v, "", 5), fmt(v * rho0, "", 5)];
+    out("");
+    out(`Energy budget over ${fmt(eb.interval, "s")} (per unit reference density in m⁵ s⁻²; × ρ0 = ${rho0} kg/m³ in J):`);
+    out(table(["term", "m⁵ s⁻²", "J"], [
+      row("change of total energy", eb.change),
+      row("wind work", eb.windWork),
+      row("bottom-drag loss", eb.dragLoss),
+      row("viscous loss", eb.viscousLoss),
+      row("residual (made by the stepper)", eb.residual),
+      ["relative residual", eb.relativeResidual === null ? "n/a" : fmt(eb.relativeResidual, "", 3), ""],
+    ]));
+    out(eb.relativeResidual === null ? `Relative residual n/a: ${eb.reason}.` :
+      `residual = change − (wind work − drag loss − viscous loss); relative to the largest term. The budget cost ${eb.rhsEvaluations} extra tendency evaluations (${fmt(eb.wallSeconds, "s", 3)}), not counted above.`);
+  }
   if (result.unstable) {
     const u = result.unstable;
     out(`\nUNSTABLE at step ${u.step}, t = ${fmt(u.time, "s")}: ${u.reason} — ${u.field} of layer ${u.layer} at ${u.field === "thickness" ? "cell" : "edge"} ${u.index} ` +

@@ -1,4 +1,6 @@
 import { SolverError } from "../errors.js";
+import { checkListLength } from "../scenario/limits.js";
+import { LIMIT_OPTIONS, limitsFromArgs } from "./limitArgs.js";
 import { buildScenario } from "../scenario/build.js";
 import { parseScenario } from "../scenario/schema.js";
 import { parseShard } from "../studies/shard.js";
@@ -9,7 +11,7 @@ import { progressReporter, steppersFromArgs } from "./studyArgs.js";
 
 export const STABILITY_USAGE =
   "stability SCENARIO [--method M[,M2(key=value;…),…] | --steppers FILE] [--duration S] [--tolerance R] [--energy-growth G] " +
-  "[--min-steps N] [--start-dt S] [--perturbation R] [--json FILE] [--shard i/n]  (JSON: one object for one method, an array for several)";
+  "[--min-steps N] [--start-dt S] [--perturbation R] [--max-steps N] [--max-cells N] [--max-memory BYTES] [--json FILE] [--shard i/n]  (JSON: one object for one method, an array for several)";
 
 /** The JSON of a finished study: one object for one stepper, an array in the given order for several. */
 export function stabilityJson(results: StabilityResult[]): StabilityResult | StabilityResult[] {
@@ -25,10 +27,12 @@ export function printStability(results: StabilityResult[], out: (s: string) => v
 }
 
 export function stabilityCommand(args: ParsedArgs, out: (s: string) => void, err: (s: string) => void): number {
-  rejectUnknown(args, ["method", "methods", "steppers", "duration", "tolerance", "energy-growth", "min-steps", "start-dt", "perturbation", "json", "shard"], "stability");
-  const scenario = parseScenario(loadScenarioArg(args.positional[0]));
+  rejectUnknown(args, ["method", "methods", "steppers", "duration", "tolerance", "energy-growth", "min-steps", "start-dt", "perturbation", "json", "shard", ...LIMIT_OPTIONS], "stability");
+  const limits = limitsFromArgs(args);
+  const scenario = parseScenario(loadScenarioArg(args.positional[0]), "", { limits, runLength: false });
   if (args.positional.length > 1) throw new SolverError("bad-input", `SCENARIO: give one scenario, got ${args.positional.length} words (${args.positional.join(" ")})`, "SCENARIO");
   const configs = steppersFromArgs(args, scenario, ["method", "methods"]);
+  checkListLength(configs.length, "studyMethods", limits, args.options.has("steppers") ? "--steppers" : args.options.has("methods") ? "--methods" : "--method");
   const options = {
     duration: numberOption(args, "duration", { positive: true }),
     tolerance: numberOption(args, "tolerance"),
@@ -36,6 +40,7 @@ export function stabilityCommand(args: ParsedArgs, out: (s: string) => void, err
     minSteps: numberOption(args, "min-steps", { positive: true, integer: true }),
     startDt: numberOption(args, "start-dt", { positive: true }),
     perturbation: numberOption(args, "perturbation"),
+    maxSteps: limits.steps,
   };
   if (options.tolerance !== undefined && !(options.tolerance > 0)) throw new SolverError("bad-input", `--tolerance: must be > 0 (relative width of the final bracket), got ${options.tolerance}`, "--tolerance");
   const shardText = stringOption(args, "shard");

@@ -1,4 +1,6 @@
 import { SolverError } from "../errors.js";
+import { checkListLength } from "../scenario/limits.js";
+import { LIMIT_OPTIONS, LIMIT_USAGE, limitsFromArgs } from "./limitArgs.js";
 import { buildScenario } from "../scenario/build.js";
 import { parseScenario } from "../scenario/schema.js";
 import type { ErrorComponent } from "../studies/metrics.js";
@@ -13,23 +15,27 @@ import { DiskReferenceCache, numberList, parseMethodList, progressReporter, step
 
 export const SWEEP_USAGE =
   "sweep SCENARIO (--methods LIST | --steppers FILE) (--dts d1,d2,… | --dt-factors f1,f2,…) [--reference-dt S] [--reference-method M] " +
-  "[--duration S] [--error ssh|thickness|velocity] [--tolerance E] [--matvec-weight W] [--json FILE] [--csv FILE] [--shard i/n] [--reference-only] [--no-cache]";
+  "[--duration S] [--error ssh|thickness|velocity] [--tolerance E] [--matvec-weight W] [--json FILE] [--csv FILE] [--shard i/n] [--reference-only] [--no-cache] " +
+  LIMIT_USAGE;
 
 const CSV_HEADER = ["label", "method", "dt", "dtRatioToRk4", "status", "errorSsh", "errorThickness", "errorVelocity", "massDrift", "energyDrift",
-  "wallSeconds", "rhsEvaluations", "matvecs", "cost", "atReferenceFloor"];
+  "energyResidual", "wallSeconds", "rhsEvaluations", "matvecs", "cost", "atReferenceFloor"];
 
 export function sweepCsv(rows: SweepRow[]): string {
   const q = (s: string) => (/[",\n]/.test(s) ? `"${s.replace(/"/g, '""')}"` : s);
   const n = (v: number | null) => (v === null || !Number.isFinite(v) ? "" : String(v));
   return [CSV_HEADER.join(","), ...rows.map((r) => [q(r.label), q(r.method), n(r.dt), n(r.dtRatioToRk4), r.status, n(r.error.ssh), n(r.error.thickness),
-    n(r.error.velocity), n(r.massDrift), n(r.energyDrift), n(r.wallSeconds), n(r.rhsEvaluations), n(r.matvecs), n(r.cost), String(r.atReferenceFloor)].join(","))].join("\n") + "\n";
+    n(r.error.velocity), n(r.massDrift), n(r.energyDrift), n(r.energyResidual), n(r.wallSeconds), n(r.rhsEvaluations), n(r.matvecs), n(r.cost), String(r.atReferenceFloor)].join(","))].join("\n") + "\n";
 }
 
 export function printSweep(rows: SweepRow[], out: (s: string) => void, result?: SweepResult): void {
   const e = (v: number | null) => (v === null ? "—" : fmt(v, "", 3));
-  out(table(["stepper", "Δt", "× RK4", "status", "err ssh", "err h", "err u", "mass drift", "energy drift", "wall", "RHS", "matvecs"],
+  out(table(["stepper", "Δt", "× RK4", "status", "err ssh", "err h", "err u", "mass drift", "energy drift", "energy residual", "wall", "RHS", "matvecs"],
     rows.map((r) => [r.label, fmt(r.dt, "s"), fmt(r.dtRatioToRk4, "", 3), r.status + (r.atReferenceFloor ? " (floor)" : ""), e(r.error.ssh), e(r.error.thickness),
-      e(r.error.velocity), fmt(r.massDrift, "", 2), fmt(r.energyDrift, "", 2), fmt(r.wallSeconds, "s", 3), String(r.rhsEvaluations), String(r.matvecs)])));
+      e(r.error.velocity), fmt(r.massDrift, "", 2), r.energyDrift === null ? "n/a" : fmt(r.energyDrift, "", 2),
+      r.energyResidual === null ? "n/a" : fmt(r.energyResidual, "", 2), fmt(r.wallSeconds, "s", 3), String(r.rhsEvaluations), String(r.matvecs)])));
+  const why = rows.find((r) => r.energyDriftReason)?.energyDriftReason;
+  if (why) out(`energy drift n/a: ${why}; "energy residual" is the budget residual relative to the largest budget term.`);
   if (!result) return;
   out("");
   out(`Reference ${result.reference.label} at Δt = ${fmt(result.reference.dt, "s")} (${result.reference.steps} steps); its own error ≈ ${fmt(result.reference.floor[result.workPrecision.component], "", 2)} (${result.workPrecision.component}).`);
@@ -45,9 +51,14 @@ export function printSweep(rows: SweepRow[], out: (s: string) => void, result?: 
 }
 
 export function sweepDefinition(args: ParsedArgs, duration: number | undefined): SweepDefinition {
+  const limits = limitsFromArgs(args);
   const steppers = steppersFromArgs(args, null, ["methods"]);
+  const field = args.options.has("steppers") ? "--steppers" : "--methods";
+  checkListLength(steppers.length, "studyMethods", limits, field);
   const dts = numberList(args, "dts");
   const dtFactors = numberList(args, "dt-factors");
+  if (dts) checkListLength(dts.length, "studyDts", limits, "--dts");
+  if (dtFactors) checkListLength(dtFactors.length, "studyDts", limits, "--dt-factors");
   if (dts && dtFactors) throw new SolverError("bad-input", "--dts: give either --dts (seconds) or --dt-factors (multiples of the RK4 limit), not both", "--dts");
   if (!dts && !dtFactors) throw new SolverError("bad-input", "--dts: give the time steps with --dts d1,d2,… (seconds) or --dt-factors f1,f2,… (multiples of the RK4 limit)", "--dts");
   const refMethod = stringOption(args, "reference-method");
@@ -62,14 +73,13 @@ export function sweepDefinition(args: ParsedArgs, duration: number | undefined):
   if (tolerance !== undefined && !(tolerance > 0)) throw new SolverError("bad-input", `--tolerance: the requested error must be > 0, got ${tolerance}`, "--tolerance");
   const matvecWeight = numberOption(args, "matvec-weight");
   if (matvecWeight !== undefined && !(matvecWeight >= 0)) throw new SolverError("bad-input", `--matvec-weight: must be ≥ 0, got ${matvecWeight}`, "--matvec-weight");
-  const field = args.options.has("steppers") ? "--steppers" : "--methods";
-  return { steppers, field, dts, dtFactors, duration, referenceSpec, referenceDt: numberOption(args, "reference-dt", { positive: true }), component, tolerance, matvecWeight };
+  return { limits, steppers, field, dts, dtFactors, duration, referenceSpec, referenceDt: numberOption(args, "reference-dt", { positive: true }), component, tolerance, matvecWeight };
 }
 
 export function sweepCommand(args: ParsedArgs, out: (s: string) => void, err: (s: string) => void): number {
   rejectUnknown(args, ["methods", "steppers", "dts", "dt-factors", "reference-dt", "reference-method", "duration", "error", "tolerance", "matvec-weight",
-    "json", "csv", "shard", "reference-only", "no-cache"], "sweep");
-  const scenario = parseScenario(loadScenarioArg(args.positional[0]));
+    "json", "csv", "shard", "reference-only", "no-cache", ...LIMIT_OPTIONS], "sweep");
+  const scenario = parseScenario(loadScenarioArg(args.positional[0]), "", { limits: limitsFromArgs(args), runLength: false });
   if (args.positional.length > 1) throw new SolverError("bad-input", `SCENARIO: give one scenario, got ${args.positional.length} words (${args.positional.join(" ")})`, "SCENARIO");
   const def = sweepDefinition(args, numberOption(args, "duration", { positive: true }));
   const shardText = stringOption(args, "shard");

@@ -1,4 +1,5 @@
 import { SolverError } from "../errors.js";
+import { EnergyBudgetTracker } from "../diagnostics/energyBudget.js";
 import { budgetWork, computeBudget, courantNumbers, type Budget, type BudgetWork, type CourantNumbers } from "../diagnostics/budget.js";
 import { deepestColumnSpeed, hexMaxFrequency, verticalModes, type VerticalModes } from "../model/modes.js";
 import { problemFor, type ModelProblem } from "../model/problem.js";
@@ -51,6 +52,8 @@ export class Run {
   time = 0;
   steps = 0;
   unstable: UnstableReport | null = null;
+  /** The energy budget over the steps of `advance`, once switched on with `trackEnergyBudget` (null: off). */
+  energyBudget: EnergyBudgetTracker | null = null;
   private readonly work: BudgetWork;
 
   constructor(built: BuiltScenario, spec?: StepperSpec) {
@@ -100,6 +103,17 @@ export class Run {
   fastestSpeed(): number {
     const p = this.model.params;
     return deepestColumnSpeed(p.reducedGravity, p.nominalThickness, p.bottom);
+  }
+
+  /**
+   * Switch the energy budget on (from the current state and time, costing one extra tendency evaluation per step,
+   * counted apart from the stepper's) or off.
+   */
+  trackEnergyBudget(on = true): EnergyBudgetTracker | null {
+    if (!on) { this.energyBudget = null; return null; }
+    this.energyBudget ??= new EnergyBudgetTracker(this.model);
+    this.energyBudget.start(this.state, this.time);
+    return this.energyBudget;
   }
 
   budget(x: Float64Array = this.state): Budget {
@@ -162,6 +176,7 @@ export class Run {
       }
       this.time += dt;
       this.steps++;
+      this.energyBudget?.afterStep(this.state, this.time);
     }
     return true;
   }
@@ -172,6 +187,7 @@ export class Run {
     this.time = 0;
     this.steps = 0;
     this.unstable = null;
+    this.energyBudget?.start(this.state, 0);
   }
 }
 

@@ -1,4 +1,5 @@
 import { SolverError } from "../errors.js";
+import { checkRunLength, checkStepCount, LIMITS, withLimits } from "../scenario/limits.js";
 import { Run } from "../driver/run.js";
 import type { BuiltScenario } from "../scenario/build.js";
 import type { StepperSpec } from "../scenario/schema.js";
@@ -25,6 +26,8 @@ export interface StabilityOptions {
   startDt?: number;
   /** At most this many doublings or halvings while bracketing (default 12). */
   maxBracketSteps?: number;
+  /** Steps of one trial at most (default LIMITS.steps); halving stops before a trial would need more. */
+  maxSteps?: number;
   /**
    * Seeded grid-scale noise added to every layer thickness before the trials, as a fraction of the layer's
    * nominal thickness (default 1e-6; 0 = none). A smooth initial state barely projects on the fastest grid
@@ -72,6 +75,7 @@ export interface ResolvedStabilityOptions {
   startDt?: number;
   maxBracketSteps: number;
   perturbation: number;
+  maxSteps: number;
 }
 
 export function resolveStabilityOptions(run: Run, o: StabilityOptions = {}): ResolvedStabilityOptions {
@@ -84,7 +88,12 @@ export function resolveStabilityOptions(run: Run, o: StabilityOptions = {}): Res
     startDt: o.startDt,
     maxBracketSteps: o.maxBracketSteps ?? 12,
     perturbation: o.perturbation ?? 1e-6,
+    maxSteps: o.maxSteps ?? LIMITS.steps,
   };
+  const limits = withLimits({ steps: r.maxSteps });
+  if (r.duration > limits.duration) checkRunLength(r.duration, 1, limits, "--duration", "--duration");
+  if (!(r.minSteps <= r.maxSteps)) checkStepCount(r.minSteps, limits, "--min-steps");
+  if (r.startDt !== undefined && r.startDt > 0) checkRunLength(r.duration, r.startDt, limits, "--duration", "--start-dt");
   if (!(r.perturbation >= 0 && r.perturbation < 0.1)) throw new SolverError("bad-input", `--perturbation: must lie in [0, 0.1), got ${r.perturbation}`, "--perturbation");
   if (!(r.duration > 0 && Number.isFinite(r.duration))) throw new SolverError("bad-input", `--duration: must be > 0, got ${r.duration}`, "--duration");
   if (!(r.tolerance > 0 && r.tolerance < 1)) throw new SolverError("bad-input", `--tolerance: the relative tolerance of the limit must lie in (0, 1), got ${r.tolerance}`, "--tolerance");
@@ -204,7 +213,7 @@ export function stabilitySearch(run: Run, scale: EnergyScale, config: StepperCon
     }
   } else {
     hi = start;
-    for (let k = 0; k < o.maxBracketSteps && lo === 0; k++) {
+    for (let k = 0; k < o.maxBracketSteps && lo === 0 && o.duration / (hi / 2) <= o.maxSteps; k++) {
       const dt = hi / 2;
       if (trial(dt)) lo = dt; else hi = dt;
     }

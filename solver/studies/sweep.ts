@@ -1,4 +1,5 @@
 import { SolverError } from "../errors.js";
+import { checkListLength, checkRunLength, LIMITS, type Limits } from "../scenario/limits.js";
 import { execute } from "../driver/execute.js";
 import { Run } from "../driver/run.js";
 import type { BuiltScenario } from "../scenario/build.js";
@@ -34,6 +35,8 @@ export interface SweepDefinition {
   maxError?: number;
   /** Name of the argument the steppers came from, for error messages (default "--methods"). */
   field?: string;
+  /** Bounds on the study (default LIMITS): steppers, Δt values, steps of every run including the reference. */
+  limits?: Limits;
 }
 
 /** Everything a sweep's rows and fits depend on, JSON-safe; shards carry it so that merge can finish the study. */
@@ -60,7 +63,11 @@ export interface SweepRow {
   status: "completed" | "unstable" | "cancelled";
   error: { ssh: number | null; thickness: number | null; velocity: number | null };
   massDrift: number;
-  energyDrift: number;
+  /** Max relative energy drift; null (with energyDriftReason) for a forced or damped run, or one without energy. */
+  energyDrift: number | null;
+  energyDriftReason?: string;
+  /** Energy-budget residual relative to the largest budget term (null for a run without forcing or dissipation: see energyDrift). */
+  energyResidual: number | null;
   wallSeconds: number;
   rhsEvaluations: number;
   matvecs: number;
@@ -136,10 +143,16 @@ export function planSweep(built: BuiltScenario, def: SweepDefinition): SweepPlan
   if (!raw.length || !raw.every((v) => typeof v === "number" && v > 0 && Number.isFinite(v))) {
     throw new SolverError("bad-input", `${field}: must be a comma-separated list of positive numbers`, field);
   }
-  const probe = new Run(built, { method: "rk4", dt: 1 });
-  const limit = probe.rk4DtLimit();
+  const limits = def.limits ?? LIMITS;
+  checkListLength(def.steppers.length, "studyMethods", limits, sf);
+  checkListLength(raw.length, "studyDts", limits, field);
   const duration = def.duration ?? built.scenario.duration;
   if (!(duration > 0 && Number.isFinite(duration))) throw new SolverError("bad-input", `--duration: must be > 0, got ${duration}`, "--duration");
+  const durationField = def.duration !== undefined ? "--duration" : "duration";
+  if (def.dts) for (const d of def.dts) checkRunLength(duration, d, limits, durationField, field);
+  const probe = new Run(built, { method: "rk4", dt: 1 });
+  const limit = probe.rk4DtLimit();
+  if (def.dtFactors) for (const f of def.dtFactors) checkRunLength(duration, f * limit, limits, durationField, field);
   const labels = new Set<string>();
   const steppers = def.steppers.map((s, i) => {
     const f = def.steppers.length > 1 || sf === "--steppers" ? `${sf}[${i}]` : sf;
@@ -163,7 +176,9 @@ export function planSweep(built: BuiltScenario, def: SweepDefinition): SweepPlan
   definitionOf(refSpec, "--reference-method");
   probe.setStepper({ ...refSpec, dt: 1 } as StepperSpec, "--reference-method");
   const minDt = Math.min(...dts.map((d) => d.dt));
-  const reference = planReference(refSpec, def.referenceDt ?? Math.min(minDt / 4, limit / 2), duration);
+  const refDt = def.referenceDt ?? Math.min(minDt / 4, limit / 2);
+  checkRunLength(duration, refDt, limits, durationField, def.referenceDt !== undefined ? "--reference-dt" : `${field} (the reference run at a quarter of the smallest Δt)`);
+  const reference = planReference(refSpec, refDt, duration);
   const component = def.component ?? "thickness";
   if (!ERROR_COMPONENTS.includes(component)) throw new SolverError("bad-input", `--error: must be one of ${ERROR_COMPONENTS.join(", ")}`, "--error");
   const tolerance = def.tolerance ?? 1e-3;
@@ -202,6 +217,8 @@ export function sweepRows(built: BuiltScenario, plan: SweepPlan, ref: ReferenceR
       label: s.label, method: s.spec.method, dt: d.dt, status: r.status,
       error: { ssh: e ? finiteOr(e.errors.ssh) : null, thickness: e ? finiteOr(e.errors.thickness) : null, velocity: e ? finiteOr(e.errors.velocity) : null },
       massDrift: r.mass.maxRelativeDrift, energyDrift: r.energy.maxRelativeDrift,
+      ...(r.energy.reason ? { energyDriftReason: r.energy.reason } : {}),
+      energyResidual: r.energy.relativeBudgetResidual,
       wallSeconds: r.wallSeconds, rhsEvaluations: r.rhsEvaluations, matvecs: r.matvecs,
       requestedDt: d.requested, dtRatioToRk4: d.dt / plan.rk4DtLimit, steps: r.steps,
       cost: r.rhsEvaluations + plan.matvecWeight * r.matvecs,
