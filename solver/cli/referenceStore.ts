@@ -1,6 +1,6 @@
 import { readFileSync } from "node:fs";
 import { join } from "node:path";
-import { referenceCache, referenceChecksum, type ReferenceCache, type ReferenceRecord } from "../studies/reference.js";
+import { MemoryReferenceCache, referenceChecksum, type ReferenceCache, type ReferenceRecord } from "../studies/reference.js";
 import { writeFileAtomic } from "./io.js";
 import { userPath } from "./paths.js";
 
@@ -12,7 +12,7 @@ export function cacheDirectory(): string {
 }
 
 /**
- * On-disk reference cache in front of the engine's memory cache. An entry is used only if it is intact and was
+ * On-disk reference cache (with a small memory layer of its own, so that every command reads and checks the disk). An entry is used only if it is intact and was
  * written by this very solver: its format, key and solver identity (package version and source hash, see
  * `solverIdentity`) match and its checksum matches its content. Anything else — another version, a truncated
  * file, an edited one — is reported once through `warn` and recomputed (then overwritten). Entries are written
@@ -23,7 +23,7 @@ export class DiskReferenceCache implements ReferenceCache {
     readonly dir: string,
     readonly solver: string,
     private readonly warn: (message: string) => void,
-    private readonly memory: ReferenceCache = referenceCache,
+    private readonly memory: ReferenceCache = new MemoryReferenceCache(2),
   ) {}
 
   file(key: string): string { return join(this.dir, `reference-${key}.json`); }

@@ -12,19 +12,24 @@ let cached: string | null = null;
  */
 export function solverIdentity(): string {
   if (cached) return cached;
-  const solverDir = fileURLToPath(new URL("..", import.meta.url));
   const pkg = JSON.parse(readFileSync(fileURLToPath(new URL("../../package.json", import.meta.url)), "utf8")) as { version?: string };
+  cached = `stepwell ${pkg.version ?? "?"} solver ${sourceHash(fileURLToPath(new URL("..", import.meta.url)))}`;
+  return cached;
+}
+
+/** SHA-256 (first 16 hex digits) over the files under `solverDir` except its cli/ folder: sorted relative paths, each followed by the file's bytes. */
+export function sourceHash(solverDir: string): string {
   const files: string[] = [];
+  const skip = join(solverDir, "cli");
   const walk = (dir: string) => {
     for (const e of readdirSync(dir, { withFileTypes: true })) {
       const p = join(dir, e.name);
-      if (e.isDirectory()) { if (p !== join(solverDir, "cli")) walk(p); } else if (e.isFile()) files.push(p);
+      if (e.isDirectory()) { if (p !== skip) walk(p); } else if (e.isFile()) files.push(p);
     }
   };
   walk(solverDir);
   const rel = files.map((f) => relative(solverDir, f).split(sep).join("/")).sort();
   const h = createHash("sha256");
   for (const r of rel) h.update(r).update("\0").update(readFileSync(join(solverDir, r))).update("\0");
-  cached = `stepwell ${pkg.version ?? "?"} solver ${h.digest("hex").slice(0, 16)}`;
-  return cached;
+  return h.digest("hex").slice(0, 16);
 }
