@@ -27,6 +27,7 @@ interface WorkerInput {
 type Message = { out: string } | { err: string } | { code: number };
 
 const SIGNALS = constants.signals;
+const REPEAT_WINDOW_MS = 1000;
 const REASON_OF: Record<number, StopReason> = { [SIGNALS.SIGINT]: "SIGINT", [SIGNALS.SIGTERM]: "SIGTERM", [SIGNALS.SIGPIPE]: "closed-output" };
 
 /** Worker bootstrap (CommonJS, evaluated). Node 20 does not carry the TypeScript loader into workers, so it is registered here. */
@@ -75,14 +76,19 @@ export function launch(argv: readonly string[]): void {
     process.exitCode = signalled ? 128 + SIGNALS[signalled] : code ?? (workerCode || 1);
   });
 
+  let signalledAt = 0;
   const onSignal = (sig: "SIGINT" | "SIGTERM") => {
     if (signalled) {
+      // Under `npm run`, a Ctrl-C reaches this process twice at once (from the terminal and forwarded by npm):
+      // a repeat within the first second is the same request.
+      if (Date.now() - signalledAt < REPEAT_WINDOW_MS) return;
       writeErr(`\nstepwell: ${sig} again: stopping at once; the step in progress is lost\n`);
       process.exit(128 + SIGNALS[signalled]);
     }
     signalled = sig;
+    signalledAt = Date.now();
     requestStop(SIGNALS[sig]);
-    writeErr(`\nstepwell: ${sig}: stopping after the step in progress and writing what finished (send it again to stop at once)\n`);
+    writeErr(`\nstepwell: ${sig}: stopping after the step in progress and writing what finished (send it again after a second to stop at once)\n`);
   };
   process.on("SIGINT", onSignal);
   process.on("SIGTERM", onSignal);
