@@ -1,4 +1,5 @@
 import type { ParsedArgs } from "./args.js";
+import type { CliContext } from "./context.js";
 import { MODES_USAGE, modesCommand } from "./modesCommand.js";
 import { RUN_USAGE, runCommand } from "./runCommand.js";
 import { SCENARIOS_USAGE, scenariosCommand } from "./scenariosCommand.js";
@@ -13,7 +14,7 @@ export interface Command {
   readonly summary: string;
   /** Flags that take no value. */
   readonly flags?: readonly string[];
-  run(args: ParsedArgs, out: (s: string) => void, err: (s: string) => void): number | Promise<number>;
+  run(args: ParsedArgs, out: (s: string) => void, err: (s: string) => void, ctx: CliContext): number | Promise<number>;
 }
 
 /** Every CLI command; a new command is one file plus one line here. */

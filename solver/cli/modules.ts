@@ -12,14 +12,13 @@ import { registerModule } from "../time/userModules.js";
 import type { StepperDefinition } from "../time/interface.js";
 import { builtinScenario } from "../scenario/builtins.js";
 import type { ParsedArgs } from "./args.js";
+import { startDirectory } from "./paths.js";
 
-/** The directory the user started the command in (npm moves to the package root and passes it as INIT_CWD). */
-export function userDirectory(): string {
-  return process.env.INIT_CWD || process.cwd();
-}
+/** The directory the user started the command in (see paths.ts). */
+export const userDirectory = startDirectory;
 
 /** A path as the user meant it: relative to `base` (a JSON file's directory) or to where the command started. */
-export function userPath(p: string, base = userDirectory()): string {
+export function userPath(p: string, base = startDirectory()): string {
   return isAbsolute(p) ? p : resolve(base, p);
 }
 

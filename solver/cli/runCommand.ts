@@ -12,6 +12,7 @@ import { builtinScenario } from "../scenario/builtins.js";
 import { dirname } from "node:path";
 import { loadedModule, userDirectory, userPath } from "./modules.js";
 import type { StepperDefinition } from "../time/interface.js";
+import { NEVER_STOP, STOP_EXIT_CODES, type CliContext } from "./context.js";
 
 export const RUN_USAGE = "run SCENARIO [--method M | --stepper-module FILE] [--dt S] [--steps N | --duration S] [--linear L] [--backend B] [--tolerance T] [--substeps N] [--filter F] [--passes N] [--option key=value …] " +
   `${LIMIT_USAGE} [--json FILE]`;
@@ -34,7 +35,7 @@ export function stepperForCommand(scenario: ReturnType<typeof parseScenario>, sc
   return stepperFromArgs(scenario, args, definition, key);
 }
 
-export function runCommand(args: ParsedArgs, out: (s: string) => void): number {
+export function runCommand(args: ParsedArgs, out: (s: string) => void, err: (s: string) => void, ctx: CliContext = NEVER_STOP): number {
   rejectUnknown(args, [...STEPPER_CLI_OPTIONS, "steps", "duration", "json", "quiet", ...LIMIT_OPTIONS], "run");
   const limits = limitsFromArgs(args);
   const steps = numberOption(args, "steps", { positive: true, integer: true });
@@ -49,12 +50,21 @@ export function runCommand(args: ParsedArgs, out: (s: string) => void): number {
   const run = new Run(buildScenario(scenario), spec);
   const quiet = args.options.has("quiet");
   const total = steps ?? Math.round((duration ?? scenario.duration) / run.dt);
+  const warnings: string[] = [];
+  if (steps === undefined) {
+    const asked = duration ?? scenario.duration;
+    if (Math.abs(total * run.dt - asked) > 1e-9 * asked) {
+      warnings.push(`${duration !== undefined ? "--duration" : "duration"}: ${asked} s is not a whole number of steps of ${run.dt} s; the run takes ${total} steps = ${total * run.dt} s`);
+    }
+  }
+  for (const w of warnings) err(`stepwell run: warning: ${w}`);
   out(`Scenario ${scenario.name}: ${run.mesh.nCells} cells, ${run.model.params.nLayers} layers, ${run.stepper.label}, dt ${fmt(run.dt, "s")} ` +
     `(${fmt(run.dt / run.rk4DtLimit(), "", 3)} × RK4 limit ${fmt(run.rk4DtLimit(), "s")}), ${total} steps = ${fmt((total * run.dt) / 86400, "days", 3)}`);
   if (run.stepper.note) out(`Note: ${run.stepper.note}`);
   let lastPrint = -1;
   const result = execute(run, {
-    steps, duration, clock: () => performance.now() / 1000,
+    // progress after every step: a stop request (Ctrl-C, SIGTERM, closed output) is seen within one step
+    steps, duration, chunk: 1, clock: () => performance.now() / 1000,
     onProgress: ({ fraction, time, budget }) => {
       const pct = Math.floor(fraction * 10);
       if (!quiet && pct !== lastPrint && budget) {
@@ -62,11 +72,13 @@ export function runCommand(args: ParsedArgs, out: (s: string) => void): number {
         out(`  ${String(Math.round(fraction * 100)).padStart(3)}%  t = ${fmt(time / 86400, "d", 4).padEnd(10)} energy ${fmt(budget.energy * run.model.params.rho0, "J")}  ` +
           `min thickness ${fmt(budget.minThickness, "m")}  max speed ${fmt(budget.maxSpeed, "m/s")}`);
       }
+      return ctx.stopReason() === null;
     },
   });
+  const stop = result.status === "cancelled" ? ctx.stopReason() ?? "SIGINT" : null;
   out("");
   out(table(["quantity", "value"], [
-    ["status", result.status],
+    ["status", stop ? `interrupted (${stop}) after ${result.steps} of ${total} steps` : result.status],
     ["steps", String(result.steps)],
     ["simulated time", `${fmt(result.simulatedSeconds, "s")} (${fmt(result.simulatedSeconds / 86400, "days", 3)})`],
     ["wall time", fmt(result.wallSeconds, "s", 3)],
@@ -103,6 +115,6 @@ export function runCommand(args: ParsedArgs, out: (s: string) => void): number {
       `baroclinic ${fmt(u.courant.baroclinic, "", 3)}, advection ${fmt(u.courant.advection, "", 3)}. The last good state was kept.`);
   }
   const json = stringOption(args, "json");
-  if (json) writeJson(json, result);
-  return 0;
+  if (json) writeJson(json, { ...result, ...(stop ? { status: "interrupted", interruptedBy: stop, plannedSteps: total } : {}), warnings });
+  return stop ? STOP_EXIT_CODES[stop] : 0;
 }

@@ -6,12 +6,15 @@ import { parseScenario } from "../scenario/schema.js";
 import type { ErrorComponent } from "../studies/metrics.js";
 import { referenceRun, type ReferenceCache } from "../studies/reference.js";
 import { parseShard } from "../studies/shard.js";
-import { planSweep, runSweep, type SweepDefinition, type SweepResult, type SweepRow } from "../studies/sweep.js";
-import { StudyTracker } from "../studies/common.js";
+import { planSweep, runSweep, type InterruptedSweep, type SweepDefinition, type SweepResult, type SweepRow } from "../studies/sweep.js";
+import { isCancellation, StudyInterrupted, StudyTracker } from "../studies/common.js";
 import { referenceCache } from "../studies/reference.js";
 import { numberOption, rejectUnknown, stringOption, type ParsedArgs } from "./args.js";
+import { NEVER_STOP, STOP_EXIT_CODES, type CliContext } from "./context.js";
 import { fmt, loadScenarioArg, table, writeJson, writeText } from "./io.js";
-import { DiskReferenceCache, numberList, parseMethodList, progressReporter, steppersFromArgs } from "./studyArgs.js";
+import { cacheDirectory, DiskReferenceCache } from "./referenceStore.js";
+import { solverIdentity } from "./solverIdentity.js";
+import { numberList, parseMethodList, progressReporter, steppersFromArgs } from "./studyArgs.js";
 
 export const SWEEP_USAGE =
   "sweep SCENARIO (--methods LIST | --steppers FILE) (--dts d1,d2,… | --dt-factors f1,f2,…) [--reference-dt S] [--reference-method M] " +
@@ -76,7 +79,7 @@ export function sweepDefinition(args: ParsedArgs, duration: number | undefined):
   return { limits, steppers, field, dts, dtFactors, duration, referenceSpec, referenceDt: numberOption(args, "reference-dt", { positive: true }), component, tolerance, matvecWeight };
 }
 
-export function sweepCommand(args: ParsedArgs, out: (s: string) => void, err: (s: string) => void): number {
+export function sweepCommand(args: ParsedArgs, out: (s: string) => void, err: (s: string) => void, ctx: CliContext = NEVER_STOP): number {
   rejectUnknown(args, ["methods", "steppers", "dts", "dt-factors", "reference-dt", "reference-method", "duration", "error", "tolerance", "matvec-weight",
     "json", "csv", "shard", "reference-only", "no-cache", ...LIMIT_OPTIONS], "sweep");
   const scenario = parseScenario(loadScenarioArg(args.positional[0]), "", { limits: limitsFromArgs(args), runLength: false });
@@ -87,27 +90,45 @@ export function sweepCommand(args: ParsedArgs, out: (s: string) => void, err: (s
   const json = stringOption(args, "json");
   const csv = stringOption(args, "csv");
   if (shard && !json) throw new SolverError("bad-input", "--json: a sharded run writes a partial result; give --json FILE (then join the parts with merge)", "--json");
-  const cache: ReferenceCache = args.options.has("no-cache") ? referenceCache : new DiskReferenceCache();
+  const warn = (m: string) => err(`stepwell sweep: warning: ${m}`);
+  const solver = solverIdentity();
+  const cache: ReferenceCache = args.options.has("no-cache") ? referenceCache : new DiskReferenceCache(cacheDirectory(), solver, warn);
   const clock = () => performance.now() / 1000;
   const built = buildScenario(scenario);
-  const hooks = { clock, onProgress: progressReporter(err, clock, "sweep"), cache };
-  if (args.options.has("reference-only")) {
-    const plan = planSweep(built, def);
-    const ref = referenceRun(built, plan.reference, cache, new StudyTracker(hooks, 2));
-    out(`Reference ${ref.label} at Δt = ${fmt(ref.dt, "s")} (${ref.steps} steps) ready` + (cache instanceof DiskReferenceCache ? ` in ${cache.dir}/` : "") + `; key ${ref.key}`);
+  const hooks = { clock, onProgress: progressReporter(err, clock, "sweep"), cache, solver, onWarning: warn, shouldCancel: () => ctx.stopReason() !== null };
+  try {
+    if (args.options.has("reference-only")) {
+      const plan = planSweep(built, def);
+      for (const w of plan.warnings) warn(w);
+      const ref = referenceRun(built, plan.reference, cache, new StudyTracker(hooks, 2), solver);
+      out(`Reference ${ref.label} at Δt = ${fmt(ref.dt, "s")} (${ref.steps} steps) ready` + (cache instanceof DiskReferenceCache ? ` in ${cache.dir}/` : "") + `; key ${ref.key}`);
+      return 0;
+    }
+    if (shard) {
+      const part = runSweep(built, def, { ...hooks, shard });
+      out(`slice ${shard.index}/${shard.count}: ${part.items.length} of ${part.nItems} runs`);
+      printSweep(part.rows, out);
+      writeJson(json!, part);
+      if (csv) writeText(csv, sweepCsv(part.rows), "--csv");
+      return 0;
+    }
+    const result = runSweep(built, def, hooks);
+    printSweep(result.rows, out, result);
+    if (json) writeJson(json, result);
+    if (csv) writeText(csv, sweepCsv(result.rows), "--csv");
     return 0;
+  } catch (e) {
+    if (!isCancellation(e)) throw e;
+    // stopped: the rows that finished, marked interrupted; a cut-short reference is not kept
+    const stop = ctx.stopReason() ?? "SIGINT";
+    const partial = e instanceof StudyInterrupted ? e.partial as InterruptedSweep : undefined;
+    if (partial) {
+      printSweep(partial.rows, out);
+      if (json) writeJson(json, { ...partial, interruptedBy: stop });
+      if (csv) writeText(csv, sweepCsv(partial.rows), "--csv");
+    }
+    const finished = e instanceof StudyInterrupted ? `with ${e.done} of ${e.total} runs finished` : "before the reference run finished";
+    err(`stepwell sweep: interrupted (${stop}) ${finished}${json && partial ? `; ${json} holds those` : ""}`);
+    return STOP_EXIT_CODES[stop];
   }
-  if (shard) {
-    const part = runSweep(built, def, { ...hooks, shard });
-    out(`slice ${shard.index}/${shard.count}: ${part.items.length} of ${part.nItems} runs`);
-    printSweep(part.rows, out);
-    writeJson(json!, part);
-    if (csv) writeText(csv, sweepCsv(part.rows), "--csv");
-    return 0;
-  }
-  const result = runSweep(built, def, hooks);
-  printSweep(result.rows, out, result);
-  if (json) writeJson(json, result);
-  if (csv) writeText(csv, sweepCsv(result.rows), "--csv");
-  return 0;
 }

@@ -30,8 +30,9 @@ export interface AssessOptions extends StudyHooks {
   stability?: StabilityOptions;
   /** Length of the conservation and cost runs [s] (default: the scenario's duration). */
   duration?: number;
-  /** Reference cache of the order sweep. */
+  /** Reference cache of the order sweep, and the solver identity in its keys. */
   cache?: ReferenceCache;
+  solver?: string;
 }
 
 export interface AssessReport {
@@ -74,7 +75,7 @@ export function assess(built: BuiltScenario, config: StepperConfig, o: AssessOpt
   const factors = o.orderDtFactors ?? [0.4, 0.2, 0.1, 0.05];
   const sweep = runSweep(o.orderScenario, {
     steppers: [{ ...config, label: def.name }], dtFactors: factors, duration: o.orderDuration ?? 1200, field: "stepper",
-  }, { clock: o.clock, onProgress: phase(0, 0.25, "order"), shouldCancel: o.shouldCancel, cache: o.cache });
+  }, { clock: o.clock, onProgress: phase(0, 0.25, "order"), shouldCancel: o.shouldCancel, cache: o.cache, solver: o.solver });
   const fit = sweep.orders[def.name];
   const points = sweep.rows.map((r) => ({ dt: r.dt, error: r.error.thickness, status: r.status }));
   const observed = fit && fit.order !== null && Number.isFinite(fit.order) ? fit.order : null;
@@ -93,12 +94,14 @@ export function assess(built: BuiltScenario, config: StepperConfig, o: AssessOpt
   const dt = 0.8 * stab.maxStableDt;
   const steps = Math.max(10, Math.round(duration / dt));
   const run = new Run(built, { ...config, dt } as StepperSpec);
-  const r = execute(run, { steps, clock: o.clock, onProgress: ({ fraction }) => { phase(0.75, 0.15, "conservation")({ fraction, done: 0, total: 1, item: `${def.name} Δt = ${sig(dt)} s` }); } });
+  const stop = () => o.shouldCancel?.() === true;
+  const r = execute(run, { steps, chunk: 1, clock: o.clock, onProgress: ({ fraction }) => { phase(0.75, 0.15, "conservation")({ fraction, done: 0, total: 1, item: `${def.name} Δt = ${sig(dt)} s` }); return !stop(); } });
   tracker.checkpoint();
   const limit = run.rk4DtLimit();
   const rk4Dt = 0.95 * limit;
   const rk4Steps = Math.max(10, Math.min(Math.round((r.simulatedSeconds || duration) / rk4Dt), 20000));
-  const rk4 = execute(new Run(built, { method: "rk4", dt: rk4Dt }), { steps: rk4Steps, clock: o.clock, onProgress: ({ fraction }) => { phase(0.9, 0.1, "RK4 cost")({ fraction, done: 0, total: 1, item: `rk4 Δt = ${sig(rk4Dt)} s` }); } });
+  const rk4 = execute(new Run(built, { method: "rk4", dt: rk4Dt }), { steps: rk4Steps, chunk: 1, clock: o.clock, onProgress: ({ fraction }) => { phase(0.9, 0.1, "RK4 cost")({ fraction, done: 0, total: 1, item: `rk4 Δt = ${sig(rk4Dt)} s` }); return !stop(); } });
+  tracker.checkpoint();
   hooks.onProgress?.({ fraction: 1, done: 1, total: 1, item: "done" });
 
   const perDay = (x: RunResult) => (x.simulatedSeconds > 0 ? (x.wallSeconds * 86400) / x.simulatedSeconds : NaN);

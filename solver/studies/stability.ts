@@ -5,7 +5,7 @@ import type { BuiltScenario } from "../scenario/build.js";
 import type { StepperSpec } from "../scenario/schema.js";
 import { definitionOf } from "../time/registry.js";
 import { seededRandom } from "../mesh/hexLattice.js";
-import { defaultLabel, StudyTracker, type StudyHooks } from "./common.js";
+import { advanceSteps, defaultLabel, isCancellation, StudyInterrupted, StudyTracker, type StudyHooks } from "./common.js";
 import { contentHash } from "./hash.js";
 import { physicsContent } from "./reference.js";
 import { checkParts, shardItems, type PartHeader, type Shard } from "./shard.js";
@@ -127,11 +127,12 @@ export class EnergyScale {
     }
   }
 
-  /** S for a trial that ends at time t. */
-  at(t: number): number {
+  /** S for a trial that ends at time t (throws a cancellation if the tracker asks to stop while the base run advances). */
+  at(t: number, tracker?: StudyTracker): number {
     const b = this.base;
     if (b) {
       while (b.time < t * (1 - 1e-12) && !this.baseFailed) {
+        tracker?.checkpoint();
         if (!b.advance(1)) { this.baseFailed = true; break; }
         const e = b.budget().energy;
         if (e > this.maxE) this.maxE = e;
@@ -145,17 +146,17 @@ const pretty = (v: number, d = 3) => (Math.abs(v) >= 1e4 || (v !== 0 && Math.abs
 
 /** One trial: run `spec` at Δt for the simulated length and judge it. The run is reset first. */
 export function stabilityTrial(run: Run, scale: EnergyScale, config: StepperConfig, dt: number, o: ResolvedStabilityOptions,
-  within?: (fraction: number) => void): StabilityTrial {
+  within?: (fraction: number) => void, tracker?: StudyTracker): StabilityTrial {
   run.setStepper({ ...config, dt } as StepperSpec, "--method");
   run.reset();
   const limit = run.rk4DtLimit();
   const steps = Math.max(Math.ceil(o.duration / dt - 1e-9), o.minSteps);
-  const S = scale.at(steps * dt);
+  const S = scale.at(steps * dt, tracker);
   const chunk = Math.max(1, Math.ceil(steps / 20));
   let maxE = run.budget().energy;
   const base = { dt, ratioToRk4: dt / limit };
   while (run.steps < steps) {
-    const ok = run.advance(Math.min(chunk, steps - run.steps));
+    const ok = advanceSteps(run, Math.min(chunk, steps - run.steps), tracker);
     if (!ok) {
       const u = run.unstable!;
       return { ...base, outcome: "unstable", reason: `step ${u.step} (t = ${pretty(u.time)} s): ${u.reason}`, steps: run.steps, simulatedSeconds: run.time, energyGrowth: null };
@@ -197,7 +198,7 @@ export function stabilitySearch(run: Run, scale: EnergyScale, config: StepperCon
   const trial = (dt: number): boolean => {
     tracker?.checkpoint();
     tracker?.report(`${label} Δt = ${pretty(dt)} s`);
-    const t = stabilityTrial(run, scale, config, dt, o, (f) => tracker?.report(`${label} Δt = ${pretty(dt)} s`, f));
+    const t = stabilityTrial(run, scale, config, dt, o, (f) => tracker?.report(`${label} Δt = ${pretty(dt)} s`, f), tracker);
     trials.push(t);
     if (tracker) tracker.done++;
     return t.outcome === "stable";
@@ -251,7 +252,11 @@ export function perturbedScenario(built: BuiltScenario, amplitude: number, seed 
   return { ...built, initial };
 }
 
-/** Stability searches for several steppers on one scenario, sharing the run and the energy scale. */
+/**
+ * Stability searches for several steppers on one scenario, sharing the run and the energy scale. Stopped through
+ * the hooks, it throws `StudyInterrupted` whose `partial` holds the searches that finished (a search cut short
+ * is left out: its bracket is not a result).
+ */
 export function stabilityStudy(original: BuiltScenario, configs: readonly StepperConfig[], options: StabilityOptions = {},
   hooks: StudyHooks = {}, field = "--method"): StabilityResult[] {
   if (!configs.length) throw new SolverError("bad-input", "--method: give at least one method", "--method");
@@ -263,10 +268,15 @@ export function stabilityStudy(original: BuiltScenario, configs: readonly Steppe
   const scale = new EnergyScale(built);
   const tracker = new StudyTracker(hooks, configs.length * expectedTrials(o));
   const out: StabilityResult[] = [];
-  configs.forEach((c, i) => {
-    out.push(stabilitySearch(run, scale, c, o, tracker));
-    tracker.total = Math.max(tracker.done + (configs.length - i - 1) * expectedTrials(o), tracker.done);
-  });
+  try {
+    configs.forEach((c, i) => {
+      out.push(stabilitySearch(run, scale, c, o, tracker));
+      tracker.total = Math.max(tracker.done + (configs.length - i - 1) * expectedTrials(o), tracker.done);
+    });
+  } catch (e) {
+    if (isCancellation(e)) throw new StudyInterrupted(out, out.length, configs.length);
+    throw e;
+  }
   tracker.report("done");
   return out;
 }
@@ -295,8 +305,17 @@ export function runStability(built: BuiltScenario, configs: readonly StepperConf
   if (!o.shard) return stabilityStudy(built, configs, options, o, field);
   const items = shardItems(configs.length, o.shard);
   const study = contentHash("stepwell-stability-v1", physicsContent(built), configs, resolved, built.initial);
-  const results = items.length ? stabilityStudy(built, items.map((k) => configs[k]), options, o, field) : [];
-  return { kind: "stepwell-stability-part", version: 1, study, shard: o.shard, nItems: configs.length, items, results };
+  const header = { kind: "stepwell-stability-part" as const, version: 1 as const, study, shard: o.shard, nItems: configs.length };
+  let results: StabilityResult[];
+  try {
+    results = items.length ? stabilityStudy(built, items.map((k) => configs[k]), options, o, field) : [];
+  } catch (e) {
+    if (!(e instanceof StudyInterrupted)) throw e;
+    const done = e.partial as StabilityResult[];
+    // an interrupted slice records only the items it finished and is marked so that `merge` refuses it
+    throw new StudyInterrupted<StabilityPart>({ ...header, status: "interrupted", items: items.slice(0, done.length), results: done }, done.length, items.length);
+  }
+  return { ...header, items, results };
 }
 
 /** Join stability slices into the unsharded list of results (in the order the steppers were given). */
