@@ -254,8 +254,10 @@ describe("paths and files", () => {
     mkdirSync(d, { recursive: true });
     const file = join(d, "steppers.json");
     writeFileSync(file, JSON.stringify([{ method: "rk4", module: "./mine.mjs" }, { method: "rk4", module: "lib/other.ts", label: "b" }, { method: "ssprk3", module: "some-package" }]));
-    const s = readSteppersFile(file);
+    // readSteppersFile then looks each module up among the loaded ones (tests/userModules.test.ts runs that path)
+    const s = resolvePathsInFile(JSON.parse(readFileSync(file, "utf8")) as { module: string }[], file);
     expect(s.map((x) => x.module)).toEqual([join(d, "mine.mjs"), join(d, "lib", "other.ts"), "some-package"]);
+    expect(() => readSteppersFile(file)).toThrow(/--steppers\[0\]\.module: stepper module file not found/);
     expect(resolvePathsInFile({ stepper: { module: "../up.ts" } }, file)).toEqual({ stepper: { module: join(dir, "up.ts") } });
   });
 });
