@@ -7,6 +7,9 @@ import { RunControls } from "./panels/RunControls.js";
 import { ScenarioPanel } from "./panels/ScenarioPanel.js";
 import { StepperPanel } from "./panels/StepperPanel.js";
 import { useSandbox } from "./useSandbox.js";
+// studies, exports and view tools (one block, kept apart)
+import { StudiesPanel } from "./studies/StudiesPanel.js";
+import "./studies/studies.css";
 
 type Tab = "stepper" | "scenario" | "modes";
 const TABS: { id: Tab; label: string }[] = [
@@ -102,6 +105,8 @@ export function App() {
           </div>
         </main>
       )}
+      {/* studies: stability search, convergence sweep and work-precision, in a pool of workers */}
+      {s && <StudiesPanel scenario={sb.currentScenario} scenarioName={s.scenario.name} />}
     </div>
   );
 }

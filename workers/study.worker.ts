@@ -1,0 +1,61 @@
+/**
+ * A study worker: one of the pool that runs the sandbox's studies (see studyPool.ts). A thin comlink adapter
+ * around studyWork.ts; progress inside an item goes back through a callback at most ten times a second, and
+ * every failure leaves as a plain WorkerFailure (comlink would keep only the message of a thrown Error).
+ */
+import { expose, transfer } from "comlink";
+import type { WorkerFailure } from "./protocol.js";
+import {
+  adoptReference, finishSweepStudy, planStability, planSweepStudy, stabilityItem, summarizeReference, sweepItem, sweepReference,
+  type ItemProgress, type ReferenceRecord, type ReferenceSummary, type StabilityRequest, type SweepPlan, type SweepRequest, type SweepRow,
+} from "./studyWork.js";
+import { parseSteppers } from "./studyWork.js";
+
+function failure(e: unknown): WorkerFailure {
+  if (e && typeof e === "object" && (e as { name?: string }).name === "SolverError") {
+    const s = e as { code: string; field?: string; message: string };
+    return { name: "SolverError", code: s.code, field: s.field, message: s.message };
+  }
+  return { name: "WorkerError", code: "internal", message: e instanceof Error ? e.message : String(e) };
+}
+
+function guarded<A extends unknown[], R>(f: (...a: A) => R): (...a: A) => R {
+  return (...a: A) => {
+    try {
+      return f(...a);
+    } catch (e) {
+      throw failure(e);
+    }
+  };
+}
+
+/** Forward progress at most every 100 ms (each call is a message to the page). */
+function throttled(f?: ItemProgress): ItemProgress | undefined {
+  if (!f) return undefined;
+  let last = -Infinity;
+  return (fraction, item) => {
+    const now = performance.now();
+    if (now - last < 100 && fraction < 1) return;
+    last = now;
+    void f(fraction, item);
+  };
+}
+
+const api = {
+  parseSteppers: guarded((text: string) => parseSteppers(text)),
+  planStability: guarded((req: StabilityRequest) => planStability(req)),
+  stabilityItem: guarded((req: StabilityRequest, k: number, onItem?: ItemProgress) => stabilityItem(req, k, throttled(onItem))),
+  planSweep: guarded((req: SweepRequest) => planSweepStudy(req)),
+  /** The reference run; its state is moved, not copied, to the page (which hands it to the other workers). */
+  sweepReference: guarded((req: SweepRequest, plan: SweepPlan, onItem?: ItemProgress): { record: ReferenceRecord; summary: ReferenceSummary } => {
+    const record = sweepReference(req, plan, throttled(onItem));
+    const copy = { ...record, state: Float64Array.from(record.state) };
+    return transfer({ record: copy, summary: summarizeReference(record) }, [copy.state.buffer]);
+  }),
+  adoptReference: guarded((record: ReferenceRecord) => { adoptReference(record); }),
+  sweepItem: guarded((req: SweepRequest, plan: SweepPlan, k: number, onItem?: ItemProgress) => sweepItem(req, plan, k, throttled(onItem))),
+  finishSweep: guarded((plan: SweepPlan, reference: ReferenceSummary, rows: SweepRow[]) => finishSweepStudy(plan, reference, rows)),
+};
+
+export type StudyApi = typeof api;
+expose(api);

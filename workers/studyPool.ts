@@ -1,0 +1,216 @@
+/**
+ * A pool of study workers, one per core (navigator.hardwareConcurrency), for the sandbox's studies. The work
+ * items of a study are independent (a stability search per stepper; a sweep run per stepper and Δt after one
+ * shared reference run), so every idle worker takes the next item, most expensive first. Progress is the share
+ * of the work done, weighted by each item's steps; a stop ends every worker at once (a worker inside a time step
+ * cannot read messages) and keeps what had finished. Fresh workers are started for the next study.
+ */
+import { proxy, wrap, type Remote } from "comlink";
+import type { StudyApi } from "./study.worker.js";
+import type { WorkerFailure } from "./protocol.js";
+import type {
+  ReferenceSummary, StabilityRequest, StabilityResult, SweepPlan, SweepRequest, SweepResult, SweepRow,
+} from "./studyWork.js";
+
+export type { StabilityRequest, StabilityResult, SweepPlan, SweepRequest, SweepResult, SweepRow, ReferenceSummary };
+
+export interface PoolProgress {
+  /** Share of the work done, 0…1. */
+  fraction: number;
+  /** Work items finished and planned (a sweep's reference run counts as one). */
+  done: number;
+  total: number;
+  /** Wall seconds since the start, and the estimate of what is left (NaN until there is a basis). */
+  elapsed: number;
+  remaining: number;
+  /** What each busy worker runs now. */
+  running: string[];
+  workers: number;
+}
+
+export type StudyOutcome<R, P> =
+  | { status: "completed"; result: R; wallSeconds: number; workers: number }
+  | { status: "cancelled"; partial: P; done: number; total: number; wallSeconds: number; workers: number };
+
+export interface PartialSweep { plan: SweepPlan | null; reference: ReferenceSummary | null; rows: (SweepRow | undefined)[] }
+export type PartialStability = (StabilityResult | undefined)[];
+
+const CANCELLED: WorkerFailure = { name: "WorkerError", code: "cancelled", message: "study cancelled" };
+export const isCancelled = (e: unknown) => !!e && typeof e === "object" && (e as WorkerFailure).code === "cancelled";
+
+interface Slot { worker: Worker; remote: Remote<StudyApi> }
+
+export function poolSize(): number {
+  const n = typeof navigator !== "undefined" ? navigator.hardwareConcurrency : 1;
+  return Math.max(1, Math.min(16, Number.isFinite(n) && n > 0 ? Math.floor(n) : 1));
+}
+
+export class StudyPool {
+  private slots: Slot[] = [];
+  private stop: (() => void) | null = null;
+  private stopped: Promise<never> = new Promise<never>(() => undefined);
+  busy = false;
+
+  constructor(readonly size = poolSize()) {}
+
+  private ensure(n: number): Slot[] {
+    while (this.slots.length < n) {
+      const worker = new Worker(new URL("./study.worker.ts", import.meta.url), { type: "module", name: `stepwell-study-${this.slots.length + 1}` });
+      this.slots.push({ worker, remote: wrap<StudyApi>(worker) });
+    }
+    return this.slots.slice(0, n);
+  }
+
+  /** The steppers of a study from the method-list syntax, parsed by the solver's own parser (errors name the field). */
+  async parseSteppers(text: string): Promise<StabilityRequest["steppers"]> {
+    const slot = this.ensure(1)[0];
+    return slot.remote.parseSteppers(text);
+  }
+
+  /** Stop the study in progress: every worker ends now; the study resolves as cancelled with what finished. */
+  cancel(): void {
+    this.stop?.();
+  }
+
+  dispose(): void {
+    this.cancel();
+    for (const s of this.slots) s.worker.terminate();
+    this.slots = [];
+  }
+
+  private begin(): void {
+    if (this.busy) throw { name: "WorkerError", code: "busy", message: "a study is already running" } satisfies WorkerFailure;
+    this.busy = true;
+    this.stopped = new Promise<never>((_, reject) => {
+      this.stop = () => {
+        for (const s of this.slots) s.worker.terminate();
+        this.slots = [];
+        reject(CANCELLED);
+      };
+    });
+    this.stopped.catch(() => undefined);
+  }
+
+  private end(): void {
+    this.busy = false;
+    this.stop = null;
+  }
+
+  /** Race a call against a stop and against the worker's death. */
+  private call<T>(slot: Slot, f: (r: Remote<StudyApi>) => Promise<T>): Promise<T> {
+    const died = new Promise<never>((_, reject) => {
+      slot.worker.addEventListener("error", (ev) => {
+        ev.preventDefault();
+        reject({ name: "WorkerError", code: "worker-died", message: `a study worker stopped unexpectedly (${ev.message || "worker error"})` } satisfies WorkerFailure);
+      }, { once: true });
+    });
+    return Promise.race([f(slot.remote), this.stopped, died]);
+  }
+
+  /**
+   * Run items on `n` workers, each idle worker taking the next one in `order`; `job` gets a progress callback for
+   * the item's own fraction. Results land at their item index.
+   */
+  private async runItems<T>(slots: Slot[], order: number[], results: (T | undefined)[], job: (s: Slot, k: number, onItem: (f: number, what: string) => void) => Promise<T>,
+    onItem: (k: number, f: number, what: string) => void, onDone: (k: number) => void): Promise<void> {
+    let next = 0;
+    const loop = async (slot: Slot) => {
+      while (next < order.length) {
+        const k = order[next++];
+        results[k] = await this.call(slot, () => job(slot, k, (f, what) => onItem(k, f, what)));
+        onDone(k);
+      }
+    };
+    await Promise.all(slots.map(loop));
+  }
+
+  /** A progress tracker over weighted items. */
+  private tracker(weights: number[], onProgress: (p: PoolProgress) => void, workers: number) {
+    const t0 = performance.now();
+    const total = weights.reduce((a, b) => a + b, 0) || 1;
+    const within = new Map<number, { f: number; what: string }>();
+    let doneWeight = 0;
+    let done = 0;
+    let last = 0;
+    const emit = (force: boolean) => {
+      const now = performance.now();
+      if (!force && now - last < 100) return;
+      last = now;
+      let w = doneWeight;
+      for (const [k, v] of within) w += weights[k] * v.f;
+      const fraction = Math.min(1, w / total);
+      const elapsed = (now - t0) / 1000;
+      const remaining = fraction > 0.01 ? (elapsed * (1 - fraction)) / fraction : NaN;
+      onProgress({ fraction, done, total: weights.length, elapsed, remaining, running: [...within.values()].map((v) => v.what), workers });
+    };
+    return {
+      item: (k: number, f: number, what: string) => { within.set(k, { f: Math.min(1, Math.max(0, f)), what }); emit(false); },
+      done: (k: number) => { within.delete(k); doneWeight += weights[k]; done++; emit(true); },
+      start: () => emit(true),
+      seconds: () => (performance.now() - t0) / 1000,
+    };
+  }
+
+  /** Stability searches, one work item per stepper. */
+  async stability(req: StabilityRequest, onProgress: (p: PoolProgress) => void): Promise<StudyOutcome<StabilityResult[], PartialStability>> {
+    this.begin();
+    const results: PartialStability = new Array(req.steppers.length).fill(undefined);
+    const n = Math.min(this.size, Math.max(1, req.steppers.length));
+    const track = this.tracker(req.steppers.map(() => 1), onProgress, n);
+    try {
+      const slots = this.ensure(n);
+      await this.call(slots[0], (r) => r.planStability(req));
+      track.start();
+      await this.runItems(slots, req.steppers.map((_, k) => k), results,
+        (s, k, onItem) => s.remote.stabilityItem(req, k, proxy(onItem)), track.item, track.done);
+      return { status: "completed", result: results as StabilityResult[], wallSeconds: track.seconds(), workers: n };
+    } catch (e) {
+      if (isCancelled(e)) {
+        const done = results.filter((r) => r !== undefined).length;
+        return { status: "cancelled", partial: results, done, total: results.length, wallSeconds: track.seconds(), workers: n };
+      }
+      this.dispose();
+      throw e;
+    } finally {
+      this.end();
+    }
+  }
+
+  /** A convergence sweep: the reference run, then one work item per stepper and Δt, then the CLI's fits. */
+  async sweep(req: SweepRequest, onProgress: (p: PoolProgress) => void): Promise<StudyOutcome<SweepResult, PartialSweep>> {
+    this.begin();
+    const partial: PartialSweep = { plan: null, reference: null, rows: [] };
+    let n = 1;
+    const t0 = performance.now();
+    try {
+      const first = this.ensure(1)[0];
+      const plan = await this.call(first, (r) => r.planSweep(req));
+      partial.plan = plan;
+      partial.rows = new Array(plan.nItems).fill(undefined);
+      n = Math.min(this.size, plan.nItems);
+      const slots = this.ensure(n);
+      // weights: steps of each run; the reference (fine run + its check at twice the Δt) is item −1, shown first
+      const weights = [...Array.from({ length: plan.nItems }, (_, k) => plan.dts[k % plan.dts.length].steps), 1.5 * plan.reference.steps];
+      const REF = plan.nItems;
+      const track = this.tracker(weights, onProgress, n);
+      track.start();
+      const { record, summary } = await this.call(first, (r) => r.sweepReference(req, plan, proxy((f: number, what: string) => track.item(REF, f, what))));
+      track.done(REF);
+      partial.reference = summary;
+      await Promise.all(slots.slice(1).map((s) => this.call(s, (r) => r.adoptReference(record))));
+      const order = Array.from({ length: plan.nItems }, (_, k) => k).sort((a, b) => weights[b] - weights[a] || a - b);
+      await this.runItems(slots, order, partial.rows, (s, k, onItem) => s.remote.sweepItem(req, plan, k, proxy(onItem)), track.item, track.done);
+      const result = await this.call(first, (r) => r.finishSweep(plan, summary, partial.rows as SweepRow[]));
+      return { status: "completed", result, wallSeconds: (performance.now() - t0) / 1000, workers: n };
+    } catch (e) {
+      if (isCancelled(e)) {
+        const done = partial.rows.filter((r) => r !== undefined).length;
+        return { status: "cancelled", partial, done, total: partial.rows.length, wallSeconds: (performance.now() - t0) / 1000, workers: n };
+      }
+      this.dispose();
+      throw e;
+    } finally {
+      this.end();
+    }
+  }
+}
