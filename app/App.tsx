@@ -10,6 +10,7 @@ import { useSandbox } from "./useSandbox.js";
 // studies, exports and view tools (one block, kept apart)
 import { StudiesPanel } from "./studies/StudiesPanel.js";
 import "./studies/studies.css";
+import { useViewTools, ViewTools } from "./inspect/ViewTools.js";
 
 type Tab = "stepper" | "scenario" | "modes";
 const TABS: { id: Tab; label: string }[] = [
@@ -17,6 +18,8 @@ const TABS: { id: Tab; label: string }[] = [
   { id: "scenario", label: "Scenario" },
   { id: "modes", label: "Modes & limits" },
 ];
+
+const NO_FIELDS: never[] = [];
 
 function isTyping(t: EventTarget | null): boolean {
   const el = t as HTMLElement | null;
@@ -27,6 +30,8 @@ export function App() {
   const sb = useSandbox();
   const [tab, setTab] = useState<Tab>("stepper");
   const [logScale, setLogScale] = useState(true);
+  // view tools: colour scale fixed or following, pause-and-inspect, run-view exports, shortcut list
+  const vt = useViewTools(sb, sb.setup?.fields ?? NO_FIELDS);
 
   // keyboard: space runs/pauses, s steps (not while typing in a field)
   useEffect(() => {
@@ -78,7 +83,9 @@ export function App() {
             </div>
             <FieldMap outlines={s.outlines} fields={s.fields} nLayers={s.description.nLayers} layerNames={layerNames}
               view={sb.view} onView={sb.setView} getSnapshot={sb.getSnapshot} snapshotVersion={sb.snapshotVersion} subscribeSnapshot={sb.subscribeSnapshot}
-              unstable={sb.unstable} maxWidth={620} maxHeight={480} />
+              unstable={sb.unstable} maxWidth={620} maxHeight={480}
+              colourRange={vt.colourRange} onPick={vt.onPick} pinned={vt.pinned} />
+            <ViewTools vt={vt} view={sb.view} running={sb.running} />
           </div>
           <div className="right">
             <DriftPlots samples={sb.history} layerNames={layerNames} logScale={logScale} onLogScale={setLogScale}

@@ -351,11 +351,15 @@ export function useSandbox() {
   }, []);
   const history = useMemo(() => historyRef.current, [historyVersion]);
 
+  // view tools: the inspector reads every field at one cell of the current state
+  const probe = useCallback((cell: number) => client().call((r) => r.probe(cell)), []);
+
   return {
     loading, setup, builtins, report, running, view, notices, unstable, rates, scenarioError, stepperError, shareUrl,
     snapshotVersion, history, getSnapshot, subscribeSnapshot,
     run, pause, toggle, stepOnce, reset, setView, applyStepper, applyScenario, importScenario, currentScenario, share,
     dismiss, hideShare: () => setShareUrl(""),
+    probe,
   };
 }
 

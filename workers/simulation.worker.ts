@@ -11,6 +11,7 @@ import { parseScenarioText, type StepperSpec } from "../solver/scenario/schema.j
 import { BUILTIN_SCENARIOS } from "../solver/scenario/builtins.js";
 import { listMethods } from "../solver/time/registry.js";
 import { optionChoices } from "../solver/time/optionChoices.js";
+import { probeCell } from "./probe.js";
 import type { ChunkReport, InitResult, MapView, MethodSummary, Snapshot, StepperInfo, WorkerFailure } from "./protocol.js";
 
 let run: Run | undefined;
@@ -139,6 +140,8 @@ const api = {
   /** The built-in scenarios as plain scenario-file objects. */
   builtins: guarded((): { name: string; description: string; scenario: unknown }[] =>
     BUILTIN_SCENARIOS.map((b) => ({ name: b.name, description: b.description, scenario: structuredClone(b) as unknown }))),
+  /** Inspector: every field at one cell of the current state. */
+  probe: guarded((cell: number) => probeCell(current(), work!, cell)),
   /** Development builds only: crash the worker outside any call, so the UI's restart path can be tested. */
   crashForTesting: () => {
     if (!import.meta.env.DEV) return false;

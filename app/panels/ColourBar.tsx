@@ -9,11 +9,13 @@ interface ColourBarProps {
   readonly unit: string;
   readonly label: string;
   readonly height: number;
+  /** The colours held at [lo, hi] instead of following the field. */
+  readonly fixed?: readonly [number, number] | null;
 }
 
 /** Vertical colour bar: the colour range with its end values, and the field's actual min and max. */
-export function ColourBar({ scale, min, max, unit, label, height }: ColourBarProps) {
-  const [lo, hi] = colourDomain(scale, min, max);
+export function ColourBar({ scale, min, max, unit, label, height, fixed }: ColourBarProps) {
+  const [lo, hi] = fixed ?? colourDomain(scale, min, max);
   const colour = scale === "diverging" ? divergingColour : sequentialColour;
   const stops = useMemo(() => Array.from({ length: 17 }, (_, i) => ({ off: `${(100 * i) / 16}%`, c: colour(1 - i / 16) })), [scale]);
   const id = `bar-${scale}`;
@@ -29,9 +31,10 @@ export function ColourBar({ scale, min, max, unit, label, height }: ColourBarPro
         </defs>
         <rect x={4} y={8} width={22} height={barH} fill={`url(#${id})`} stroke="#444" />
         <text x={32} y={14} className="tick">{fmt(hi)}</text>
-        {scale === "diverging" && <text x={32} y={8 + barH / 2 + 4} className="tick">0</text>}
+        {scale === "diverging" && !fixed && <text x={32} y={8 + barH / 2 + 4} className="tick">0</text>}
         <text x={32} y={8 + barH} className="tick">{fmt(lo)}</text>
       </svg>
+      <div className="bar-mode" data-testid="colour-mode">{fixed ? "fixed scale" : "follows the field"}</div>
       <div className="bar-range" data-testid="field-range">
         <div>max {fmt(max, 4)} {unit}</div>
         <div>min {fmt(min, 4)} {unit}</div>

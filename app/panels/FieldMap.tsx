@@ -20,14 +20,19 @@ interface FieldMapProps {
   readonly unstable: UnstableInfo | null;
   readonly maxWidth: number;
   readonly maxHeight: number;
+  /** Colour scale held at [lo, hi] (null or absent: it follows the field). */
+  readonly colourRange?: readonly [number, number] | null;
+  /** Click on a cell (the inspector), and the cell it keeps outlined. */
+  readonly onPick?: (cell: number) => void;
+  readonly pinned?: number | null;
 }
 
 interface Hover { cell: number; x: number; y: number; px: number; py: number }
 
 /** Per-cell colours into `cellColour`, then one pass over the pixel → cell raster. */
-function paint(img: ImageData, raster: MapRaster, snap: Snapshot, info: FieldInfo, cellColour: Uint32Array): void {
+function paint(img: ImageData, raster: MapRaster, snap: Snapshot, info: FieldInfo, cellColour: Uint32Array, fixed?: readonly [number, number] | null): void {
   const table = info.scale === "diverging" ? DIVERGING : SEQUENTIAL;
-  const [lo, hi] = colourDomain(info.scale, snap.min, snap.max);
+  const [lo, hi] = fixed ?? colourDomain(info.scale, snap.min, snap.max);
   const k = (PALETTE_SIZE - 1) / (hi - lo);
   const v = snap.values;
   for (let i = 0; i < v.length; i++) {
@@ -63,6 +68,8 @@ export const FieldMap = memo(function FieldMap(p: FieldMapProps) {
   const marked = p.unstable ? p.unstable.cell : -1;
   const markPath = useMemo(() => (marked >= 0 && marked < p.outlines.nCells ? cellPath(p.outlines, raster, marked) : null), [marked, raster, p.outlines]);
   const hoverPath = useMemo(() => (hover ? cellPath(p.outlines, raster, hover.cell) : null), [hover?.cell, raster, p.outlines]);
+  const pinned = p.pinned ?? -1;
+  const pinPath = useMemo(() => (pinned >= 0 && pinned < p.outlines.nCells ? cellPath(p.outlines, raster, pinned) : null), [pinned, raster, p.outlines]);
 
   // redraw once per display frame at most, whenever a snapshot, the marks or the geometry change
   const pending = useRef(0);
@@ -73,7 +80,7 @@ export const FieldMap = memo(function FieldMap(p: FieldMapProps) {
       if (!canvas || !snap || snap.values.length !== p.outlines.nCells) return;
       const t0 = performance.now();
       const ctx = canvas.getContext("2d")!;
-      paint(work.img, raster, snap, info, work.cellColour);
+      paint(work.img, raster, snap, info, work.cellColour, p.colourRange);
       ctx.putImageData(work.img, 0, 0);
       if (p.outlines.coast.length) {
         ctx.strokeStyle = "#2b2b2b";
@@ -84,6 +91,14 @@ export const FieldMap = memo(function FieldMap(p: FieldMapProps) {
         ctx.strokeStyle = "#000";
         ctx.lineWidth = 2 * dpr;
         ctx.stroke(hoverPath);
+      }
+      if (pinPath) {
+        ctx.strokeStyle = "#ffffff";
+        ctx.lineWidth = 4 * dpr;
+        ctx.stroke(pinPath);
+        ctx.strokeStyle = "#e05000";
+        ctx.lineWidth = 2.5 * dpr;
+        ctx.stroke(pinPath);
       }
       if (markPath) {
         ctx.fillStyle = "rgba(255,0,255,0.85)";
@@ -106,14 +121,17 @@ export const FieldMap = memo(function FieldMap(p: FieldMapProps) {
     pending.current = requestAnimationFrame(() => { pending.current = 0; drawRef.current(); });
   };
   useEffect(() => p.subscribeSnapshot(requestDraw), [p.subscribeSnapshot]);
-  useEffect(requestDraw, [raster, coast, hoverPath, markPath, info, work]);
+  useEffect(requestDraw, [raster, coast, hoverPath, markPath, info, work, pinPath, p.colourRange]);
   useEffect(() => () => { cancelAnimationFrame(pending.current); pending.current = 0; }, []);
 
-  const onMove = (ev: React.MouseEvent<HTMLCanvasElement>) => {
+  const cellAtEvent = (ev: React.MouseEvent<HTMLCanvasElement>) => {
     const r = ev.currentTarget.getBoundingClientRect();
     const cx = Math.floor(((ev.clientX - r.left) * raster.width) / r.width);
     const cy = Math.floor(((ev.clientY - r.top) * raster.height) / r.height);
-    const cell = cx >= 0 && cy >= 0 && cx < raster.width && cy < raster.height ? raster.cellAt[cy * raster.width + cx] : -1;
+    return { r, cell: cx >= 0 && cy >= 0 && cx < raster.width && cy < raster.height ? raster.cellAt[cy * raster.width + cx] : -1 };
+  };
+  const onMove = (ev: React.MouseEvent<HTMLCanvasElement>) => {
+    const { r, cell } = cellAtEvent(ev);
     if (cell < 0) { setHover(null); return; }
     setHover({ cell, x: p.outlines.cellX[cell], y: p.outlines.cellY[cell], px: ev.clientX - r.left, py: ev.clientY - r.top });
   };
@@ -144,7 +162,7 @@ export const FieldMap = memo(function FieldMap(p: FieldMapProps) {
         <div className="canvas-wrap" style={{ width: frame.width, height: frame.height }}>
           <canvas ref={canvasRef} width={raster.width} height={raster.height} style={{ width: frame.width, height: frame.height }} data-testid="map-canvas"
             data-cells={p.outlines.nCells} data-covered-cells={raster.coveredCells}
-            onMouseMove={onMove} onMouseLeave={() => setHover(null)} />
+            onMouseMove={onMove} onMouseLeave={() => setHover(null)} onClick={(ev) => { const { cell } = cellAtEvent(ev); if (cell >= 0 && p.onPick) p.onPick(cell); }} />
           {hover && (
             <div className="hover" data-testid="map-hover"
               style={{ left: Math.min(hover.px + 14, frame.width - 190), top: Math.max(hover.py - 56, 0) }}>
@@ -153,7 +171,7 @@ export const FieldMap = memo(function FieldMap(p: FieldMapProps) {
             </div>
           )}
         </div>
-        {snap && <ColourBar scale={info.scale} min={snap.min} max={snap.max} unit={info.unit} label={info.label} height={Math.min(frame.height, 360)} />}
+        {snap && <ColourBar scale={info.scale} min={snap.min} max={snap.max} unit={info.unit} label={info.label} height={Math.min(frame.height, 360)} fixed={p.colourRange} />}
       </div>
     </section>
   );

@@ -174,3 +174,86 @@ describe("studies in the page", () => {
     expect(errors).toEqual([]);
   });
 });
+
+describe("run view: pointer values, colour scale, inspector, exports, shortcuts", () => {
+  it("shows the cell value under the pointer with units and the position in km", async () => {
+    await loadLink({ ...tiny, name: "tiny-view", duration: 86400 }, "tiny-view");
+    const box = (await page.locator(byId("map-canvas")).boundingBox())!;
+    await page.mouse.move(box.x + box.width * 0.5, box.y + box.height * 0.5);
+    const hover = await page.locator(byId("map-hover")).innerText();
+    expect(hover).toMatch(/^-?[\d.e+-]+ m$/m);
+    expect(hover).toMatch(/x [\d.]+ km · y [\d.]+ km/);
+    await page.selectOption(byId("field-picker"), "speed");
+    await page.mouse.move(box.x + box.width * 0.4, box.y + box.height * 0.5);
+    await expect.poll(() => page.locator(byId("map-hover")).innerText()).toMatch(/ m\/s$/m);
+    await page.selectOption(byId("field-picker"), "surface");
+  });
+
+  it("the colour scale can be held fixed while the field changes, and follow it again (button and F key)", async () => {
+    expect(await text("colour-mode")).toBe("follows the field");
+    await page.click(byId("colour-toggle"));
+    expect(await text("colour-mode")).toBe("fixed scale");
+    const lo = await page.inputValue(byId("colour-lo"));
+    const hi = await page.inputValue(byId("colour-hi"));
+    expect(Number(hi)).toBeGreaterThan(Number(lo));
+    // the bump spreads out: the field's range changes, the held colours do not
+    const range0 = await text("field-range");
+    await page.click(byId("run-button"));
+    await expect.poll(() => text("field-range"), { timeout: 30_000 }).not.toBe(range0);
+    await page.click(byId("run-button"));
+    expect(await page.inputValue(byId("colour-lo"))).toBe(lo);
+    expect(await page.inputValue(byId("colour-hi"))).toBe(hi);
+    await page.fill(byId("colour-hi"), String(Number(hi) * 2));
+    await expect.poll(() => page.locator(`${byId("colour-bar")} svg`).getAttribute("aria-label")).toContain(String(Number(hi) * 2));
+    await page.locator(byId("field-map")).screenshot({ path: shot("23-colour-fixed") });
+    await page.click(byId("scenario-name")); // out of the number field: keys typed there are the field's
+    await page.keyboard.press("f");
+    expect(await text("colour-mode")).toBe("follows the field");
+    await page.keyboard.press("f");
+    expect(await text("colour-mode")).toBe("fixed scale");
+    await page.click(byId("colour-toggle"));
+  });
+
+  it("pause-and-inspect stops the run and lists every field at a clicked cell with units", async () => {
+    await page.click(byId("run-button"));
+    await expect.poll(() => text("run-button")).toBe("Pause");
+    await page.keyboard.press("i");
+    await expect.poll(() => text("run-button")).toBe("Run");
+    await expect.poll(() => text("inspector")).toContain("Click a cell");
+    const box = (await page.locator(byId("map-canvas")).boundingBox())!;
+    await page.mouse.click(box.x + box.width * 0.5, box.y + box.height * 0.5);
+    await expect.poll(() => text("inspector-where"), { timeout: 10_000 }).toMatch(/^cell \d+ at x [\d.]+ km, y [\d.]+ km · step \d+/);
+    expect(await text("inspect-surface")).toMatch(/Free-surface height-?[\d.e+-]+ m$/);
+    expect(await text("inspect-thickness-1")).toMatch(/layer 1[\d.e+-]+ m$/);
+    expect(await text("inspect-speed-0")).toMatch(/ m\/s$/);
+    // the thicknesses add up to the nominal depth plus the surface height (two flat layers, no topography)
+    const num = async (id: string) => Number((await text(id)).replace(/^.*?layer \d|^Free-surface height/, "").replace(/ m$/, ""));
+    const h = (await num("inspect-thickness-0")) + (await num("inspect-thickness-1"));
+    expect(h - 4000).toBeCloseTo(await num("inspect-surface"), 2); // 8 significant digits shown
+    await page.screenshot({ path: shot("24-inspect") });
+    await page.keyboard.press("Escape");
+    await expect.poll(() => page.locator(byId("inspector")).count()).toBe(0);
+  });
+
+  it("lists the keyboard shortcuts in the page; ? hides and shows them", async () => {
+    const list = await text("shortcut-list");
+    for (const k of ["Space", "run or pause", "inspect", "colour scale"]) expect(list).toContain(k);
+    await page.keyboard.press("?");
+    await expect.poll(() => page.locator(byId("shortcut-list")).count()).toBe(0);
+    expect(await text("shortcut-hint")).toContain("?");
+    await page.keyboard.press("?");
+    await page.locator(byId("shortcut-list")).waitFor();
+    await page.locator(byId("view-tools")).screenshot({ path: shot("25-view-tools") });
+  });
+
+  it("exports the map as PNG at its canvas size and the plots beside it as SVG", async () => {
+    const png = await downloaded("export-map-png");
+    expect(png.name).toBe("map-surface.png");
+    const c = page.locator(byId("map-canvas"));
+    expect(pngSize(png.body)).toEqual({ width: Number(await c.getAttribute("width")), height: Number(await c.getAttribute("height")) });
+    const svg = (await downloaded("export-mass-plot-svg")).body.toString("utf8");
+    expect(svg).toMatch(/^<\?xml[^>]*>\s*<svg[^>]*xmlns="http:\/\/www.w3.org\/2000\/svg"/);
+    expect(svg).toContain("simulated days");
+    expect(errors).toEqual([]);
+  });
+});
