@@ -13,6 +13,10 @@ import { SolverError } from "../errors.js";
  * `decodeValues` read such files back (restarts).
  */
 
+// TextEncoder and TextDecoder exist in Node and in workers; the solver's DOM-free lib leaves their types out.
+declare const TextEncoder: { new (): { encode(s: string): Uint8Array } };
+declare const TextDecoder: { new (): { decode(b: Uint8Array): string } };
+
 export type NcNumericType = "byte" | "short" | "int" | "float" | "double";
 export type NcType = NcNumericType | "char";
 
