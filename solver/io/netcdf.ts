@@ -91,7 +91,7 @@ function fail(field: string, message: string): never {
   throw new SolverError("bad-input", `${field}: ${message}`, field);
 }
 
-const pad4 = (n: number) => (n + 3) & ~3;
+const pad4 = (n: number) => Math.ceil(n / 4) * 4; // not bitwise: sizes may pass 2^31
 const utf8 = new TextEncoder();
 
 function checkName(name: string, field: string): void {
