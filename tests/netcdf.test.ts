@@ -78,7 +78,7 @@ describe("NetCDF-3 64-bit offset writer", () => {
     const layout = planFile(schema);
     const bytes = encodeFile(layout, {
       grid: [1, 2, 3, 4, 5, 6], ids: [7, 8, 9], small: [-3, 0, 3], flags: [1, -1, 0], label: "abc", single: [0.5, -0.25],
-    }, [0, 1, 2].map((i) => ({ time: [i * 60], field: [i, i + 0.1, i + 0.2], count: [i, -i] })));
+    }, [0, 1, 2].map((i) => ({ time: [i * 60], field: [i, i + 0.1, i + 0.2], count: [i, -2 * i] })));
     const r = new NetCDFReader(bytes);
     expect(r.version).toBe("64-bit offset format");
     expect(r.dimensions).toEqual([{ name: "t", size: 0 }, { name: "x", size: 3 }, { name: "y", size: 2 }, { name: "len", size: 5 }]);
@@ -98,7 +98,7 @@ describe("NetCDF-3 64-bit offset writer", () => {
     expect(num(r, "single")).toEqual([0.5, -0.25]);
     expect(num(r, "time")).toEqual([0, 60, 120]);
     expect(r.getDataVariable("field")).toEqual([[0, 0.1, 0.2], [1, 1.1, 1.2], [2, 2.1, 2.2]]);
-    expect(r.getDataVariable("count")).toEqual([[0, -0], [1, -1], [2, -2]]);
+    expect(r.getDataVariable("count")).toEqual([[0, 0], [1, -2], [2, -4]]);
     // our own reader agrees
     const h = parseHeader(bytes);
     expect(h.version).toBe(2);
