@@ -47,7 +47,7 @@ export function runCommand(args: ParsedArgs, out: (s: string) => void): number {
   let result: RunResult;
   try {
     // with --netcdf, progress chunks end on every output time and every drift sample (the steps themselves are the same)
-    result = execute(run, { steps: startStep + total, clock: () => performance.now() / 1000, chunk: output ? chunkFor(output.everySteps, sampleSteps) : undefined, onProgress });
+    result = execute(run, { steps: total, clock: () => performance.now() / 1000, chunk: output ? chunkFor(output.everySteps, sampleSteps) : undefined, onProgress });
     output?.finish(); // the final state, unless it was just written
   } finally {
     output?.close();
