@@ -55,7 +55,9 @@ function writeScenario(name: string, s: unknown): string {
   return f;
 }
 
-const attr = (r: NetCDFReader, v: string, a: string) => r.variables.find((x) => x.name === v)?.attributes.find((x) => x.name === a)?.value;
+// netcdfjs types a variable's attributes as an empty tuple; they are { name, type, value } objects
+const attr = (r: NetCDFReader, v: string, a: string) =>
+  (r.variables.find((x) => x.name === v)?.attributes as { name: string; value: unknown }[] | undefined)?.find((x) => x.name === a)?.value;
 const num = (r: NetCDFReader, v: string) => (r.getDataVariable(v) as number[]).flat() as number[];
 
 describe("NetCDF-3 64-bit offset writer", () => {
