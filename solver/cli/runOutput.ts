@@ -106,7 +106,7 @@ export class RunOutput {
     const s = run.built.scenario;
     const every = everyOpt ?? s.outputInterval ?? s.duration / 24;
     const writer = new RunFileWriter(run, {
-      version: stepwellVersion(), every,
+      version: stepwellVersion(), every: Math.max(1, Math.round(every / run.dt)) * run.dt, // the interval really used: whole steps
       restartedFrom: restart ? { file: basename(restart.file), time: restart.time, step: restart.step } : undefined,
     });
     const everySteps = Math.max(1, Math.round(every / run.dt));
