@@ -1,6 +1,6 @@
-import { describe, expect, it } from "vitest";
+import { afterAll, describe, expect, it } from "vitest";
 import { spawn } from "node:child_process";
-import { existsSync, mkdtempSync, openSync, readFileSync, readSync, closeSync, statSync, writeFileSync } from "node:fs";
+import { existsSync, mkdtempSync, openSync, readFileSync, readSync, closeSync, rmSync, statSync, writeFileSync } from "node:fs";
 import { tmpdir } from "node:os";
 import { join } from "node:path";
 import { NetCDFReader } from "netcdfjs";
@@ -25,6 +25,7 @@ async function cli(...argv: string[]): Promise<{ code: number; out: string; err:
 }
 
 const dir = mkdtempSync(join(tmpdir(), "stepwell-nc-"));
+afterAll(() => rmSync(dir, { recursive: true, force: true }));
 const pkgVersion = (JSON.parse(readFileSync(new URL("../package.json", import.meta.url), "utf8")) as { version: string }).version;
 
 export const smallPeriodic = {
@@ -301,10 +302,11 @@ describe("run --netcdf: a UGRID 1.0 / CF 1.8 file", () => {
   });
 
   it("a run killed mid-way leaves a readable file holding every completed output time", async () => {
-    const sf = writeScenario("kill-scen", { ...smallPeriodic, mesh: { ...smallPeriodic.mesh, cellsX: 16, cellsY: 16 } });
+    const sf = writeScenario("kill-scen", { ...smallPeriodic, mesh: { ...smallPeriodic.mesh, cellsX: 32, cellsY: 32 } });
     const nc = join(dir, "killed.nc");
-    const tsx = join(process.cwd(), "node_modules", ".bin", "tsx");
-    const child = spawn(tsx, ["solver/cli/main.ts", "run", sf, "--steps", "200000", "--every", "60", "--netcdf", nc, "--quiet"], { stdio: "ignore" });
+    // node itself with tsx as a loader (the tsx launcher would leave its node child running when killed);
+    // at most 1000 output times of ~110 kB, should the kill come late
+    const child = spawn(process.execPath, ["--import", "tsx", "solver/cli/main.ts", "run", sf, "--steps", "5000", "--every", "300", "--netcdf", nc, "--quiet"], { stdio: "ignore" });
     const numrecs = () => {
       if (!existsSync(nc)) return 0;
       const fd = openSync(nc, "r");
@@ -322,7 +324,7 @@ describe("run --netcdf: a UGRID 1.0 / CF 1.8 file", () => {
     const n = f.recordDimension.length;
     expect(n).toBeGreaterThanOrEqual(5);
     const times = num(f, "time");
-    expect(times).toEqual(Array.from({ length: n }, (_, i) => 60 * i));
+    expect(times).toEqual(Array.from({ length: n }, (_, i) => 300 * i));
     // every record is complete: its layer volumes are the initial ones (volume is conserved to round-off)
     const vol = f.getDataVariable("layer_volume") as number[][];
     for (const v of vol) v.forEach((x, k) => expect(Math.abs(x - vol[0][k]) / vol[0][k]).toBeLessThan(1e-13));

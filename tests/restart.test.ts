@@ -1,5 +1,5 @@
-import { describe, expect, it } from "vitest";
-import { mkdtempSync, readFileSync, writeFileSync } from "node:fs";
+import { afterAll, describe, expect, it } from "vitest";
+import { mkdtempSync, readFileSync, rmSync, writeFileSync } from "node:fs";
 import { tmpdir } from "node:os";
 import { join } from "node:path";
 import { NetCDFReader } from "netcdfjs";
@@ -24,6 +24,7 @@ async function cli(...argv: string[]): Promise<{ code: number; out: string; err:
 }
 
 const dir = mkdtempSync(join(tmpdir(), "stepwell-restart-"));
+afterAll(() => rmSync(dir, { recursive: true, force: true }));
 
 const base = {
   name: "restart-small",

@@ -11,11 +11,10 @@ import type { BenchSection } from "./sections";
 export const memorySection: BenchSection = {
   key: "longRunMemory",
   run({ log }) {
-    const tsx = join(process.cwd(), "node_modules", ".bin", "tsx");
     const rows: Record<string, unknown>[] = [];
     log("Memory of long runs (16×16 periodic mesh, 2 layers, RK4, NetCDF every 100 steps; each run in a fresh process)");
     for (const steps of [1e3, 1e5]) {
-      const r = JSON.parse(execFileSync(tsx, [join("tests", "bench", "memoryChild.ts"), String(steps)], { encoding: "utf8", timeout: 600000 }).trim().split("\n").at(-1)!) as {
+      const r = JSON.parse(execFileSync(process.execPath, ["--import", "tsx", join("tests", "bench", "memoryChild.ts"), String(steps)], { encoding: "utf8", timeout: 600000 }).trim().split("\n").at(-1)!) as {
         code: number; seconds: number; peakRssMiB: number; rssBeforeMiB: number; fileBytes: number; records: number; recordBytes: number;
       };
       const fixedBytes = r.fileBytes - r.records * r.recordBytes;
