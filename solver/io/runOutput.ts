@@ -4,7 +4,7 @@ import type { Run } from "../driver/run.js";
 import { cellReconstruction, reconstructCellVelocity, type CellReconstruction } from "../mesh/reconstruct.js";
 import { surfaceHeight } from "../diagnostics/fields.js";
 import { encodeFixed, ncInt, planFile, RecordBuffer, type NcAttributes, type NcHeader, type NcLayout, type NcSchema, type NcVariable } from "./netcdf.js";
-import { ugridTopology, type UgridTopology } from "./ugrid.js";
+import { edgeAttrs, faceAttrs, ugridData, ugridDimensions, ugridTopology, ugridVariables, type UgridTopology } from "./ugrid.js";
 
 /**
  * What a Stepwell run writes to NetCDF: a UGRID 1.0 mesh topology with CF 1.8 metadata, the fixed mesh and
@@ -79,8 +79,6 @@ export interface RunFileOptions {
   restartedFrom?: { file: string; time: number; step: number };
 }
 
-const faceAttrs = (extra: NcAttributes): NcAttributes => ({ ...extra, mesh: "mesh", location: "face", coordinates: "face_x face_y", cell_measures: "area: face_area" });
-const edgeAttrs = (extra: NcAttributes): NcAttributes => ({ ...extra, mesh: "mesh", location: "edge", coordinates: "edge_x edge_y" });
 
 /** The file's schema for a run. */
 export function runFileSchema(run: Run, topo: UgridTopology, o: RunFileOptions): NcSchema {
@@ -91,11 +89,7 @@ export function runFileSchema(run: Run, topo: UgridTopology, o: RunFileOptions):
   const budget = energyBudgetOf(run) !== null;
   const dims = [
     { name: "time", length: "unlimited" as const },
-    { name: "node", length: topo.nNodes },
-    { name: "face", length: m.nCells },
-    { name: "edge", length: m.nEdges },
-    { name: "max_face_nodes", length: topo.maxFaceNodes },
-    { name: "two", length: 2 },
+    ...ugridDimensions(topo, m),
     { name: "layer", length: p.nLayers },
     ...(stateLength > 0 ? [{ name: "stepper_state", length: stateLength }] : []),
   ];
@@ -120,30 +114,8 @@ export function runFileSchema(run: Run, topo: UgridTopology, o: RunFileOptions):
       "Energies are in joules (per unit reference density × reference_density). Faces that cross a periodic seam use copies of their nodes (node_vertex).",
     ...(o.restartedFrom ? { restarted_from: o.restartedFrom.file, restarted_at_time: o.restartedFrom.time, restarted_at_step: o.restartedFrom.step } : {}),
   };
-  const xy = (loc: string, what: string): NcVariable[] => (["x", "y"] as const).map((c) => ({
-    name: `${loc}_${c}`, type: "double", dimensions: [loc],
-    attributes: { standard_name: `projection_${c}_coordinate`, long_name: `${c} of the ${what}`, units: "m", mesh: "mesh", location: loc },
-  }));
   const vars: NcVariable[] = [
-    {
-      name: "mesh", type: "int", dimensions: [], attributes: {
-        cf_role: "mesh_topology", long_name: "Topology of the Voronoi C-grid: nodes are Voronoi vertices, faces are cells, edges are edges",
-        units: "1", topology_dimension: ncInt(2), node_coordinates: "node_x node_y", face_coordinates: "face_x face_y", edge_coordinates: "edge_x edge_y",
-        face_node_connectivity: "face_nodes", edge_node_connectivity: "edge_nodes", edge_face_connectivity: "edge_faces",
-        face_dimension: "face", edge_dimension: "edge",
-      },
-    },
-    ...xy("node", "Voronoi vertices (cell corners)"),
-    { name: "node_vertex", type: "int", dimensions: ["node"], attributes: { long_name: "mesh vertex this node stands for (periodic copies repeat an index)", units: "1", start_index: ncInt(0) } },
-    ...xy("face", "cell centres (Voronoi generators)"),
-    ...xy("edge", "velocity points (where the line between the two cell centres crosses the edge)"),
-    { name: "face_nodes", type: "int", dimensions: ["face", "max_face_nodes"], attributes: { cf_role: "face_node_connectivity", long_name: "corners of each cell, counter-clockwise", units: "1", start_index: ncInt(0), _FillValue: ncInt(-1) } },
-    { name: "edge_nodes", type: "int", dimensions: ["edge", "two"], attributes: { cf_role: "edge_node_connectivity", long_name: "end points of each edge, the second along +t = k × n", units: "1", start_index: ncInt(0), _FillValue: ncInt(-1) } },
-    { name: "edge_faces", type: "int", dimensions: ["edge", "two"], attributes: { cf_role: "edge_face_connectivity", long_name: "cells on either side of each edge; the normal points from the first to the second (−1: outside a coast)", units: "1", start_index: ncInt(0), _FillValue: ncInt(-1) } },
-    { name: "edge_normal_x", type: "double", dimensions: ["edge"], attributes: edgeAttrs({ long_name: "x component of the unit normal of each edge", units: "1" }) },
-    { name: "edge_normal_y", type: "double", dimensions: ["edge"], attributes: edgeAttrs({ long_name: "y component of the unit normal of each edge", units: "1" }) },
-    { name: "edge_length", type: "double", dimensions: ["edge"], attributes: edgeAttrs({ long_name: "length of each edge", units: "m" }) },
-    { name: "face_area", type: "double", dimensions: ["face"], attributes: { standard_name: "cell_area", long_name: "area of each cell", units: "m2", mesh: "mesh", location: "face", coordinates: "face_x face_y" } },
+    ...ugridVariables(),
     { name: "bottom_depth", type: "double", dimensions: ["face"], attributes: faceAttrs({ standard_name: "sea_floor_depth_below_geoid", long_name: "depth of the sea floor below the resting surface", units: "m", positive: "down" }) },
     { name: "layer", type: "int", dimensions: ["layer"], attributes: { long_name: "layer index, 0 at the top", units: "1" } },
     { name: "layer_density", type: "double", dimensions: ["layer"], attributes: { standard_name: "sea_water_density", long_name: "density of each layer", units: "kg m-3" } },
@@ -210,9 +182,7 @@ export class RunFileWriter {
     const bottomDepth = new Float64Array(m.nCells);
     for (let i = 0; i < m.nCells; i++) bottomDepth[i] = -p.bottom[i];
     const data: Record<string, ArrayLike<number>> = {
-      mesh: [0], node_x: t.nodeX, node_y: t.nodeY, node_vertex: t.nodeVertex, face_x: m.cellX, face_y: m.cellY, edge_x: m.edgeX, edge_y: m.edgeY,
-      face_nodes: t.faceNodes, edge_nodes: t.edgeNodes, edge_faces: t.edgeFaces, edge_normal_x: m.edgeNormalX, edge_normal_y: m.edgeNormalY,
-      edge_length: m.edgeLength, face_area: m.cellArea, bottom_depth: bottomDepth, layer: Array.from({ length: L }, (_, k) => k),
+      ...ugridData(t, m), bottom_depth: bottomDepth, layer: Array.from({ length: L }, (_, k) => k),
       layer_density: p.densities, layer_rest_thickness: p.nominalThickness, reduced_gravity: p.reducedGravity,
     };
     for (const v of this.layout.variables.values()) {
