@@ -257,6 +257,13 @@ describe("run --netcdf: a UGRID 1.0 / CF 1.8 file", () => {
       }
       // a regular hexagon's corner is d/√3 from its centre (d = 20 km); jitter moves it a little
       expect(far).toBeLessThan(0.75 * 20000);
+      // …and every edge is drawn between nodes next to its velocity point, never across the domain
+      const ex = num(f, "edge_x");
+      const ey = num(f, "edge_y");
+      const edgeNodes = f.getDataVariable("edge_nodes") as number[];
+      let farEdge = 0;
+      for (let e = 0; e < ex.length; e++) for (const n of [edgeNodes[2 * e], edgeNodes[2 * e + 1]]) farEdge = Math.max(farEdge, Math.hypot(nodeX[n] - ex[e], nodeY[n] - ey[e]));
+      expect(farEdge).toBeLessThan(0.5 * 20000);
       const copies = f.dimensions.find((d) => d.name === "node")!.size - createRun(scen).mesh.nVertices;
       if (label === "periodic") expect(copies).toBeGreaterThan(0);
       else expect(copies).toBe(0);
