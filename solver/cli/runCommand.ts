@@ -4,7 +4,7 @@ import { Run } from "../driver/run.js";
 import { buildScenario } from "../scenario/build.js";
 import { parseScenario } from "../scenario/schema.js";
 import { numberOption, rejectUnknown, stringOption, type ParsedArgs } from "./args.js";
-import { fmt, loadScenarioArg, table, writeJson } from "./io.js";
+import { count, fmt, loadScenarioArg, table, writeJson } from "./io.js";
 import { STEPPER_CLI_OPTIONS, stepperFromArgs } from "./stepperArgs.js";
 import { SolverError } from "../errors.js";
 import { applyRestart, RUN_OUTPUT_OPTIONS, RunOutput } from "./runOutput.js";
@@ -69,7 +69,7 @@ export function runCommand(args: ParsedArgs, out: (s: string) => void, err: (s: 
   const output = RunOutput.open(args, run, total, restart);
   if (restart) out(`Restarted from ${restart.file} at t = ${fmt(restart.time, "s")} (step ${restart.step})${restart.note ? `; note: ${restart.note}` : ""}`);
   out(`Scenario ${scenario.name}: ${run.mesh.nCells} cells, ${run.model.params.nLayers} layers, ${run.stepper.label}, dt ${fmt(run.dt, "s")} ` +
-    `(${fmt(run.dt / run.rk4DtLimit(), "", 3)} × RK4 limit ${fmt(run.rk4DtLimit(), "s")}), ${total} steps = ${fmt((total * run.dt) / 86400, "days", 3)}`);
+    `(${fmt(run.dt / run.rk4DtLimit(), "", 3)} × RK4 limit ${fmt(run.rk4DtLimit(), "s")}), ${count(total, "step")} = ${count(Number(((total * run.dt) / 86400).toPrecision(3)), "day")}`);
   if (run.stepper.note) out(`Note: ${run.stepper.note}`);
   let lastPrint = -1;
   let result: RunResult;
@@ -96,9 +96,9 @@ export function runCommand(args: ParsedArgs, out: (s: string) => void, err: (s: 
   const stop = result.status === "cancelled" ? ctx.stopReason() ?? "SIGINT" : null;
   out("");
   out(table(["quantity", "value"], [
-    ["status", stop ? `interrupted (${stop}) after ${result.steps} of ${total} steps` : result.status],
+    ["status", stop ? `interrupted (${stop}) after ${result.steps} of ${count(total, "step")}` : result.status],
     ["steps", String(result.steps)],
-    ["simulated time", `${fmt(result.simulatedSeconds, "s")} (${fmt(result.simulatedSeconds / 86400, "days", 3)})`],
+    ["simulated time", `${fmt(result.simulatedSeconds, "s")} (${count(Number((result.simulatedSeconds / 86400).toPrecision(3)), "day")})`],
     ["wall time", fmt(result.wallSeconds, "s", 3)],
     ["wall time per simulated day", fmt(result.simulatedSeconds > 0 ? (result.wallSeconds * 86400) / result.simulatedSeconds : NaN, "s", 3)],
     ["tendency evaluations", fmt(result.rhsEvaluations, "", 6)],
@@ -132,7 +132,7 @@ export function runCommand(args: ParsedArgs, out: (s: string) => void, err: (s: 
       `(x = ${fmt(u.x / 1000, "km")}, y = ${fmt(u.y / 1000, "km")}); Courant numbers barotropic ${fmt(u.courant.barotropic, "", 3)}, ` +
       `baroclinic ${fmt(u.courant.baroclinic, "", 3)}, advection ${fmt(u.courant.advection, "", 3)}. The last good state was kept.`);
   }
-  if (output) out(`NetCDF output: ${output.file}, ${output.records} output times every ${output.everySteps} steps`);
+  if (output) out(`NetCDF output: ${output.file}, ${count(output.records, "output time")} every ${count(output.everySteps, "step")}`);
   const json = stringOption(args, "json");
   if (json) {
     writeJson(json, {
