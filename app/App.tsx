@@ -85,7 +85,7 @@ export function App() {
               view={sb.view} onView={sb.setView} getSnapshot={sb.getSnapshot} snapshotVersion={sb.snapshotVersion} subscribeSnapshot={sb.subscribeSnapshot}
               unstable={sb.unstable} maxWidth={620} maxHeight={480}
               colourRange={vt.colourRange} onPick={vt.onPick} pinned={vt.pinned} />
-            <ViewTools vt={vt} view={sb.view} running={sb.running} />
+            <ViewTools vt={vt} view={sb.view} running={sb.running} sb={sb} />
           </div>
           <div className="right">
             <DriftPlots samples={sb.history} layerNames={layerNames} logScale={logScale} onLogScale={setLogScale}

@@ -353,13 +353,14 @@ export function useSandbox() {
 
   // view tools: the inspector reads every field at one cell of the current state
   const probe = useCallback((cell: number) => client().call((r) => r.probe(cell)), []);
+  const netcdfSnapshot = useCallback(() => client().call((r) => r.netcdfSnapshot(), 120_000), []);
 
   return {
     loading, setup, builtins, report, running, view, notices, unstable, rates, scenarioError, stepperError, shareUrl,
     snapshotVersion, history, getSnapshot, subscribeSnapshot,
     run, pause, toggle, stepOnce, reset, setView, applyStepper, applyScenario, importScenario, currentScenario, share,
     dismiss, hideShare: () => setShareUrl(""),
-    probe,
+    probe, netcdfSnapshot,
   };
 }
 

@@ -12,6 +12,7 @@ import { BUILTIN_SCENARIOS } from "../solver/scenario/builtins.js";
 import { listMethods } from "../solver/time/registry.js";
 import { optionChoices } from "../solver/time/optionChoices.js";
 import { probeCell } from "./probe.js";
+import { netcdfSnapshot } from "./netcdfSnapshot.js";
 import type { ChunkReport, InitResult, MapView, MethodSummary, Snapshot, StepperInfo, WorkerFailure } from "./protocol.js";
 
 let run: Run | undefined;
@@ -142,6 +143,8 @@ const api = {
     BUILTIN_SCENARIOS.map((b) => ({ name: b.name, description: b.description, scenario: structuredClone(b) as unknown }))),
   /** Inspector: every field at one cell of the current state. */
   probe: guarded((cell: number) => probeCell(current(), work!, cell)),
+  /** The current state as a one-record NetCDF run file (moved, not copied). */
+  netcdfSnapshot: guarded(() => { const b = netcdfSnapshot(current()); return transfer(b, [b.buffer]); }),
   /** Development builds only: crash the worker outside any call, so the UI's restart path can be tested. */
   crashForTesting: () => {
     if (!import.meta.env.DEV) return false;

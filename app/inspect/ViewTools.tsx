@@ -3,7 +3,7 @@ import type { FieldInfo, MapView } from "../../workers/protocol.js";
 import type { CellProbe } from "../../workers/probe.js";
 import { failureMessage } from "../../workers/client.js";
 import { colourDomain } from "../map/palette.js";
-import { exportCanvas, exportSvg } from "../export.js";
+import { download, exportCanvas, exportSvg, fileStem } from "../export.js";
 import { fmt, km, formatDays } from "../format.js";
 import type { Sandbox } from "../useSandbox.js";
 
@@ -96,8 +96,19 @@ export const SHORTCUTS: [string, string][] = [
   ["?", "show or hide this list"],
 ];
 
-export function ViewTools({ vt, view, running }: { vt: ViewToolsState; view: MapView; running: boolean }) {
+export function ViewTools({ vt, view, running, sb }: { vt: ViewToolsState; view: MapView; running: boolean; sb: Sandbox }) {
   const [plots, setPlots] = useState<string[]>([]);
+  const [ncError, setNcError] = useState<string | null>(null);
+  const saveNetcdf = async () => {
+    try {
+      const bytes = await sb.netcdfSnapshot();
+      const s = sb.currentScenario();
+      download(new Blob([bytes as Uint8Array<ArrayBuffer>], { type: "application/x-netcdf" }), `${fileStem(s?.name ?? "run")}-step${sb.report?.step ?? 0}.nc`);
+      setNcError(null);
+    } catch (e) {
+      setNcError(`NetCDF snapshot: ${failureMessage(e)}`);
+    }
+  };
   useEffect(() => {
     const scan = () => setPlots((old) => { const now = PLOT_IDS.filter((id) => plotSvg(id)); return now.join() === old.join() ? old : now; });
     scan();
@@ -124,11 +135,13 @@ export function ViewTools({ vt, view, running }: { vt: ViewToolsState; view: Map
           <button data-testid="export-map-png" onClick={() => { const c = document.querySelector('[data-testid="map-canvas"]'); if (c instanceof HTMLCanvasElement) void exportCanvas(c, `map-${view.kind}${vt.info?.perLayer ? `-layer${view.layer}` : ""}`); }}>
             Map PNG
           </button>
+          <button data-testid="export-netcdf" onClick={() => void saveNetcdf()} title="the current state as a one-record run file (UGRID, CF), readable by stepwell run --restart">NetCDF snapshot</button>
           {plots.map((id) => (
             <button key={id} data-testid={`export-${id}-svg`} onClick={() => { const s = plotSvg(id); if (s) exportSvg(s, id); }}>{id.replace(/-plot$/, "")} SVG</button>
           ))}
         </span>
       </div>
+      {ncError && <p className="error" data-testid="export-error">{ncError}</p>}
       {vt.inspecting && (
         <div className="inspector" data-testid="inspector">
           {running ? null : vt.probe ? (

@@ -9,6 +9,7 @@ import { readFileSync } from "node:fs";
 import { afterAll, beforeAll, describe, expect, it } from "vitest";
 import type { Download, Page } from "playwright-core";
 import { csvParse } from "d3";
+import { NetCDFReader } from "netcdfjs";
 import { encodeSetup } from "../../app/share";
 import { buildScenario } from "../../solver/scenario/build";
 import { parseScenario } from "../../solver/scenario/schema";
@@ -254,6 +255,24 @@ describe("run view: pointer values, colour scale, inspector, exports, shortcuts"
     const svg = (await downloaded("export-mass-plot-svg")).body.toString("utf8");
     expect(svg).toMatch(/^<\?xml[^>]*>\s*<svg[^>]*xmlns="http:\/\/www.w3.org\/2000\/svg"/);
     expect(svg).toContain("simulated days");
+  });
+
+  it("saves a NetCDF snapshot of the current state that a general NetCDF reader opens (netcdfjs 4.0.0)", async () => {
+    const nc = await downloaded("export-netcdf");
+    const steps = Number(await text("step-count"));
+    expect(nc.name).toBe(`tiny-view-step${steps}.nc`);
+    // "CDF" and version byte 2: the 64-bit offset format (NetCDF User's Guide, file format appendix)
+    expect([...nc.body.subarray(0, 4)]).toEqual([0x43, 0x44, 0x46, 0x02]);
+    const r = new NetCDFReader(nc.body);
+    expect(r.recordDimension.length).toBe(1);
+    expect(r.dimensions.find((d) => d.name === "face")!.size).toBe(Number(await page.locator(byId("map-canvas")).getAttribute("data-cells")));
+    expect((r.getDataVariable("step") as number[]).flat()).toEqual([steps]);
+    // the file's free surface has the range the colour bar reports (single precision there, 4 significant digits)
+    const eta = (r.getDataVariable("surface_height") as number[][])[0];
+    const shown = /max (\S+) m\s*min (\S+) m/.exec(await text("field-range"))!;
+    const near = (a: number, b: number) => Math.abs(a - b) <= 1e-3 * Math.max(Math.abs(a), Math.abs(b));
+    expect(near(Math.max(...eta), Number(shown[1]))).toBe(true);
+    expect(near(Math.min(...eta), Number(shown[2]))).toBe(true);
     expect(errors).toEqual([]);
   });
 });
