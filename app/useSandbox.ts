@@ -7,6 +7,8 @@ import type {
 import { thin, type BudgetSample } from "./drift.js";
 import { mapPerf } from "./perf.js";
 import { decodeSetup, encodeSetup } from "./share.js";
+import type { StartStateInfo } from "../workers/startState.js";
+import { START_STATES } from "../workers/startStateList.js";
 
 /**
  * The one container hook: owns the solver worker, the run loop, the latest report and snapshot, the budget
@@ -52,6 +54,8 @@ export function useSandbox() {
   const [snapshotVersion, setSnapshotVersion] = useState(0);
   const [historyVersion, setHistoryVersion] = useState(0);
   const [loading, setLoading] = useState(true);
+  /** The stored state the run started from, if any (view tools). */
+  const [startInfo, setStartInfo] = useState<StartStateInfo | null>(null);
 
   const runningRef = useRef(false);
   const viewRef = useRef(view);
@@ -166,6 +170,12 @@ export function useSandbox() {
     try {
       const res = await client().call((r) => r.init(raw, stepper, viewRef.current), 120_000);
       adopt(res);
+      // a built-in that comes with a spun-up state starts from it
+      setStartInfo(null);
+      const url = START_STATES[res.scenario.name];
+      if (url) {
+        await startFrom({ url }).catch((e) => notify("warning", "start-state", `The stored start of ${res.scenario.name} could not be used (${failureMessage(e)}); it starts from its initial state.`));
+      }
       return null;
     } catch (e) {
       return isWorkerFailure(e) ? e : { name: "WorkerError", code: "internal", message: failureMessage(e) };
@@ -354,13 +364,22 @@ export function useSandbox() {
   // view tools: the inspector reads every field at one cell of the current state
   const probe = useCallback((cell: number) => client().call((r) => r.probe(cell)), []);
   const netcdfSnapshot = useCallback(() => client().call((r) => r.netcdfSnapshot(), 120_000), []);
+  /** Start from a stored state (a NetCDF run file): the run restarts there, the plots start afresh. */
+  const startFrom = useCallback(async (source: { url: string } | { bytes: Uint8Array; name: string }) => {
+    stop();
+    const res = await client().call((r) => r.startFrom("bytes" in source ? transfer(source, [source.bytes.buffer]) : source, viewRef.current), 120_000);
+    acceptReport(res.report, true);
+    setUnstable(null);
+    setStartInfo(res.info);
+    return res.info;
+  }, []);
 
   return {
     loading, setup, builtins, report, running, view, notices, unstable, rates, scenarioError, stepperError, shareUrl,
     snapshotVersion, history, getSnapshot, subscribeSnapshot,
     run, pause, toggle, stepOnce, reset, setView, applyStepper, applyScenario, importScenario, currentScenario, share,
     dismiss, hideShare: () => setShareUrl(""),
-    probe, netcdfSnapshot,
+    probe, netcdfSnapshot, startFrom, startInfo,
   };
 }
 

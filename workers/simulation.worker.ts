@@ -13,6 +13,7 @@ import { listMethods } from "../solver/time/registry.js";
 import { optionChoices } from "../solver/time/optionChoices.js";
 import { probeCell } from "./probe.js";
 import { netcdfSnapshot } from "./netcdfSnapshot.js";
+import { startFromFile, type StartStateInfo } from "./startState.js";
 import type { ChunkReport, InitResult, MapView, MethodSummary, Snapshot, StepperInfo, WorkerFailure } from "./protocol.js";
 
 let run: Run | undefined;
@@ -143,6 +144,31 @@ const api = {
     BUILTIN_SCENARIOS.map((b) => ({ name: b.name, description: b.description, scenario: structuredClone(b) as unknown }))),
   /** Inspector: every field at one cell of the current state. */
   probe: guarded((cell: number) => probeCell(current(), work!, cell)),
+  /**
+   * Start the loaded scenario from a stored state (a NetCDF run file, its last record): bytes the user chose, or
+   * a file under the app's public folder, fetched here. The state becomes the run's start (Reset returns to it).
+   */
+  startFrom: async (source: { url: string } | { bytes: Uint8Array; name: string }, view: MapView): Promise<{ info: StartStateInfo; report: ChunkReport }> => {
+    try {
+      const r = current();
+      let bytes: Uint8Array;
+      let file: string;
+      if ("url" in source) {
+        file = source.url;
+        const res = await fetch(new URL(source.url, new URL(import.meta.env.BASE_URL, self.location.origin)));
+        if (!res.ok) throw { name: "SolverError", code: "bad-input", field: "startState", message: `startState: ${file} could not be fetched (HTTP ${res.status})` } satisfies WorkerFailure;
+        bytes = new Uint8Array(await res.arrayBuffer());
+      } else {
+        bytes = source.bytes;
+        file = source.name;
+      }
+      const info = startFromFile(r, bytes, file);
+      const rep = report(r, view, 0, 0);
+      return transfer({ info, report: rep }, [rep.snapshot.values.buffer]);
+    } catch (e) {
+      throw (e && typeof e === "object" && "code" in e && "message" in e && !(e instanceof Error)) ? e : failure(e);
+    }
+  },
   /** The current state as a one-record NetCDF run file (moved, not copied). */
   netcdfSnapshot: guarded(() => { const b = netcdfSnapshot(current()); return transfer(b, [b.buffer]); }),
   /** Development builds only: crash the worker outside any call, so the UI's restart path can be tested. */

@@ -99,6 +99,16 @@ export const SHORTCUTS: [string, string][] = [
 export function ViewTools({ vt, view, running, sb }: { vt: ViewToolsState; view: MapView; running: boolean; sb: Sandbox }) {
   const [plots, setPlots] = useState<string[]>([]);
   const [ncError, setNcError] = useState<string | null>(null);
+  const [startError, setStartError] = useState<string | null>(null);
+  const startFromFile = async (f: File | undefined) => {
+    if (!f) return;
+    try {
+      await sb.startFrom({ bytes: new Uint8Array(await f.arrayBuffer()), name: f.name });
+      setStartError(null);
+    } catch (e) {
+      setStartError(failureMessage(e));
+    }
+  };
   const saveNetcdf = async () => {
     try {
       const bytes = await sb.netcdfSnapshot();
@@ -141,6 +151,18 @@ export function ViewTools({ vt, view, running, sb }: { vt: ViewToolsState; view:
           ))}
         </span>
       </div>
+      <div className="view-tools">
+        <label title="a Stepwell NetCDF run file of this scenario's mesh (stepwell run --netcdf, or the NetCDF snapshot above); its last record becomes the start">
+          Start from a stored state (.nc){" "}
+          <input type="file" accept=".nc,application/x-netcdf" data-testid="start-state-input" onChange={(e) => { void startFromFile(e.target.files?.[0]); e.target.value = ""; }} />
+        </label>
+        {sb.startInfo && (
+          <span data-testid="start-state-info">
+            Started from <b>{sb.startInfo.file}</b>{sb.startInfo.scenario ? ` (${sb.startInfo.scenario}, ` : " ("}stored at {formatDays(sb.startInfo.storedTime)}, step {sb.startInfo.storedStep}); Reset returns there.
+          </span>
+        )}
+      </div>
+      {startError && <p className="error" data-testid="start-state-error">{startError}</p>}
       {ncError && <p className="error" data-testid="export-error">{ncError}</p>}
       {vt.inspecting && (
         <div className="inspector" data-testid="inspector">
