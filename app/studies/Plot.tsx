@@ -60,7 +60,11 @@ function ticksOf(s: Scale, log: boolean): number[] {
     const t = 10 ** e;
     if (t >= a && t <= b) out.push(t);
   }
-  if (out.length < 2) return (s as ScaleLogarithmic<number, number>).ticks(4);
+  if (out.length < 2) {
+    // less than two decades: 1, 2 and 5 times powers of ten (d3's own log ticks label every integer multiple)
+    const t = (s as ScaleLogarithmic<number, number>).ticks(4).filter((v) => [1, 2, 5].includes(Math.round(v / 10 ** Math.floor(Math.log10(v) + 1e-9))));
+    return t.length >= 2 ? t : (s as ScaleLogarithmic<number, number>).ticks(4);
+  }
   const every = Math.ceil(out.length / 7);
   return out.filter((_, i) => i % every === 0);
 }

@@ -6,7 +6,7 @@ import { Plot, type PlotSeries } from "./Plot.js";
 import { TableExports } from "./ExportButtons.js";
 
 /** Energy growth below this is drawn at it (the log axis has no zero). */
-const GROWTH_FLOOR = 1e-12;
+const GROWTH_FLOOR = 1e-6;
 
 export const STABILITY_COLUMNS = ["label", "method", "maxStableDt", "ratioToRk4", "rk4DtLimit", "bracketed", "trials", "duration", "energyGrowthThreshold"];
 export const TRIAL_COLUMNS = ["label", "dt", "ratioToRk4", "outcome", "energyGrowth", "steps", "simulatedSeconds", "reason"];
@@ -42,7 +42,7 @@ export function StabilityView({ results }: { results: StabilityResult[] }) {
         ({results[0].energyScale === "initial" ? "the initial energy" : "the largest energy of an RK4 run at half its limit"}).
       </p>
       <div className="plot-row">
-        <Plot title="Stability search: trials" testid="stability-trials" xLabel="Δt [s]" yLabel="energy growth (max E / scale − 1)" xLog yLog series={series}
+        <Plot title="Stability search: trials" testid="stability-trials" width={720} height={340} xLabel="Δt [s]" yLabel="energy growth (max E / scale − 1)" xLog yLog series={series}
           include={{ y: [GROWTH_FLOOR * 10, top] }}
           marks={[{ x: rk4, y: null, label: "RK4 limit", colour: "#b00" }, { x: null, y: threshold, label: `threshold ${fmt(threshold)}`, colour: "#555" }]}
           note={<>Dots: stable trials; crosses: unstable (at the top edge: blew up). Growth below {GROWTH_FLOOR} is drawn at {GROWTH_FLOOR}. The legend gives each stepper's largest stable Δt.</>} />
