@@ -73,7 +73,7 @@ export interface ChebyshevPhiAction extends PhiAction {
 export function chebyshevPhi(op: LinearOperator, opts: PhiOptions): ChebyshevPhiAction {
   const rho = op.spectralBound;
   if (!(rho !== undefined && rho > 0 && Number.isFinite(rho))) {
-    throw new SolverError("bad-input", "chebyshev backend needs an operator with a positive spectralBound", "stepper.backend");
+    throw new SolverError("bad-input", "chebyshev backend needs an operator with a positive spectralBound", "phi.backend");
   }
   const n = op.n, P = opts.maxPhi, tol = opts.tol, filter = opts.filter;
   const bA = new Float64Array(n), bB = new Float64Array(n), tmp = new Float64Array(n);
@@ -158,7 +158,7 @@ export function chebyshevPhi(op: LinearOperator, opts: PhiOptions): ChebyshevPhi
   function apply(out: Float64Array, tau: number, v: readonly Float64Array[]): void {
     const mv0 = op.counters.matvecs;
     const p = highestNonZero(v);
-    if (p > P) throw new SolverError("bad-input", `chebyshev: phi index ${p} exceeds maxPhi ${P}`, "stepper.maxPhi");
+    if (p > P) throw new SolverError("bad-input", `chebyshev: phi index ${p} exceeds maxPhi ${P}`, "phi.apply");
     if (p < 0) { out.fill(0); terms = 0; stats.matvecs = 0; stats.errorEstimate = 0; return; }
     for (let k = 0; k <= p; k++) vZero[k] = isZero(v[k]) ? 1 : 0;
     const R = tau * rho!;

@@ -237,7 +237,7 @@ export function phiCombinationDense(
   out: Float64Array, a: Float64Array, n: number, tau: number, v: readonly Float64Array[], ws: PhiCombinationWorkspace,
 ): void {
   const p = Math.max(0, highestNonZero(v));
-  if (p > ws.maxPhi) throw new SolverError("bad-input", `phi index ${p} exceeds maxPhi ${ws.maxPhi}`, "stepper.maxPhi");
+  if (p > ws.maxPhi) throw new SolverError("bad-input", `phi index ${p} exceeds maxPhi ${ws.maxPhi}`, "phi.apply");
   const N = n + p;
   const { aug, expAug } = ws;
   aug.fill(0, 0, N * N);

@@ -316,7 +316,7 @@ export function krylovPhi(op: LinearOperator, opts: KrylovOptions): KrylovPhiAct
   function run(out: Float64Array, tau: number, v: readonly Float64Array[]): void {
     const top = highestNonZero(v);
     if (top < 0) { out.fill(0); stats.errorEstimate = 0; return; }
-    if (top > P) throw new SolverError("bad-input", `krylov: phi index ${top} exceeds maxPhi ${P}`, "stepper.maxPhi");
+    if (top > P) throw new SolverError("bad-input", `krylov: phi index ${top} exceeds maxPhi ${P}`, "phi.apply");
     p = top;
     W[0].set(v[0]);
     derivatives(v);

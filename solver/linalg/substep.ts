@@ -23,7 +23,7 @@ export function substepPhi(op: LinearOperator, opts: PhiOptions): PhiAction {
   const rho = op.spectralBound;
   const fixed = opts.substeps ?? 0;
   if (!(fixed > 0) && !(rho !== undefined && rho > 0)) {
-    throw new SolverError("bad-input", "substep backend needs a spectralBound or a positive substeps count", "stepper.substeps");
+    throw new SolverError("bad-input", "substep backend needs a spectralBound or a positive substeps count", "phi.substeps");
   }
   const n = op.n, P = opts.maxPhi, tol = opts.tol;
   const acc = new Float64Array(n), stage = new Float64Array(n), k = new Float64Array(n), y0 = new Float64Array(n);
@@ -43,7 +43,7 @@ export function substepPhi(op: LinearOperator, opts: PhiOptions): PhiAction {
   function apply(out: Float64Array, tau: number, v: readonly Float64Array[]): void {
     const mv0 = op.counters.matvecs;
     p = Math.max(0, highestNonZero(v));
-    if (p > P) throw new SolverError("bad-input", `substep: phi index ${p} exceeds maxPhi ${P}`, "stepper.maxPhi");
+    if (p > P) throw new SolverError("bad-input", `substep: phi index ${p} exceeds maxPhi ${P}`, "phi.apply");
     vv = v;
     const S = fixed > 0 ? fixed : rk4Substeps(tau * rho!, tol);
     const h = tau / S;

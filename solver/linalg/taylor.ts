@@ -39,7 +39,7 @@ export function taylorParameters(normB: number, out: { m: number; s: number } = 
 export function taylorPhi(op: LinearOperator, opts: PhiOptions & { normBound?: number }): PhiAction {
   const normA = opts.normBound ?? op.spectralBound;
   if (!(normA !== undefined && normA >= 0 && Number.isFinite(normA))) {
-    throw new SolverError("bad-input", "taylor backend needs a norm bound (operator spectralBound or estimate)", "stepper.backend");
+    throw new SolverError("bad-input", "taylor backend needs a norm bound (operator spectralBound or estimate)", "phi.backend");
   }
   const n = op.n, P = opts.maxPhi, tol = opts.tol;
   const bx = new Float64Array(n), ax = new Float64Array(n);
@@ -52,7 +52,7 @@ export function taylorPhi(op: LinearOperator, opts: PhiOptions & { normBound?: n
     const mv0 = op.counters.matvecs;
     let reductions = 0;
     const p = highestNonZero(v);
-    if (p > P) throw new SolverError("bad-input", `taylor: phi index ${p} exceeds maxPhi ${P}`, "stepper.maxPhi");
+    if (p > P) throw new SolverError("bad-input", `taylor: phi index ${p} exceeds maxPhi ${P}`, "phi.apply");
     if (p < 0) { out.fill(0); stats.matvecs = 0; stats.innerProducts = 0; stats.errorEstimate = 0; return; }
     // balance: η = 2^−⌈log2 max_c ‖τ^{p−c} v_{p−c}‖_∞⌉ (the max-norms are reductions)
     let wn = 0;

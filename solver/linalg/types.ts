@@ -74,4 +74,6 @@ export interface PhiOptions {
   filter?: PhiFilter;
   /** Largest Krylov basis (memory (maxKrylovDim+1)·n numbers) before the krylov backend sub-steps; default 100. */
   maxKrylovDim?: number;
+  /** Field prefix of error messages, e.g. "stepper" (default "phi"). */
+  field?: string;
 }

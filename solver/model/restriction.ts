@@ -398,7 +398,7 @@ export function restrictedPhiAction(r: ModalRestriction, modalPhi: PhiAction, ma
     name: `${modalPhi.name} on ${r.modes} mode${r.modes === 1 ? "" : "s"}`,
     stats,
     apply(out, tau, v) {
-      if (v.length > maxPhi + 1) throw new SolverError("bad-input", `phi index ${v.length - 1} exceeds maxPhi ${maxPhi}`, "stepper.maxPhi");
+      if (v.length > maxPhi + 1) throw new SolverError("bad-input", `phi index ${v.length - 1} exceeds maxPhi ${maxPhi}`, "phi.apply");
       out.fill(0);
       w[0].fill(0);
       for (let k = 0; k <= maxPhi; k++) {
