@@ -38,7 +38,7 @@ export type PartialStability = (StabilityResult | undefined)[];
 const CANCELLED: WorkerFailure = { name: "WorkerError", code: "cancelled", message: "study cancelled" };
 export const isCancelled = (e: unknown) => !!e && typeof e === "object" && (e as WorkerFailure).code === "cancelled";
 
-interface Slot { worker: Worker; remote: Remote<StudyApi> }
+interface Slot { worker: Worker; remote: Remote<StudyApi>; died: Promise<never> }
 
 export function poolSize(): number {
   const n = typeof navigator !== "undefined" ? navigator.hardwareConcurrency : 1;
@@ -56,7 +56,14 @@ export class StudyPool {
   private ensure(n: number): Slot[] {
     while (this.slots.length < n) {
       const worker = new Worker(new URL("./study.worker.ts", import.meta.url), { type: "module", name: `stepwell-study-${this.slots.length + 1}` });
-      this.slots.push({ worker, remote: wrap<StudyApi>(worker) });
+      const died = new Promise<never>((_, reject) => {
+        worker.addEventListener("error", (ev) => {
+          ev.preventDefault();
+          reject({ name: "WorkerError", code: "worker-died", message: `a study worker stopped unexpectedly (${ev.message || "worker error"})` } satisfies WorkerFailure);
+        }, { once: true });
+      });
+      died.catch(() => undefined);
+      this.slots.push({ worker, remote: wrap<StudyApi>(worker), died });
     }
     return this.slots.slice(0, n);
   }
@@ -98,13 +105,7 @@ export class StudyPool {
 
   /** Race a call against a stop and against the worker's death. */
   private call<T>(slot: Slot, f: (r: Remote<StudyApi>) => Promise<T>): Promise<T> {
-    const died = new Promise<never>((_, reject) => {
-      slot.worker.addEventListener("error", (ev) => {
-        ev.preventDefault();
-        reject({ name: "WorkerError", code: "worker-died", message: `a study worker stopped unexpectedly (${ev.message || "worker error"})` } satisfies WorkerFailure);
-      }, { once: true });
-    });
-    return Promise.race([f(slot.remote), this.stopped, died]);
+    return Promise.race([f(slot.remote), this.stopped, slot.died]);
   }
 
   /**
