@@ -62,6 +62,12 @@ export interface ModalRestriction {
   readonly restricted: LinearOperator;
   /** Multiply-adds of one L̂ matvec as implemented (a deterministic cost measure; compare RestLinearOperator's). */
   readonly multiplyAddsPerMatvec: number;
+  /**
+   * The assembled coefficients of L̂ (read-only; for the benchmark's comparison loop). When `diagonal`, mode-major
+   * diagonals: Coriolis [a·nnzTangent + q], gradient [a·2nEdges + 2e + side], divergence [a·nnzCell + q];
+   * otherwise m×m blocks [slot·m² + a·m + b].
+   */
+  readonly coefficients: { readonly diagonal: boolean; readonly coriolis: Float64Array; readonly gradient: Float64Array; readonly divergence: Float64Array };
 }
 
 export function modalRestriction(model: ShallowWaterModel, nModes: number, rest: RestLinearOperator = restLinearOperator(model)): ModalRestriction {
@@ -377,6 +383,9 @@ export function modalRestriction(model: ShallowWaterModel, nModes: number, rest:
     modes: m, layout, modalLayout, flat, speeds, rest,
     restrict, prolong, project, operator: modalOp, liftApply, restricted: restrictedOp,
     multiplyAddsPerMatvec: (flat ? m : mm) * (nnzT + 2 * ne + nnzC),
+    coefficients: diagonal
+      ? { diagonal, coriolis: corDiag, gradient: gradDiag, divergence: divDiag }
+      : { diagonal, coriolis: corBlk, gradient: gradBlk, divergence: divBlk },
   };
 }
 

@@ -4,6 +4,12 @@ export interface Timing { best: number; median: number; runs: number }
 
 /** Time `fn` (one call = one unit of work) in `reps` repetitions of `inner` calls, after warm-up. */
 export function time(fn: () => void, o: { warmup?: number; reps?: number; inner?: number } = {}): Timing {
+  const t = samples(fn, o);
+  return { ...summary(t), runs: t.length * (o.inner ?? 5) };
+}
+
+/** Milliseconds per call of each of `reps` repetitions of `inner` calls, after warm-up. */
+export function samples(fn: () => void, o: { warmup?: number; reps?: number; inner?: number } = {}): number[] {
   const warm = o.warmup ?? 5;
   const reps = o.reps ?? 9;
   const inner = o.inner ?? 5;
@@ -14,8 +20,13 @@ export function time(fn: () => void, o: { warmup?: number; reps?: number; inner?
     for (let i = 0; i < inner; i++) fn();
     t.push((performance.now() - t0) / inner);
   }
-  t.sort((a, b) => a - b);
-  return { best: t[0], median: t[Math.floor(t.length / 2)], runs: reps * inner };
+  return t;
+}
+
+/** Best and median of a list of timings. */
+export function summary(t: readonly number[]): { best: number; median: number } {
+  const s = [...t].sort((a, b) => a - b);
+  return { best: s[0], median: s[Math.floor(s.length / 2)] };
 }
 
 export const round = (v: number, digits = 4) => Number(v.toPrecision(digits));

@@ -1,11 +1,15 @@
 import { writeFileSync } from "node:fs";
 import { createRun } from "../../solver/driver/run";
-import { round, time } from "./harness";
+import { seededRandom } from "../../solver/mesh/hexLattice";
+import { modalRestriction } from "../../solver/model/restriction";
+import { round, samples, summary, time } from "./harness";
+import { compileNative } from "./native";
 import { EXTRA_SECTIONS } from "./sections";
 
 /**
- * `npm run bench [-- --json FILE] [-- --quick]`: tendency cost per cell·layer and RK4 step time on periodic
- * hexagonal meshes with 3 layers, plus the sections registered in sections.ts.
+ * `npm run bench [-- --json FILE] [-- --quick]`: tendency and restricted-operator cost per cell·layer beside our own
+ * C loop over the same arrays, and RK4 step time, on periodic hexagonal meshes with 3 layers, plus the sections
+ * registered in sections.ts (`--only-kernels` skips those).
  */
 const argv = process.argv.slice(2);
 const jsonIdx = argv.indexOf("--json");
@@ -32,24 +36,67 @@ export function benchScenario(n: number) {
 const result: Record<string, unknown> = { machine: { cores: (await import("node:os")).cpus().length, node: process.version } };
 const tendency: Record<string, unknown> = {};
 const rk4Step: Record<string, unknown> = {};
-log("Tendency evaluation and RK4 step, 3 layers, periodic hexagonal mesh (best and median of repeated runs)");
-log("mesh       cells    ns per cell·layer (best / median)   RK4 step ms (best / median)");
+const native = compileNative(3);
+log("Kernels against a plain C loop, 3 layers, periodic hexagonal mesh: ns per cell·layer (a mode of the restricted");
+log("operator counts as a layer), best / median of repeats. C figure: our own loop in the repository, tests/bench/c/kernels.c,");
+log("over the same connectivity and coefficient arrays exported from the mesh and model, timed in a child process in");
+log(`rounds alternating with the TypeScript kernel. ${"unavailable" in native ? `C comparison skipped: ${native.unavailable}.` : `Compiled with ${native.compiler}.`}`);
+log("kernel                 mesh       TypeScript (best / median)   C (best / median)    ratio (best / median)   max rel. diff");
+const fmt = (t: { best: number; median: number }) => `${t.best.toFixed(1).padStart(7)} / ${t.median.toFixed(1).padEnd(7)}`;
 for (const n of [64, 128]) {
   const run = createRun(benchScenario(n));
-  const out = new Float64Array(run.model.n);
-  const cellLayers = run.mesh.nCells * 3;
-  const t = time(() => run.model.tendency(out, run.state, 0), { warmup: 20, reps: quick ? 5 : 15, inner: n === 64 ? 20 : 5 });
-  const s = time(() => run.stepper.step(run.state, 0, 60), { warmup: 3, reps: quick ? 3 : 9, inner: n === 64 ? 5 : 2 });
+  const model = run.model;
+  const restriction = modalRestriction(model, 1);
+  const modal = Float64Array.from({ length: restriction.operator.n }, seededRandom(5));
+  const out = new Float64Array(model.n);
+  const outModal = new Float64Array(restriction.operator.n);
+  const nc = run.mesh.nCells;
+  const rounds = quick ? 2 : 5;
+  const inner = n === 64 ? 20 : 5;
+  const reps = quick ? 3 : 5;
+  const ts = { tendency: [] as number[], restricted: [] as number[] };
+  const c = { tendency: [] as number[], restricted: [] as number[] };
+  const problem = "unavailable" in native ? null : native.load(model, restriction, run.state, modal);
+  let diff = { tendency: NaN, restricted: NaN };
+  for (let r = 0; r < rounds; r++) {
+    ts.tendency.push(...samples(() => model.tendency(out, run.state, 0), { warmup: r === 0 ? 20 : 2, reps, inner }));
+    ts.restricted.push(...samples(() => restriction.operator.apply(outModal, modal), { warmup: r === 0 ? 20 : 2, reps, inner: 2 * inner }));
+    if (problem) {
+      const cr = problem.run(reps, inner);
+      c.tendency.push(...cr.tendency.map((s) => s * 1e3));
+      c.restricted.push(...cr.restricted.map((s) => s * 1e3));
+      diff = { tendency: relativeDifference(cr.outTendency, out), restricted: relativeDifference(cr.outRestricted, outModal) };
+    }
+  }
   const key = `${n}x${n}`;
-  tendency[key] = { nsPerCellLayer: { best: round((t.best * 1e6) / cellLayers), median: round((t.median * 1e6) / cellLayers) } };
+  const row: Record<string, unknown> = {};
+  for (const [kernel, units] of [["tendency", nc * 3], ["restricted", nc]] as const) {
+    const t = summary(ts[kernel].map((ms) => (ms * 1e6) / units));
+    const cc = problem ? summary(c[kernel].map((ms) => (ms * 1e6) / units)) : null;
+    row[kernel] = { nsPerCellLayer: { best: round(t.best), median: round(t.median) },
+      ...(cc ? { c: { best: round(cc.best), median: round(cc.median) }, ratio: { best: round(t.best / cc.best, 3), median: round(t.median / cc.median, 3) }, maxRelativeDifference: diff[kernel] } : {}) };
+    const label = kernel === "tendency" ? "tendency" : "restricted, 1 mode";
+    log(`${label.padEnd(22)} ${key.padEnd(10)} ${fmt(t).padEnd(28)} ${cc ? fmt(cc).padEnd(20) : "—".padEnd(20)} ` +
+      `${cc ? `${(t.best / cc.best).toFixed(2).padStart(6)} / ${(t.median / cc.median).toFixed(2).padEnd(13)}` : "—".padEnd(22)} ${cc ? diff[kernel].toExponential(1) : ""}`);
+  }
+  const s = time(() => run.stepper.step(run.state, 0, 60), { warmup: 3, reps: quick ? 3 : 9, inner: n === 64 ? 5 : 2 });
+  row.rk4Step = { ms: { best: round(s.best), median: round(s.median) } };
+  tendency[key] = row;
   rk4Step[key] = { ms: { best: round(s.best), median: round(s.median) } };
-  log(`${key.padEnd(10)} ${String(run.mesh.nCells).padEnd(8)} ${((t.best * 1e6) / cellLayers).toFixed(1).padStart(8)} / ${((t.median * 1e6) / cellLayers).toFixed(1).padEnd(22)}` +
-    `${s.best.toFixed(2).padStart(8)} / ${s.median.toFixed(2)}`);
+  log(`${"RK4 step (ms)".padEnd(22)} ${key.padEnd(10)} ${s.best.toFixed(2).padStart(7)} / ${s.median.toFixed(2)}`);
 }
+if (!("unavailable" in native)) native.dispose();
 result.tendency = tendency;
 result.rk4Step = rk4Step;
 
-for (const section of EXTRA_SECTIONS) {
+/** Largest |a − b| relative to the largest |b|. */
+function relativeDifference(a: Float64Array, b: Float64Array): number {
+  let d = 0, s = 0;
+  for (let i = 0; i < b.length; i++) { d = Math.max(d, Math.abs(a[i] - b[i])); s = Math.max(s, Math.abs(b[i])); }
+  return s > 0 ? d / s : d;
+}
+
+for (const section of argv.includes("--only-kernels") ? [] : EXTRA_SECTIONS) {
   log("");
   try {
     result[section.key] = await section.run({ log, quick });

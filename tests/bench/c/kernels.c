@@ -1,0 +1,210 @@
+/*
+ * Comparison loops for `npm run bench`: the TRiSK tendency of a layered shallow-water model and the restricted
+ * (one vertical mode) wave operator, written as plain single-threaded C over the connectivity and coefficient
+ * arrays that the benchmark exports from a Stepwell mesh and model (one raw little-endian file per array).
+ * Same work as the TypeScript kernels: four fused passes (vertex PV, edge flux and PV, cell continuity and
+ * Bernoulli function, edge momentum) for the tendency; Coriolis, gradient and divergence stencils for the
+ * restricted operator. The layer count is a compile-time constant (-DLAYERS=3), as it is a constant of the
+ * generated TypeScript kernels. No threads, no explicit vector intrinsics: what `cc -O2` makes of plain loops.
+ *
+ * Usage: kernels DIR REPS INNER. Prints one JSON object: per kernel the seconds per call of each of REPS
+ * repetitions of INNER calls (after INNER warm-up calls); writes the outputs of one call to DIR/out_*.f64 so the
+ * benchmark can check that the C loop computes what the TypeScript kernel computes.
+ */
+#define _POSIX_C_SOURCE 199309L
+#include <stdint.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+#include <time.h>
+
+#ifndef LAYERS
+#define LAYERS 3
+#endif
+#define L LAYERS
+
+static const char *dir;
+
+static void *load(const char *name, size_t elem, size_t *count) {
+  char path[4096];
+  snprintf(path, sizeof path, "%s/%s", dir, name);
+  FILE *f = fopen(path, "rb");
+  if (!f) { fprintf(stderr, "kernels: cannot open %s\n", path); exit(2); }
+  fseek(f, 0, SEEK_END);
+  long bytes = ftell(f);
+  fseek(f, 0, SEEK_SET);
+  void *p = malloc(bytes > 0 ? (size_t)bytes : 1);
+  if (bytes > 0 && fread(p, 1, (size_t)bytes, f) != (size_t)bytes) { fprintf(stderr, "kernels: short read %s\n", path); exit(2); }
+  fclose(f);
+  if (count) *count = (size_t)bytes / elem;
+  return p;
+}
+
+static void save(const char *name, const double *a, size_t n) {
+  char path[4096];
+  snprintf(path, sizeof path, "%s/%s", dir, name);
+  FILE *f = fopen(path, "wb");
+  if (!f) { fprintf(stderr, "kernels: cannot write %s\n", path); exit(2); }
+  fwrite(a, sizeof(double), n, f);
+  fclose(f);
+}
+
+static double now(void) {
+  struct timespec t;
+  clock_gettime(CLOCK_MONOTONIC, &t);
+  return (double)t.tv_sec + 1e-9 * (double)t.tv_nsec;
+}
+
+/* mesh */
+static int nc, ne, nv;
+static int32_t *vertexEdges, *vertexCellsClamped, *edgeCellsClamped, *edgeVertices, *cellEdgeOffset, *cellEdgeIndex;
+static int32_t *tangentOffset, *tangentIndex;
+static uint8_t *vertexInterior, *edgeOpen;
+static double *vertexCurlCoef, *vertexKiteFraction, *cellEdgeDivCoef, *cellEdgeKeCoef, *edgeInvDistance, *tangentCoef;
+/* model */
+static double *coriolis, *bottom, *reducedGravity;
+/* work, layer-interleaved [L*entity + k] */
+static double *qV, *flux, *qE, *fq, *bern;
+
+static void tendency(double *restrict out, const double *restrict x) {
+  const int uo = L * nc;
+  for (int v = 0; v < nv; v++) {
+    const int j = 3 * v;
+    const int ca = vertexCellsClamped[j], cb = vertexCellsClamped[j + 1], cd = vertexCellsClamped[j + 2];
+    const double fa = vertexKiteFraction[j], fb = vertexKiteFraction[j + 1], fd = vertexKiteFraction[j + 2];
+    const double f = coriolis[v];
+    for (int k = 0; k < L; k++) {
+      double z = 0;
+      if (vertexInterior[v]) {
+        const double *u = x + uo + k * ne;
+        z = vertexCurlCoef[j] * u[vertexEdges[j]] + vertexCurlCoef[j + 1] * u[vertexEdges[j + 1]] + vertexCurlCoef[j + 2] * u[vertexEdges[j + 2]];
+      }
+      const double *h = x + k * nc;
+      qV[L * v + k] = (z + f) / (fa * h[ca] + fb * h[cb] + fd * h[cd]);
+    }
+  }
+  for (int e = 0; e < ne; e++) {
+    const int ca = edgeCellsClamped[2 * e], cb = edgeCellsClamped[2 * e + 1];
+    const int va = L * edgeVertices[2 * e], vb = L * edgeVertices[2 * e + 1];
+    for (int k = 0; k < L; k++) {
+      const double F = 0.5 * (x[k * nc + ca] + x[k * nc + cb]) * x[uo + k * ne + e];
+      const double q = 0.5 * (qV[va + k] + qV[vb + k]);
+      flux[L * e + k] = F;
+      qE[L * e + k] = q;
+      fq[L * e + k] = F * q;
+    }
+  }
+  for (int i = 0; i < nc; i++) {
+    double level = bottom[i], eta[L];
+    for (int k = L - 1; k >= 0; k--) { level += x[k * nc + i]; eta[k] = level; }
+    double pot = 0;
+    for (int k = 0; k < L; k++) { pot += reducedGravity[k] * eta[k]; bern[L * i + k] = pot; }
+  }
+  for (int i = 0; i < nc; i++) {
+    double d[L] = {0}, K[L] = {0};
+    for (int q = cellEdgeOffset[i]; q < cellEdgeOffset[i + 1]; q++) {
+      const int e = cellEdgeIndex[q];
+      const double c = cellEdgeDivCoef[q], w = cellEdgeKeCoef[q];
+      for (int k = 0; k < L; k++) {
+        const double a = x[uo + k * ne + e];
+        d[k] += c * flux[L * e + k];
+        K[k] += w * a * a;
+      }
+    }
+    for (int k = 0; k < L; k++) { out[k * nc + i] = -d[k]; bern[L * i + k] += K[k]; }
+  }
+  for (int e = 0; e < ne; e++) {
+    if (!edgeOpen[e]) { for (int k = 0; k < L; k++) out[uo + k * ne + e] = 0; continue; }
+    double a[L] = {0}, g[L] = {0};
+    for (int t = tangentOffset[e]; t < tangentOffset[e + 1]; t++) {
+      const int j = L * tangentIndex[t];
+      const double c = tangentCoef[t];
+      for (int k = 0; k < L; k++) { a[k] += c * flux[j + k]; g[k] += c * fq[j + k]; }
+    }
+    const int b1 = L * edgeCellsClamped[2 * e], b2 = L * edgeCellsClamped[2 * e + 1];
+    const double id = edgeInvDistance[e];
+    for (int k = 0; k < L; k++) out[uo + k * ne + e] = 0.5 * (qE[L * e + k] * a[k] + g[k]) - (bern[b2 + k] - bern[b1 + k]) * id;
+  }
+}
+
+/* restricted operator, one mode: Coriolis over the tangent stencil, gradient of the two cells, divergence */
+static double *corDiag, *gradDiag, *divDiag;
+static void restricted(double *restrict out, const double *restrict y) {
+  const int uo = nc;
+  for (int e = 0; e < ne; e++) {
+    if (!edgeOpen[e]) { out[uo + e] = 0; continue; }
+    double acc = 0;
+    for (int q = tangentOffset[e]; q < tangentOffset[e + 1]; q++) acc += corDiag[q] * y[uo + tangentIndex[q]];
+    acc += gradDiag[2 * e] * y[edgeCellsClamped[2 * e]] + gradDiag[2 * e + 1] * y[edgeCellsClamped[2 * e + 1]];
+    out[uo + e] = acc;
+  }
+  for (int i = 0; i < nc; i++) {
+    double acc = 0;
+    for (int q = cellEdgeOffset[i]; q < cellEdgeOffset[i + 1]; q++) acc += divDiag[q] * y[uo + cellEdgeIndex[q]];
+    out[i] = acc;
+  }
+}
+
+static void timeIt(const char *name, void (*fn)(double *, const double *), double *out, const double *x, int reps, int inner, int last) {
+  double *t = malloc(sizeof(double) * (size_t)reps);
+  for (int w = 0; w < inner; w++) fn(out, x);
+  for (int r = 0; r < reps; r++) {
+    const double t0 = now();
+    for (int w = 0; w < inner; w++) fn(out, x);
+    t[r] = (now() - t0) / inner;
+  }
+  printf("  \"%s\": [", name);
+  for (int r = 0; r < reps; r++) printf("%s%.9e", r ? ", " : "", t[r]);
+  printf("]%s\n", last ? "" : ",");
+  free(t);
+}
+
+int main(int argc, char **argv) {
+  if (argc < 4) { fprintf(stderr, "usage: kernels DIR REPS INNER\n"); return 2; }
+  dir = argv[1];
+  const int reps = atoi(argv[2]), inner = atoi(argv[3]);
+  size_t n;
+  vertexEdges = load("vertexEdges.i32", 4, &n); nv = (int)(n / 3);
+  vertexCellsClamped = load("vertexCellsClamped.i32", 4, NULL);
+  vertexInterior = load("vertexInterior.u8", 1, NULL);
+  vertexCurlCoef = load("vertexCurlCoef.f64", 8, NULL);
+  vertexKiteFraction = load("vertexKiteFraction.f64", 8, NULL);
+  edgeCellsClamped = load("edgeCellsClamped.i32", 4, &n); ne = (int)(n / 2);
+  edgeVertices = load("edgeVertices.i32", 4, NULL);
+  edgeOpen = load("edgeOpen.u8", 1, NULL);
+  edgeInvDistance = load("edgeInvDistance.f64", 8, NULL);
+  cellEdgeOffset = load("cellEdgeOffset.i32", 4, &n); nc = (int)n - 1;
+  cellEdgeIndex = load("cellEdgeIndex.i32", 4, NULL);
+  cellEdgeDivCoef = load("cellEdgeDivCoef.f64", 8, NULL);
+  cellEdgeKeCoef = load("cellEdgeKeCoef.f64", 8, NULL);
+  tangentOffset = load("tangentOffset.i32", 4, NULL);
+  tangentIndex = load("tangentIndex.i32", 4, NULL);
+  tangentCoef = load("tangentCoef.f64", 8, NULL);
+  coriolis = load("coriolisVertex.f64", 8, NULL);
+  bottom = load("bottom.f64", 8, NULL);
+  reducedGravity = load("reducedGravity.f64", 8, &n);
+  if ((int)n != L) { fprintf(stderr, "kernels: compiled for %d layers, model has %d\n", L, (int)n); return 2; }
+  double *x = load("state.f64", 8, &n);
+  if ((int)n != L * (nc + ne)) { fprintf(stderr, "kernels: state length %d, expected %d\n", (int)n, L * (nc + ne)); return 2; }
+  corDiag = load("restrictedCoriolis.f64", 8, NULL);
+  gradDiag = load("restrictedGradient.f64", 8, NULL);
+  divDiag = load("restrictedDivergence.f64", 8, NULL);
+  double *y = load("modal.f64", 8, &n);
+  if ((int)n != nc + ne) { fprintf(stderr, "kernels: modal length %d, expected %d\n", (int)n, nc + ne); return 2; }
+
+  qV = calloc((size_t)L * nv, sizeof(double));
+  flux = calloc((size_t)L * ne, sizeof(double));
+  qE = calloc((size_t)L * ne, sizeof(double));
+  fq = calloc((size_t)L * ne, sizeof(double));
+  bern = calloc((size_t)L * nc, sizeof(double));
+  double *out = calloc((size_t)L * (nc + ne), sizeof(double));
+  double *outModal = calloc((size_t)(nc + ne), sizeof(double));
+
+  printf("{\n");
+  timeIt("tendency", tendency, out, x, reps, inner, 0);
+  timeIt("restricted", restricted, outModal, y, reps, 2 * inner, 1);
+  printf("}\n");
+  save("out_tendency.f64", out, (size_t)L * (nc + ne));
+  save("out_restricted.f64", outModal, (size_t)(nc + ne));
+  return 0;
+}
