@@ -1,4 +1,5 @@
 import type { Mesh } from "../mesh/types.js";
+import { KernelMemoryBuilder, padStencil, type KernelExports } from "../kernels/wasm.js";
 import {
   addScaled, cellContinuityBernoulli, edgeFluxAndPv, edgeMomentum, edgeThickness, linearDrag, paddedLayers, vectorLaplacian,
   vertexPotentialVorticity, windForcing,
@@ -71,14 +72,28 @@ interface Work {
   div: Float64Array; lap: Float64Array; lap2: Float64Array; vort2: Float64Array;
 }
 
+/**
+ * Which implementation runs the four fused passes: "wasm" (default; the WebAssembly kernels of solver/kernels,
+ * falling back to the TypeScript loops where WebAssembly is unavailable) or "typescript" (the loops of terms.ts,
+ * kept as the reference the kernels are tested against). Both compute the same values up to round-off.
+ */
+export type KernelChoice = "wasm" | "typescript";
+
+/** The fused passes in a kernel memory: input and output vectors, work arrays and the mesh arrays they read. */
+interface WasmTendency {
+  run(out: Float64Array, x: Float64Array): void;
+}
+
 export class ShallowWaterModel {
   readonly layout: StateLayout;
   readonly n: number;
   /** Tendency evaluations since creation. */
   rhsEvaluations = 0;
   private readonly w: Work;
+  /** Built at the first tendency evaluation; null = TypeScript loops. */
+  private wasm: WasmTendency | null | undefined;
 
-  constructor(readonly mesh: Mesh, readonly params: ModelParams) {
+  constructor(readonly mesh: Mesh, readonly params: ModelParams, readonly kernels: KernelChoice = "wasm") {
     this.layout = stateLayout(mesh, params.nLayers);
     this.n = this.layout.n;
     const { nCells: nc, nEdges: ne, nVertices: nv } = mesh;
@@ -100,10 +115,15 @@ export class ShallowWaterModel {
     this.rhsEvaluations++;
     const { mesh: m, params: p, w } = this;
     const { nLayers: L, nEdges: ne, uOffset } = this.layout;
-    vertexPotentialVorticity(w.qVertexAll, m, x, uOffset, L, p.coriolisVertex);
-    edgeFluxAndPv(w.fluxAll, w.qEdgeAll, w.fluxPvAll, m, x, uOffset, L, w.qVertexAll);
-    cellContinuityBernoulli(out, w.bernoulli, m, x, uOffset, L, w.fluxAll, p.bottom, p.reducedGravity);
-    edgeMomentum(out, m, uOffset, L, w.fluxAll, w.qEdgeAll, w.fluxPvAll, w.bernoulli, w.tangentSlot);
+    if (this.wasm === undefined) this.wasm = this.kernels === "wasm" ? wasmTendency(m, p, this.layout) : null;
+    if (this.wasm) {
+      this.wasm.run(out, x);
+    } else {
+      vertexPotentialVorticity(w.qVertexAll, m, x, uOffset, L, p.coriolisVertex);
+      edgeFluxAndPv(w.fluxAll, w.qEdgeAll, w.fluxPvAll, m, x, uOffset, L, w.qVertexAll);
+      cellContinuityBernoulli(out, w.bernoulli, m, x, uOffset, L, w.fluxAll, p.bottom, p.reducedGravity);
+      edgeMomentum(out, m, uOffset, L, w.fluxAll, w.qEdgeAll, w.fluxPvAll, w.bernoulli, w.tangentSlot);
+    }
     if (p.windStress) {
       edgeThickness(w.hEdge, m, x, 0);
       windForcing(out, uOffset, m, p.windStress, p.rho0, w.hEdge);
@@ -137,4 +157,38 @@ export class ShallowWaterModel {
     }
     return out;
   }
+}
+
+/**
+ * The four fused passes of terms.ts as WebAssembly kernels over copies of the mesh arrays (stencils padded to
+ * fixed widths, see padStencil); null where WebAssembly is unavailable. Allocates its memory once.
+ */
+function wasmTendency(m: Mesh, p: ModelParams, layout: StateLayout): WasmTendency | null {
+  const { nLayers: L, nCells: nc, nEdges: ne, uOffset, n } = layout;
+  const nv = m.nVertices;
+  const P = paddedLayers(L);
+  const b = new KernelMemoryBuilder();
+  const x = b.f64(n), out = b.f64(n);
+  const qV = b.f64(P * nv), flux = b.f64(P * ne), qE = b.f64(P * ne), fq = b.f64(P * ne), bern = b.f64(P * nc);
+  const ve = b.copy(m.vertexEdges), vc = b.copy(m.vertexCellsClamped), cc = b.copy(m.vertexCurlCoef);
+  const kf = b.copy(m.vertexKiteFraction), vi = b.copy(m.vertexInterior), cor = b.copy(p.coriolisVertex);
+  const ec = b.copy(m.edgeCellsClamped), ev = b.copy(m.edgeVertices), open = b.copy(m.edgeOpen), inv = b.copy(m.edgeInvDistance);
+  const cells = padStencil(m.cellEdgeOffset, nc, (q) => m.cellEdgeIndex[q], [m.cellEdgeDivCoef, m.cellEdgeKeCoef]);
+  const idx = b.copy(cells.index), dcf = b.copy(cells.coefs[0]), kcf = b.copy(cells.coefs[1]);
+  const tangents = padStencil(m.tangentOffset, ne, (q) => P * m.tangentIndex[q], [m.tangentCoef]);
+  const slot = b.copy(tangents.index), tw = b.copy(tangents.coefs[0]);
+  const bottom = b.copy(p.bottom), rg = b.copy(p.reducedGravity);
+  const k: KernelExports | null = b.build();
+  if (!k) return null;
+  const WC = cells.width, WT = tangents.width;
+  return {
+    run(o, xIn) {
+      x.view.set(xIn);
+      k.vertexPotentialVorticity(qV.ptr, x.ptr, nv, nc, ne, uOffset, L, P, ve.ptr, vc.ptr, cc.ptr, kf.ptr, vi.ptr, cor.ptr);
+      k.edgeFluxAndPv(flux.ptr, qE.ptr, fq.ptr, x.ptr, ne, nc, uOffset, L, P, ec.ptr, ev.ptr, qV.ptr);
+      k.cellContinuityBernoulli(out.ptr, bern.ptr, x.ptr, nc, ne, uOffset, L, P, WC, idx.ptr, dcf.ptr, kcf.ptr, bottom.ptr, rg.ptr, flux.ptr);
+      k.edgeMomentum(out.ptr, ne, uOffset, L, P, WT, ec.ptr, open.ptr, inv.ptr, slot.ptr, tw.ptr, flux.ptr, qE.ptr, fq.ptr, bern.ptr);
+      o.set(out.view);
+    },
+  };
 }
