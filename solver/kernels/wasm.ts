@@ -42,6 +42,9 @@ export interface KernelExports {
     out: Ptr, x: Ptr, nc: number, ne: number, L: number, WT: number, WC: number,
     G: Ptr, mont: Ptr, cor: Ptr, cont: Ptr, inv: Ptr, ti: Ptr, ec: Ptr, open: Ptr, ci: Ptr,
   ): void;
+  gradient(out: Ptr, phi: Ptr, ne: number, ec: Ptr, dc: Ptr, open: Ptr): void;
+  divergence(out: Ptr, flux: Ptr, nc: number, W: number, ci: Ptr, sl: Ptr, area: Ptr): void;
+  pvFlux(out: Ptr, flux: Ptr, q: Ptr, ne: number, W: number, ti: Ptr, tw: Ptr, open: Ptr): void;
 }
 
 /** The part of the WebAssembly JS API used here (typed locally: the solver compiles without DOM or Node types). */

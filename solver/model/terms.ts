@@ -1,5 +1,6 @@
 import type { Mesh } from "../mesh/types.js";
 import { divergence } from "../mesh/operators.js";
+import { meshKernels } from "../kernels/meshKernels.js";
 
 /**
  * Terms of the TRiSK multi-layer equations (Ringler et al. 2010, J. Comput. Phys. 229, 3065–3090): per-layer
@@ -63,9 +64,17 @@ export function potentialVorticity(
 
 /**
  * Coriolis + vortex force, Q_e = Σ_{e'} W_{e,e'} (l_{e'}/d_e) F_{e'} (q_e + q_{e'})/2 (Ringler et al. 2010).
- * Writes (not adds) the momentum tendency of open edges and zero on coastline edges [m/s²].
+ * Writes (not adds) the momentum tendency of open edges and zero on coastline edges [m/s²]. Runs as a
+ * WebAssembly kernel where available (solver/kernels/meshKernels.ts, same operation order).
  */
 export function pvFlux(out: Float64Array, outOff: number, m: Mesh, flux: Float64Array, qEdge: Float64Array): void {
+  const k = meshKernels(m);
+  if (k) k.pvFlux(out, outOff, flux, qEdge);
+  else pvFluxLoop(out, outOff, m, flux, qEdge);
+}
+
+/** `pvFlux` as a TypeScript loop (the reference of the kernel, and its fallback). */
+export function pvFluxLoop(out: Float64Array, outOff: number, m: Mesh, flux: Float64Array, qEdge: Float64Array): void {
   const { tangentOffset: off, tangentIndex: idx, tangentCoef: w, edgeOpen } = m;
   for (let e = 0; e < m.nEdges; e++) {
     if (!edgeOpen[e]) { out[outOff + e] = 0; continue; }

@@ -18,13 +18,19 @@ export interface NativeLoops {
   /** Compiler line used, for the report. */
   readonly compiler: string;
   /** Export the arrays of a model and its one-mode restriction; returns a handle to time them. */
-  load(model: ShallowWaterModel, restriction: ModalRestriction, state: Float64Array, modal: Float64Array): NativeProblem;
+  load(model: ShallowWaterModel, restriction: ModalRestriction, state: Float64Array, modal: Float64Array, barotropic: BarotropicFields): NativeProblem;
   dispose(): void;
 }
 
+/** Inputs of the barotropic sub-step stencils: a cell field, an edge field (transport) and edge PV. */
+export interface BarotropicFields { cell: Float64Array; edge: Float64Array; pv: Float64Array }
+
 export interface NativeProblem {
-  /** Seconds per call of each repetition, and the outputs of the last call. */
-  run(reps: number, inner: number): { tendency: number[]; restricted: number[]; outTendency: Float64Array; outRestricted: Float64Array };
+  /** Seconds per call of each repetition, and the outputs of the last call (sub-step: gradient, two PV fluxes, divergence). */
+  run(reps: number, inner: number): {
+    tendency: number[]; restricted: number[]; substep: number[];
+    outTendency: Float64Array; outRestricted: Float64Array; outSubstep: Float64Array;
+  };
 }
 
 /** Compile the comparison loops for `layers` layers; null (with the reason) when no C compiler runs. */
@@ -42,7 +48,7 @@ export function compileNative(layers: number): NativeLoops | { unavailable: stri
   let count = 0;
   return {
     compiler: `cc ${args.slice(0, 2).join(" ")} (${execFileSync("cc", ["--version"]).toString().split("\n")[0]})`,
-    load(model, restriction, state, modal) {
+    load(model, restriction, state, modal, barotropic) {
       const dir = join(work, `p${count++}`);
       mkdirSync(dir);
       const m = model.mesh;
@@ -73,11 +79,19 @@ export function compileNative(layers: number): NativeLoops | { unavailable: stri
       put("restrictedGradient.f64", c.gradient);
       put("restrictedDivergence.f64", c.divergence);
       put("modal.f64", modal);
+      put("edgeCells.i32", m.edgeCells);
+      put("edgeCellDistance.f64", m.edgeCellDistance);
+      put("cellEdgeSign.f64", m.cellEdgeSign);
+      put("edgeLength.f64", m.edgeLength);
+      put("cellArea.f64", m.cellArea);
+      put("barotropicCell.f64", barotropic.cell);
+      put("barotropicEdge.f64", barotropic.edge);
+      put("barotropicPv.f64", barotropic.pv);
       const read = (name: string) => { const b = readFileSync(join(dir, name)); return new Float64Array(b.buffer, b.byteOffset, b.byteLength / 8).slice(); };
       return {
         run(reps, inner) {
-          const res = JSON.parse(execFileSync(exe, [dir, String(reps), String(inner)]).toString()) as { tendency: number[]; restricted: number[] };
-          return { ...res, outTendency: read("out_tendency.f64"), outRestricted: read("out_restricted.f64") };
+          const res = JSON.parse(execFileSync(exe, [dir, String(reps), String(inner)]).toString()) as { tendency: number[]; restricted: number[]; substep: number[] };
+          return { ...res, outTendency: read("out_tendency.f64"), outRestricted: read("out_restricted.f64"), outSubstep: read("out_substep.f64") };
         },
       };
     },

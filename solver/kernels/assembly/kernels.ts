@@ -299,3 +299,48 @@ export function restOperator(
     for (let i = 0; i < nc; i++) st(oH, i, cellSum(contK, ci, u, WC * i, WC));
   }
 }
+
+// ---------------------------------------------------------------------------------------------------------
+// Single-field mesh operators of solver/mesh/operators.ts and terms.ts (the stencils of a barotropic sub-step),
+// in their operation order: gradient, divergence, PV flux.
+
+/** out[e] = (φ[c2] − φ[c1]) / d_e on open edges, 0 on coastline edges. */
+export function gradient(out: usize, phi: usize, ne: i32, ec: usize, dc: usize, open: usize): void {
+  for (let e = 0; e < ne; e++) {
+    st(out, e, load<u8>(open + <usize>e) != 0 ? (ld(phi, li(ec, 2 * e + 1)) - ld(phi, li(ec, 2 * e))) / ld(dc, e) : 0);
+  }
+}
+
+/** out[i] = (Σ_q (s_q l_q) F_q) / A_i; `sl` holds s_q·l_q per padded slot. */
+export function divergence(out: usize, flux: usize, nc: i32, W: i32, ci: usize, sl: usize, area: usize): void {
+  for (let i = 0; i < nc; i++) st(out, i, cellSum(sl, ci, flux, W * i, W) / ld(area, i));
+}
+
+/** out[e] = ½ Σ_{e'} W_{e,e'} (l_{e'}/d_e) F_{e'} (q_e + q_{e'}) on open edges, 0 on coastline edges. */
+export function pvFlux(out: usize, flux: usize, q: usize, ne: i32, W: i32, ti: usize, tw: usize, open: usize): void {
+  for (let e = 0; e < ne; e++) {
+    if (load<u8>(open + <usize>e) == 0) { st(out, e, 0); continue; }
+    const qe = ld(q, e);
+    let acc: f64 = 0;
+    const t0 = W * e;
+    if (W == 10) {
+      let e2 = 0;
+      e2 = li(ti, t0); acc += ld(tw, t0) * ld(flux, e2) * (qe + ld(q, e2));
+      e2 = li(ti, t0 + 1); acc += ld(tw, t0 + 1) * ld(flux, e2) * (qe + ld(q, e2));
+      e2 = li(ti, t0 + 2); acc += ld(tw, t0 + 2) * ld(flux, e2) * (qe + ld(q, e2));
+      e2 = li(ti, t0 + 3); acc += ld(tw, t0 + 3) * ld(flux, e2) * (qe + ld(q, e2));
+      e2 = li(ti, t0 + 4); acc += ld(tw, t0 + 4) * ld(flux, e2) * (qe + ld(q, e2));
+      e2 = li(ti, t0 + 5); acc += ld(tw, t0 + 5) * ld(flux, e2) * (qe + ld(q, e2));
+      e2 = li(ti, t0 + 6); acc += ld(tw, t0 + 6) * ld(flux, e2) * (qe + ld(q, e2));
+      e2 = li(ti, t0 + 7); acc += ld(tw, t0 + 7) * ld(flux, e2) * (qe + ld(q, e2));
+      e2 = li(ti, t0 + 8); acc += ld(tw, t0 + 8) * ld(flux, e2) * (qe + ld(q, e2));
+      e2 = li(ti, t0 + 9); acc += ld(tw, t0 + 9) * ld(flux, e2) * (qe + ld(q, e2));
+    } else {
+      for (let t = t0; t < t0 + W; t++) {
+        const e2 = li(ti, t);
+        acc += ld(tw, t) * ld(flux, e2) * (qe + ld(q, e2));
+      }
+    }
+    st(out, e, 0.5 * acc);
+  }
+}

@@ -2,9 +2,9 @@
  * Comparison loops for `npm run bench`: the TRiSK tendency of a layered shallow-water model and the restricted
  * (one vertical mode) wave operator, written as plain single-threaded C over the connectivity and coefficient
  * arrays that the benchmark exports from a Stepwell mesh and model (one raw little-endian file per array).
- * Same work as the TypeScript kernels: four fused passes (vertex PV, edge flux and PV, cell continuity and
+ * Same work as the Stepwell kernels: four fused passes (vertex PV, edge flux and PV, cell continuity and
  * Bernoulli function, edge momentum) for the tendency; Coriolis, gradient and divergence stencils for the
- * restricted operator. The layer count is a compile-time constant (-DLAYERS=3), as it is a constant of the
+ * restricted operator; gradient, two PV fluxes and divergence for the stencils of a barotropic sub-step. The layer count is a compile-time constant (-DLAYERS=3), as it is a constant of the
  * generated TypeScript kernels. No threads, no explicit vector intrinsics: what `cc -O2` makes of plain loops.
  *
  * Usage: kernels DIR REPS INNER. Prints one JSON object: per kernel the seconds per call of each of REPS
@@ -145,6 +145,44 @@ static void restricted(double *restrict out, const double *restrict y) {
   }
 }
 
+/* barotropic sub-step stencils, one layer, as solver/mesh/operators.ts and pvFlux in terms.ts write them:
+   gradient of a cell field, two PV fluxes, divergence of an edge field */
+static int32_t *edgeCells;
+static double *edgeCellDistance, *cellEdgeSign, *edgeLength, *cellArea;
+static double *btCell, *btEdge, *btQ, *btGrad, *btCor1, *btCor2, *btDiv;
+static void gradient(double *restrict out, const double *restrict phi) {
+  for (int e = 0; e < ne; e++) out[e] = edgeOpen[e] ? (phi[edgeCells[2 * e + 1]] - phi[edgeCells[2 * e]]) / edgeCellDistance[e] : 0;
+}
+static void divergence(double *restrict out, const double *restrict flux) {
+  for (int i = 0; i < nc; i++) {
+    double acc = 0;
+    for (int q = cellEdgeOffset[i]; q < cellEdgeOffset[i + 1]; q++) {
+      const int e = cellEdgeIndex[q];
+      acc += cellEdgeSign[q] * edgeLength[e] * flux[e];
+    }
+    out[i] = acc / cellArea[i];
+  }
+}
+static void pvFlux(double *restrict out, const double *restrict flux, const double *restrict qEdge) {
+  for (int e = 0; e < ne; e++) {
+    if (!edgeOpen[e]) { out[e] = 0; continue; }
+    const double qe = qEdge[e];
+    double acc = 0;
+    for (int q = tangentOffset[e]; q < tangentOffset[e + 1]; q++) {
+      const int e2 = tangentIndex[q];
+      acc += tangentCoef[q] * flux[e2] * (qe + qEdge[e2]);
+    }
+    out[e] = 0.5 * acc;
+  }
+}
+static void substep(double *out, const double *x) {
+  (void)out; (void)x;
+  gradient(btGrad, btCell);
+  pvFlux(btCor1, btEdge, btQ);
+  pvFlux(btCor2, btEdge, btQ);
+  divergence(btDiv, btEdge);
+}
+
 static void timeIt(const char *name, void (*fn)(double *, const double *), double *out, const double *x, int reps, int inner, int last) {
   double *t = malloc(sizeof(double) * (size_t)reps);
   for (int w = 0; w < inner; w++) fn(out, x);
@@ -192,6 +230,19 @@ int main(int argc, char **argv) {
   double *y = load("modal.f64", 8, &n);
   if ((int)n != nc + ne) { fprintf(stderr, "kernels: modal length %d, expected %d\n", (int)n, nc + ne); return 2; }
 
+  edgeCells = load("edgeCells.i32", 4, NULL);
+  edgeCellDistance = load("edgeCellDistance.f64", 8, NULL);
+  cellEdgeSign = load("cellEdgeSign.f64", 8, NULL);
+  edgeLength = load("edgeLength.f64", 8, NULL);
+  cellArea = load("cellArea.f64", 8, NULL);
+  btCell = load("barotropicCell.f64", 8, NULL);
+  btEdge = load("barotropicEdge.f64", 8, NULL);
+  btQ = load("barotropicPv.f64", 8, NULL);
+  btGrad = calloc((size_t)ne, sizeof(double));
+  btCor1 = calloc((size_t)ne, sizeof(double));
+  btCor2 = calloc((size_t)ne, sizeof(double));
+  btDiv = calloc((size_t)nc, sizeof(double));
+
   qV = calloc((size_t)L * nv, sizeof(double));
   flux = calloc((size_t)L * ne, sizeof(double));
   qE = calloc((size_t)L * ne, sizeof(double));
@@ -202,9 +253,16 @@ int main(int argc, char **argv) {
 
   printf("{\n");
   timeIt("tendency", tendency, out, x, reps, inner, 0);
-  timeIt("restricted", restricted, outModal, y, reps, 2 * inner, 1);
+  timeIt("restricted", restricted, outModal, y, reps, 2 * inner, 0);
+  timeIt("substep", substep, NULL, NULL, reps, 2 * inner, 1);
   printf("}\n");
   save("out_tendency.f64", out, (size_t)L * (nc + ne));
   save("out_restricted.f64", outModal, (size_t)(nc + ne));
+  double *bt = malloc(sizeof(double) * (size_t)(3 * ne + nc));
+  memcpy(bt, btGrad, sizeof(double) * (size_t)ne);
+  memcpy(bt + ne, btCor1, sizeof(double) * (size_t)ne);
+  memcpy(bt + 2 * ne, btCor2, sizeof(double) * (size_t)ne);
+  memcpy(bt + 3 * ne, btDiv, sizeof(double) * (size_t)nc);
+  save("out_substep.f64", bt, (size_t)(3 * ne + nc));
   return 0;
 }
