@@ -45,6 +45,13 @@ export interface KernelExports {
   gradient(out: Ptr, phi: Ptr, ne: number, ec: Ptr, dc: Ptr, open: Ptr): void;
   divergence(out: Ptr, flux: Ptr, nc: number, W: number, ci: Ptr, sl: Ptr, area: Ptr): void;
   pvFlux(out: Ptr, flux: Ptr, q: Ptr, ne: number, W: number, ti: Ptr, tw: Ptr, open: Ptr): void;
+  jacobianApply(
+    out: Ptr, x: Ptr, nc: number, ne: number, nv: number, L: number, uOffset: number, WC: number, WT: number,
+    G: Ptr, dM: Ptr, xBar: Ptr, hEdge: Ptr, flux: Ptr, hVert: Ptr, qVert: Ptr, qEdge: Ptr,
+    dhEdge: Ptr, dFlux: Ptr, dVort: Ptr, dqVert: Ptr, dqEdge: Ptr, dK: Ptr,
+    ec: Ptr, ev: Ptr, open: Ptr, dc: Ptr, area: Ptr, ci: Ptr, sl: Ptr, lk: Ptr,
+    ve: Ptr, vsd: Ptr, vc: Ptr, ka: Ptr, vArea: Ptr, vi: Ptr, ti: Ptr, tw: Ptr,
+  ): void;
 }
 
 /** The part of the WebAssembly JS API used here (typed locally: the solver compiles without DOM or Node types). */

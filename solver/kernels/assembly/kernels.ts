@@ -344,3 +344,80 @@ export function pvFlux(out: usize, flux: usize, q: usize, ne: i32, W: i32, ti: u
     st(out, e, 0.5 * acc);
   }
 }
+
+// ---------------------------------------------------------------------------------------------------------
+// Jacobian-vector product of the inviscid, unforced tendency about x̄ (solver/model/jacobian.ts, same order);
+// wind, drag and viscosity are added by the host afterwards. Linearization-point arrays are per layer:
+// hEdge, flux, qEdge [k·ne + e], hVert, qVert [k·nv + v]. Work: dM [k·nc + i], the rest one layer long.
+// Per padded cell slot: ci, sl = s·l_e, lk = l_e d_e; per vertex slot: ve, vsd = t·d_e, vc (clamped), ka.
+
+export function jacobianApply(
+  out: usize, x: usize, nc: i32, ne: i32, nv: i32, L: i32, uOffset: i32, WC: i32, WT: i32,
+  G: usize, dM: usize, xBar: usize, hEdge: usize, flux: usize, hVert: usize, qVert: usize, qEdge: usize,
+  dhEdge: usize, dFlux: usize, dVort: usize, dqVert: usize, dqEdge: usize, dK: usize,
+  ec: usize, ev: usize, open: usize, dc: usize, area: usize, ci: usize, sl: usize, lk: usize,
+  ve: usize, vsd: usize, vc: usize, ka: usize, vArea: usize, vi: usize, ti: usize, tw: usize,
+): void {
+  for (let i = 0; i < nc; i++) {
+    for (let k = 0; k < L; k++) {
+      let s: f64 = 0;
+      for (let j = 0; j < L; j++) s += ld(G, k * L + j) * ld(x, j * nc + i);
+      st(dM, k * nc + i, s);
+    }
+  }
+  for (let k = 0; k < L; k++) {
+    const h = x + (<usize>(k * nc) << 3), u = x + (<usize>(uOffset + k * ne) << 3), ub = xBar + (<usize>(uOffset + k * ne) << 3);
+    const oH = out + (<usize>(k * nc) << 3), oU = out + (<usize>(uOffset + k * ne) << 3);
+    const hE = hEdge + (<usize>(k * ne) << 3), fE = flux + (<usize>(k * ne) << 3), qE = qEdge + (<usize>(k * ne) << 3);
+    const hV = hVert + (<usize>(k * nv) << 3), qV = qVert + (<usize>(k * nv) << 3), M = dM + (<usize>(k * nc) << 3);
+    // δF = δĥ ū + ĥ̄ δu
+    for (let e = 0; e < ne; e++) {
+      const dh = 0.5 * (ld(h, li(ec, 2 * e)) + ld(h, li(ec, 2 * e + 1)));
+      st(dhEdge, e, dh);
+      st(dFlux, e, dh * ld(ub, e) + ld(hE, e) * ld(u, e));
+    }
+    // continuity −D δF, and δK_i = (1/2A_i) Σ l_e d_e ū_e δu_e
+    for (let i = 0; i < nc; i++) {
+      let s: f64 = 0, t: f64 = 0;
+      for (let q = WC * i; q < WC * i + WC; q++) {
+        const e = li(ci, q);
+        s += ld(sl, q) * ld(dFlux, e);
+        t += ld(lk, q) * ld(ub, e) * ld(u, e);
+      }
+      st(oH, i, -s / ld(area, i));
+      st(dK, i, (0.5 * t) / ld(area, i));
+    }
+    // δq_v = (δζ_v − q̄_v δh_v)/h̄_v and its edge mean
+    for (let v = 0; v < nv; v++) {
+      const j = 3 * v;
+      let z: f64 = 0;
+      if (load<u8>(vi + <usize>v) != 0) {
+        let s: f64 = 0;
+        s += ld(vsd, j) * ld(u, li(ve, j));
+        s += ld(vsd, j + 1) * ld(u, li(ve, j + 1));
+        s += ld(vsd, j + 2) * ld(u, li(ve, j + 2));
+        z = s / ld(vArea, v);
+      }
+      let m: f64 = 0;
+      m += ld(ka, j) * ld(h, li(vc, j));
+      m += ld(ka, j + 1) * ld(h, li(vc, j + 1));
+      m += ld(ka, j + 2) * ld(h, li(vc, j + 2));
+      const dhv = m / ld(vArea, v);
+      st(dVort, v, z);
+      st(dqVert, v, (z - ld(qV, v) * dhv) / ld(hV, v));
+    }
+    for (let e = 0; e < ne; e++) st(dqEdge, e, 0.5 * (ld(dqVert, li(ev, 2 * e)) + ld(dqVert, li(ev, 2 * e + 1))));
+    // momentum: δQ − G(δK + δM)
+    for (let e = 0; e < ne; e++) {
+      if (load<u8>(open + <usize>e) == 0) { st(oU, e, 0); continue; }
+      const qe = ld(qE, e), dqe = ld(dqEdge, e);
+      let acc: f64 = 0;
+      for (let q = WT * e; q < WT * e + WT; q++) {
+        const e2 = li(ti, q);
+        acc += ld(tw, q) * (ld(dFlux, e2) * (qe + ld(qE, e2)) + ld(fE, e2) * (dqe + ld(dqEdge, e2)));
+      }
+      const c1 = li(ec, 2 * e), c2 = li(ec, 2 * e + 1);
+      st(oU, e, 0.5 * acc - (ld(dK, c2) + ld(M, c2) - ld(dK, c1) - ld(M, c1)) / ld(dc, e));
+    }
+  }
+}
