@@ -3,6 +3,7 @@ import { mkdirSync, mkdtempSync, readFileSync, rmSync, writeFileSync } from "nod
 import { tmpdir } from "node:os";
 import { dirname, join } from "node:path";
 import { fileURLToPath } from "node:url";
+import type { RestLinearOperator } from "../../solver/model/linear";
 import type { ModalRestriction } from "../../solver/model/restriction";
 import type { ShallowWaterModel } from "../../solver/model/shallowWater";
 
@@ -18,7 +19,10 @@ export interface NativeLoops {
   /** Compiler line used, for the report. */
   readonly compiler: string;
   /** Export the arrays of a model and its one-mode restriction; returns a handle to time them. */
-  load(model: ShallowWaterModel, restriction: ModalRestriction, state: Float64Array, modal: Float64Array, barotropic: BarotropicFields): NativeProblem;
+  load(
+    model: ShallowWaterModel, restriction: ModalRestriction, state: Float64Array, modal: Float64Array, barotropic: BarotropicFields,
+    rest: RestLinearOperator, restInput: Float64Array,
+  ): NativeProblem;
   dispose(): void;
 }
 
@@ -28,8 +32,8 @@ export interface BarotropicFields { cell: Float64Array; edge: Float64Array; pv: 
 export interface NativeProblem {
   /** Seconds per call of each repetition, and the outputs of the last call (sub-step: gradient, two PV fluxes, divergence). */
   run(reps: number, inner: number): {
-    tendency: number[]; restricted: number[]; substep: number[];
-    outTendency: Float64Array; outRestricted: Float64Array; outSubstep: Float64Array;
+    tendency: number[]; restricted: number[]; substep: number[]; rest: number[];
+    outTendency: Float64Array; outRestricted: Float64Array; outSubstep: Float64Array; outRest: Float64Array;
   };
 }
 
@@ -48,7 +52,7 @@ export function compileNative(layers: number): NativeLoops | { unavailable: stri
   let count = 0;
   return {
     compiler: `cc ${args.slice(0, 2).join(" ")} (${execFileSync("cc", ["--version"]).toString().split("\n")[0]})`,
-    load(model, restriction, state, modal, barotropic) {
+    load(model, restriction, state, modal, barotropic, rest, restInput) {
       const dir = join(work, `p${count++}`);
       mkdirSync(dir);
       const m = model.mesh;
@@ -87,11 +91,15 @@ export function compileNative(layers: number): NativeLoops | { unavailable: stri
       put("barotropicCell.f64", barotropic.cell);
       put("barotropicEdge.f64", barotropic.edge);
       put("barotropicPv.f64", barotropic.pv);
+      put("coupling.f64", rest.coupling);
+      put("restCoriolis.f64", rest.coriolisCoef);
+      put("restEdgeThickness.f64", rest.edgeThickness);
+      put("restInput.f64", restInput);
       const read = (name: string) => { const b = readFileSync(join(dir, name)); return new Float64Array(b.buffer, b.byteOffset, b.byteLength / 8).slice(); };
       return {
         run(reps, inner) {
-          const res = JSON.parse(execFileSync(exe, [dir, String(reps), String(inner)]).toString()) as { tendency: number[]; restricted: number[]; substep: number[] };
-          return { ...res, outTendency: read("out_tendency.f64"), outRestricted: read("out_restricted.f64"), outSubstep: read("out_substep.f64") };
+          const res = JSON.parse(execFileSync(exe, [dir, String(reps), String(inner)]).toString()) as { tendency: number[]; restricted: number[]; substep: number[]; rest: number[] };
+          return { ...res, outTendency: read("out_tendency.f64"), outRestricted: read("out_restricted.f64"), outSubstep: read("out_substep.f64"), outRest: read("out_rest.f64") };
         },
       };
     },

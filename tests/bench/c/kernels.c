@@ -4,7 +4,8 @@
  * arrays that the benchmark exports from a Stepwell mesh and model (one raw little-endian file per array).
  * Same work as the Stepwell kernels: four fused passes (vertex PV, edge flux and PV, cell continuity and
  * Bernoulli function, edge momentum) for the tendency; Coriolis, gradient and divergence stencils for the
- * restricted operator; gradient, two PV fluxes and divergence for the stencils of a barotropic sub-step. The layer count is a compile-time constant (-DLAYERS=3), as it is a constant of the
+ * restricted operator; gradient, two PV fluxes and divergence for the stencils of a barotropic sub-step; the
+ * rest-state linear operator of all layers. The layer count is a compile-time constant (-DLAYERS=3), as it is a constant of the
  * generated TypeScript kernels. No threads, no explicit vector intrinsics: what `cc -O2` makes of plain loops.
  *
  * Usage: kernels DIR REPS INNER. Prints one JSON object: per kernel the seconds per call of each of REPS
@@ -183,6 +184,35 @@ static void substep(double *out, const double *x) {
   divergence(btDiv, btEdge);
 }
 
+/* rest-state linear operator of all layers (solver/model/linear.ts): Montgomery anomaly M' = G h' per cell, then
+   per layer the Coriolis term with rest PV minus the gradient of M', and the continuity -D(H_k u_k) */
+static double *coupling, *restCoriolis, *edgeThicknessRest, *restCont, *restMont, *restX, *restOut;
+static int nnzT, nSlots;
+static void restOperator(double *restrict out, const double *restrict x) {
+  for (int i = 0; i < nc; i++)
+    for (int k = 0; k < L; k++) {
+      double s = 0;
+      for (int j = 0; j < L; j++) s += coupling[k * L + j] * x[j * nc + i];
+      restMont[k * nc + i] = s;
+    }
+  for (int k = 0; k < L; k++) {
+    const double *u = x + L * nc + k * ne, *M = restMont + k * nc, *cc = restCoriolis + k * nnzT, *kc = restCont + k * nSlots;
+    double *oU = out + L * nc + k * ne, *oH = out + k * nc;
+    for (int e = 0; e < ne; e++) {
+      if (!edgeOpen[e]) { oU[e] = 0; continue; }
+      double acc = 0;
+      for (int q = tangentOffset[e]; q < tangentOffset[e + 1]; q++) acc += cc[q] * u[tangentIndex[q]];
+      oU[e] = acc - (M[edgeCells[2 * e + 1]] - M[edgeCells[2 * e]]) * edgeInvDistance[e];
+    }
+    for (int i = 0; i < nc; i++) {
+      double acc = 0;
+      for (int q = cellEdgeOffset[i]; q < cellEdgeOffset[i + 1]; q++) acc += kc[q] * u[cellEdgeIndex[q]];
+      oH[i] = acc;
+    }
+  }
+}
+static void restTimed(double *out, const double *x) { (void)out; (void)x; restOperator(restOut, restX); }
+
 static void timeIt(const char *name, void (*fn)(double *, const double *), double *out, const double *x, int reps, int inner, int last) {
   double *t = malloc(sizeof(double) * (size_t)reps);
   for (int w = 0; w < inner; w++) fn(out, x);
@@ -243,6 +273,21 @@ int main(int argc, char **argv) {
   btCor2 = calloc((size_t)ne, sizeof(double));
   btDiv = calloc((size_t)nc, sizeof(double));
 
+  coupling = load("coupling.f64", 8, NULL);
+  restCoriolis = load("restCoriolis.f64", 8, &n); nnzT = (int)(n / L);
+  edgeThicknessRest = load("restEdgeThickness.f64", 8, NULL);
+  restX = load("restInput.f64", 8, NULL);
+  nSlots = cellEdgeOffset[nc];
+  restCont = malloc(sizeof(double) * (size_t)(L * nSlots));
+  for (int k = 0; k < L; k++)
+    for (int i = 0; i < nc; i++)
+      for (int q = cellEdgeOffset[i]; q < cellEdgeOffset[i + 1]; q++) {
+        const int e = cellEdgeIndex[q];
+        restCont[k * nSlots + q] = (-cellEdgeSign[q] * edgeLength[e] * edgeThicknessRest[k * ne + e]) / cellArea[i];
+      }
+  restMont = calloc((size_t)(L * nc), sizeof(double));
+  restOut = calloc((size_t)(L * (nc + ne)), sizeof(double));
+
   qV = calloc((size_t)L * nv, sizeof(double));
   flux = calloc((size_t)L * ne, sizeof(double));
   qE = calloc((size_t)L * ne, sizeof(double));
@@ -254,7 +299,8 @@ int main(int argc, char **argv) {
   printf("{\n");
   timeIt("tendency", tendency, out, x, reps, inner, 0);
   timeIt("restricted", restricted, outModal, y, reps, 2 * inner, 0);
-  timeIt("substep", substep, NULL, NULL, reps, 2 * inner, 1);
+  timeIt("substep", substep, NULL, NULL, reps, 2 * inner, 0);
+  timeIt("rest", restTimed, NULL, NULL, reps, inner, 1);
   printf("}\n");
   save("out_tendency.f64", out, (size_t)L * (nc + ne));
   save("out_restricted.f64", outModal, (size_t)(nc + ne));
@@ -264,5 +310,6 @@ int main(int argc, char **argv) {
   memcpy(bt + 2 * ne, btCor2, sizeof(double) * (size_t)ne);
   memcpy(bt + 3 * ne, btDiv, sizeof(double) * (size_t)nc);
   save("out_substep.f64", bt, (size_t)(3 * ne + nc));
+  save("out_rest.f64", restOut, (size_t)(L * (nc + ne)));
   return 0;
 }
