@@ -87,6 +87,9 @@ export function kernelsAvailable(): boolean {
 
 type Typed = Float64Array | Int32Array | Uint8Array;
 
+/** Largest kernel memory (bytes): 32-bit pointers passed as i32 stay positive below 2³¹. */
+export const MAX_KERNEL_BYTES = 2 ** 31 - 65536;
+
 /** A typed array placed in a kernel memory: its byte offset and a view of it. */
 export interface Placed<T extends Typed> { readonly ptr: Ptr; readonly view: T }
 
@@ -112,14 +115,23 @@ export class KernelMemoryBuilder {
   f64(length: number): Placed<Float64Array> {
     return this.place<Float64Array>("f64", length, null);
   }
-  /** Instantiate; null when WebAssembly is unavailable. */
+  /**
+   * Instantiate; null when WebAssembly is unavailable, when the arrays need more than MAX_KERNEL_BYTES (pointers
+   * are 32-bit, kept below 2³¹), or when the engine refuses the memory — the caller then keeps its TypeScript loops.
+   */
   build(): KernelExports | null {
     const mod = module();
     const wa = host.WebAssembly;
-    if (!mod || !wa) return null;
+    if (!mod || !wa || this.bytes + 16 > MAX_KERNEL_BYTES) return null;
     const pages = Math.max(1, Math.ceil((this.bytes + 16) / 65536));
-    const memory = new wa.Memory({ initial: pages, maximum: pages });
-    const instance = new wa.Instance(mod, { env: { memory, abort: () => { throw new Error("kernel abort"); } } });
+    let memory: { buffer: ArrayBuffer };
+    let instance: { exports: Record<string, unknown> };
+    try {
+      memory = new wa.Memory({ initial: pages, maximum: pages });
+      instance = new wa.Instance(mod, { env: { memory, abort: () => { throw new Error("kernel abort"); } } });
+    } catch {
+      return null;
+    }
     for (const it of this.items) {
       const view = it.kind === "f64" ? new Float64Array(memory.buffer, it.ptr, it.length)
         : it.kind === "i32" ? new Int32Array(memory.buffer, it.ptr, it.length) : new Uint8Array(memory.buffer, it.ptr, it.length);
