@@ -35,8 +35,8 @@ function build(m: Mesh): MeshKernels | null {
   const { nCells: nc, nEdges: ne } = m;
   const slotSignLength = new Float64Array(m.cellEdgeOffset[nc]);
   for (let q = 0; q < slotSignLength.length; q++) slotSignLength[q] = m.cellEdgeSign[q] * m.edgeLength[m.cellEdgeIndex[q]];
-  const cells = padStencil(m.cellEdgeOffset, nc, (q) => m.cellEdgeIndex[q], [slotSignLength]);
-  const tangents = padStencil(m.tangentOffset, ne, (q) => m.tangentIndex[q], [m.tangentCoef]);
+  const cells = padStencil(m.cellEdgeOffset, nc, (q) => 8 * m.cellEdgeIndex[q], [slotSignLength]);
+  const tangents = padStencil(m.tangentOffset, ne, (q) => 8 * m.tangentIndex[q], [m.tangentCoef]);
   const b = new KernelMemoryBuilder();
   const cellIn = b.f64(nc), cellOut = b.f64(nc), edgeIn = b.f64(ne), edgeIn2 = b.f64(ne), edgeOut = b.f64(ne);
   const ec = b.copy(m.edgeCellsClamped), dc = b.copy(m.edgeCellDistance), open = b.copy(m.edgeOpen), area = b.copy(m.cellArea);

@@ -145,8 +145,9 @@ export class KernelMemoryBuilder {
 /**
  * A variable-length stencil (CSR rows `offset`) padded to the width of its longest row, W ≥ 1: entry j of row r at
  * W·r + j. Padding repeats the row's first index (0 for an empty row) with coefficient 0, so a padded sum adds
- * exact zeros. `index(q)` maps a CSR slot to the stored index; each `coef` array is read per slot (length =
- * stride × slots, `stride` values per slot, e.g. an m×m block).
+ * exact zeros. `index(q)` maps a CSR slot to the stored index — the kernels take byte offsets, 8 × the element
+ * index (8P × it for layer-interleaved work arrays); each `coef` array is read per slot (length = stride × slots,
+ * `stride` values per slot, e.g. an m×m block).
  */
 export function padStencil(
   offset: Int32Array, rows: number, index: (q: number) => number, coefs: readonly Float64Array[] = [], stride = 1,

@@ -224,8 +224,8 @@ function wasmJacobian(model: ShallowWaterModel, coupling: Float64Array) {
     slotLengthDistance[q] = m.edgeLength[e] * m.edgeCellDistance[e];
   }
   const vertexSignDistance = m.vertexEdgeSign.map((s, j) => s * m.edgeCellDistance[m.vertexEdges[j]]);
-  const cells = padStencil(m.cellEdgeOffset, nc, (q) => m.cellEdgeIndex[q], [slotSignLength, slotLengthDistance]);
-  const tangents = padStencil(m.tangentOffset, ne, (q) => m.tangentIndex[q], [m.tangentCoef]);
+  const cells = padStencil(m.cellEdgeOffset, nc, (q) => 8 * m.cellEdgeIndex[q], [slotSignLength, slotLengthDistance]);
+  const tangents = padStencil(m.tangentOffset, ne, (q) => 8 * m.tangentIndex[q], [m.tangentCoef]);
   const b = new KernelMemoryBuilder();
   const xw = b.f64(n), ow = b.f64(n), dM = b.f64(L * nc);
   const xBar = b.f64(n), hEdge = b.f64(L * ne), flux = b.f64(L * ne), hVert = b.f64(L * nv), qVert = b.f64(L * nv), qEdge = b.f64(L * ne);

@@ -177,8 +177,8 @@ export function restLinearOperator(model: ShallowWaterModel, opts: RestOperatorO
   const wasmApply = model.kernels === "wasm" ? wasmRestOperator() : null;
   function wasmRestOperator(): ((out: Float64Array, x: Float64Array) => void) | null {
     const layers = (a: Float64Array, per: number) => Array.from({ length: L }, (_, k) => a.subarray(k * per, (k + 1) * per));
-    const tangents = padStencil(tOff, ne, (q) => tIdx[q], layers(coriolisCoef, nnz));
-    const cells = padStencil(cOff, nc, (q) => cIdx[q], layers(contCoef, nSlots));
+    const tangents = padStencil(tOff, ne, (q) => 8 * tIdx[q], layers(coriolisCoef, nnz));
+    const cells = padStencil(cOff, nc, (q) => 8 * cIdx[q], layers(contCoef, nSlots));
     const concat = (parts: Float64Array[]) => {
       const a = new Float64Array(parts.reduce((s, p) => s + p.length, 0));
       let o = 0;

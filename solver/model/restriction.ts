@@ -414,8 +414,8 @@ function wasmModalOperator(
   const ec = b.copy(mesh.edgeCellsClamped), open = b.copy(mesh.edgeOpen);
   const mOffset = m * nc;
   if (diagonal) {
-    const tangents = padStencil(mesh.tangentOffset, ne, (q) => mesh.tangentIndex[q], Array.from({ length: m }, (_, a) => cor.subarray(a * nnzT, (a + 1) * nnzT)));
-    const cells = padStencil(mesh.cellEdgeOffset, nc, (q) => mesh.cellEdgeIndex[q], Array.from({ length: m }, (_, a) => div.subarray(a * nnzC, (a + 1) * nnzC)));
+    const tangents = padStencil(mesh.tangentOffset, ne, (q) => 8 * mesh.tangentIndex[q], Array.from({ length: m }, (_, a) => cor.subarray(a * nnzT, (a + 1) * nnzT)));
+    const cells = padStencil(mesh.cellEdgeOffset, nc, (q) => 8 * mesh.cellEdgeIndex[q], Array.from({ length: m }, (_, a) => div.subarray(a * nnzC, (a + 1) * nnzC)));
     const ti = b.copy(tangents.index), ci = b.copy(cells.index);
     const cd = tangents.coefs.map((c) => b.copy(c)), dd = cells.coefs.map((c) => b.copy(c));
     const gd: Placed<Float64Array>[] = [];
@@ -432,8 +432,8 @@ function wasmModalOperator(
       out.set(o.view);
     };
   }
-  const tangents = padStencil(mesh.tangentOffset, ne, (q) => mesh.tangentIndex[q], [cor], 4);
-  const cells = padStencil(mesh.cellEdgeOffset, nc, (q) => mesh.cellEdgeIndex[q], [div], 4);
+  const tangents = padStencil(mesh.tangentOffset, ne, (q) => 8 * mesh.tangentIndex[q], [cor], 4);
+  const cells = padStencil(mesh.cellEdgeOffset, nc, (q) => 8 * mesh.cellEdgeIndex[q], [div], 4);
   const ti = b.copy(tangents.index), ci = b.copy(cells.index);
   const cb = b.copy(tangents.coefs[0]), db = b.copy(cells.coefs[0]), gb = b.copy(grad);
   const k = b.build();

@@ -173,9 +173,9 @@ function wasmTendency(m: Mesh, p: ModelParams, layout: StateLayout): WasmTendenc
   const ve = b.copy(m.vertexEdges), vc = b.copy(m.vertexCellsClamped), cc = b.copy(m.vertexCurlCoef);
   const kf = b.copy(m.vertexKiteFraction), vi = b.copy(m.vertexInterior), cor = b.copy(p.coriolisVertex);
   const ec = b.copy(m.edgeCellsClamped), ev = b.copy(m.edgeVertices), open = b.copy(m.edgeOpen), inv = b.copy(m.edgeInvDistance);
-  const cells = padStencil(m.cellEdgeOffset, nc, (q) => m.cellEdgeIndex[q], [m.cellEdgeDivCoef, m.cellEdgeKeCoef]);
+  const cells = padStencil(m.cellEdgeOffset, nc, (q) => 8 * m.cellEdgeIndex[q], [m.cellEdgeDivCoef, m.cellEdgeKeCoef]);
   const idx = b.copy(cells.index), dcf = b.copy(cells.coefs[0]), kcf = b.copy(cells.coefs[1]);
-  const tangents = padStencil(m.tangentOffset, ne, (q) => P * m.tangentIndex[q], [m.tangentCoef]);
+  const tangents = padStencil(m.tangentOffset, ne, (q) => 8 * P * m.tangentIndex[q], [m.tangentCoef]);
   const slot = b.copy(tangents.index), tw = b.copy(tangents.coefs[0]);
   const bottom = b.copy(p.bottom), rg = b.copy(p.reducedGravity);
   const k: KernelExports | null = b.build();

@@ -7,14 +7,15 @@ import { jacobianOperator } from "../../solver/model/jacobian";
 import { restLinearOperator } from "../../solver/model/linear";
 import { ShallowWaterModel } from "../../solver/model/shallowWater";
 import { pvFlux, pvFluxLoop } from "../../solver/model/terms";
-import { round, samples, summary, time } from "./harness";
+import { cpuClock, round, samples, summary, time } from "./harness";
 import { compileNative } from "./native";
 import { EXTRA_SECTIONS } from "./sections";
 
 /**
  * `npm run bench [-- --json FILE] [-- --quick]`: tendency and restricted-operator cost per cell·layer beside our own
  * C loop over the same arrays, and RK4 step time, on periodic hexagonal meshes with 3 layers, plus the sections
- * registered in sections.ts (`--only-kernels` skips those).
+ * registered in sections.ts (`--only-kernels` skips those; `--wall` times the kernel table by the wall clock
+ * instead of CPU time).
  */
 const argv = process.argv.slice(2);
 const jsonIdx = argv.indexOf("--json");
@@ -24,6 +25,8 @@ if (jsonIdx >= 0 && !jsonFile) {
   process.exit(2);
 }
 const quick = argv.includes("--quick");
+/** The kernel table times CPU time of each process unless `--wall` (the machine is shared; see the table's note). */
+const wall = argv.includes("--wall");
 const log = (s: string) => process.stdout.write(s + "\n");
 
 export function benchScenario(n: number) {
@@ -48,6 +51,7 @@ log("(WebAssembly); TS loops = the TypeScript loops they replaced, kept as refer
 log("repository, tests/bench/c/kernels.c, over the same connectivity and coefficient arrays exported from the mesh and model,");
 log("timed in a child process in rounds alternating with the others. Ratio = Stepwell / C; diff = max relative difference of");
 log(`the C result from Stepwell's. ${"unavailable" in native ? `C comparison skipped: ${native.unavailable}.` : `Compiled with ${native.compiler}.`}`);
+log(wall ? "Timed by the wall clock (--wall)." : "Timed by each process's CPU time (less disturbed by other work on a shared machine; --wall for the wall clock).");
 log("kernel                mesh      Stepwell (best / med.)   TS loops (best / med.)   C (best / med.)      ratio (best / med.)  diff");
 const fmt = (t: { best: number; median: number }) => `${t.best.toFixed(1).padStart(7)} / ${t.median.toFixed(1).padEnd(7)}`;
 type KernelName = "tendency" | "restricted" | "substep" | "rest" | "jacobian";
@@ -94,12 +98,12 @@ for (const n of [64, 128]) {
   const diff: Partial<Record<KernelName, number>> = {};
   for (let r = 0; r < rounds; r++) {
     for (const k of names) {
-      const o = { warmup: r === 0 ? 10 : 2, reps, inner: kernels[k].inner };
+      const o = { warmup: r === 0 ? 10 : 2, reps, inner: kernels[k].inner, ...(wall ? {} : { clock: cpuClock }) };
       sw[k].push(...samples(kernels[k].fn, o));
       ts[k].push(...samples(kernels[k].ref, o));
     }
     if (problem) {
-      const cr = problem.run(reps, inner);
+      const cr = problem.run(reps, inner, !wall);
       for (const k of ["tendency", "restricted", "substep", "rest"] as const) c[k].push(...cr[k].map((s) => s * 1e3));
       kernels.tendency.fn();
       kernels.restricted.fn();

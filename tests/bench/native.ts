@@ -31,7 +31,7 @@ export interface BarotropicFields { cell: Float64Array; edge: Float64Array; pv: 
 
 export interface NativeProblem {
   /** Seconds per call of each repetition, and the outputs of the last call (sub-step: gradient, two PV fluxes, divergence). */
-  run(reps: number, inner: number): {
+  run(reps: number, inner: number, cpu: boolean): {
     tendency: number[]; restricted: number[]; substep: number[]; rest: number[];
     outTendency: Float64Array; outRestricted: Float64Array; outSubstep: Float64Array; outRest: Float64Array;
   };
@@ -97,8 +97,8 @@ export function compileNative(layers: number): NativeLoops | { unavailable: stri
       put("restInput.f64", restInput);
       const read = (name: string) => { const b = readFileSync(join(dir, name)); return new Float64Array(b.buffer, b.byteOffset, b.byteLength / 8).slice(); };
       return {
-        run(reps, inner) {
-          const res = JSON.parse(execFileSync(exe, [dir, String(reps), String(inner)]).toString()) as { tendency: number[]; restricted: number[]; substep: number[]; rest: number[] };
+        run(reps, inner, cpu) {
+          const res = JSON.parse(execFileSync(exe, [dir, String(reps), String(inner), ...(cpu ? ["cpu"] : [])]).toString()) as { tendency: number[]; restricted: number[]; substep: number[]; rest: number[] };
           return { ...res, outTendency: read("out_tendency.f64"), outRestricted: read("out_restricted.f64"), outSubstep: read("out_substep.f64"), outRest: read("out_rest.f64") };
         },
       };

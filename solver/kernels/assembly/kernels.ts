@@ -6,11 +6,14 @@
 //
 // Stencils of variable length (cell → edges, edge → tangential edges) arrive padded to a fixed width W per row:
 // index arrays repeat a valid index and coefficient arrays hold 0 in the padding. Widths 6 and 10 (hexagonal
-// cells, TRiSK tangential stencil) have unrolled loops; any other width takes the plain loop.
+// cells, TRiSK tangential stencil) have unrolled loops; any other width takes the plain loop. Stencil index
+// arrays hold byte offsets (8 × element index, 8P × entity for the layer-interleaved work arrays), so a gather
+// is one add and one load with an immediate offset.
 
 @inline function ld(p: usize, i: i32): f64 { return load<f64>(p + (<usize>i << 3)); }
 @inline function li(p: usize, i: i32): i32 { return load<i32>(p + (<usize>i << 2)); }
 @inline function st(p: usize, i: i32, v: f64): void { store<f64>(p + (<usize>i << 3), v); }
+@inline function at(p: usize, byteOffset: i32): f64 { return load<f64>(p + <usize>byteOffset); }
 @inline function lane(k: i32, j: i32, nLayers: i32): i32 { return k + j < nLayers ? k + j : nLayers - 1; }
 
 // ---------------------------------------------------------------------------------------------------------
@@ -98,11 +101,11 @@ export function cellContinuityBernoulli(
       const q0 = W * i;
       for (let q = q0; q < q0 + W; q++) {
         const e = li(idx, q);
-        const j = P * e;
+        const pf = fl + <usize>(P * e);
         const c = ld(dcf, q);
         const w = ld(kcf, q);
-        const a0 = ld(u0, e), a1 = ld(u1, e), a2 = ld(u2, e);
-        d0 += c * ld(fl, j); d1 += c * ld(fl, j + 1); d2 += c * ld(fl, j + 2);
+        const a0 = at(u0, e), a1 = at(u1, e), a2 = at(u2, e);
+        d0 += c * load<f64>(pf); d1 += c * load<f64>(pf, 8); d2 += c * load<f64>(pf, 16);
         K0 += w * a0 * a0; K1 += w * a1 * a1; K2 += w * a2 * a2;
       }
       st(out, kb * nc + i, -d0); st(out, k1 * nc + i, -d1); st(out, k2 * nc + i, -d2);
@@ -125,28 +128,38 @@ export function edgeMomentum(
       for (let e = 0; e < ne; e++) {
         if (load<u8>(open + <usize>e) == 0) { st(o0, e, 0); st(o1, e, 0); st(o2, e, 0); continue; }
         let a0: f64 = 0, a1: f64 = 0, a2: f64 = 0, g0: f64 = 0, g1: f64 = 0, g2: f64 = 0;
-        const t0 = 10 * e;
-        let j = 0, c: f64 = 0;
-        j = li(slot, t0); c = ld(tw, t0);
-        a0 += c * ld(fl, j); a1 += c * ld(fl, j + 1); a2 += c * ld(fl, j + 2); g0 += c * ld(gl, j); g1 += c * ld(gl, j + 1); g2 += c * ld(gl, j + 2);
-        j = li(slot, t0 + 1); c = ld(tw, t0 + 1);
-        a0 += c * ld(fl, j); a1 += c * ld(fl, j + 1); a2 += c * ld(fl, j + 2); g0 += c * ld(gl, j); g1 += c * ld(gl, j + 1); g2 += c * ld(gl, j + 2);
-        j = li(slot, t0 + 2); c = ld(tw, t0 + 2);
-        a0 += c * ld(fl, j); a1 += c * ld(fl, j + 1); a2 += c * ld(fl, j + 2); g0 += c * ld(gl, j); g1 += c * ld(gl, j + 1); g2 += c * ld(gl, j + 2);
-        j = li(slot, t0 + 3); c = ld(tw, t0 + 3);
-        a0 += c * ld(fl, j); a1 += c * ld(fl, j + 1); a2 += c * ld(fl, j + 2); g0 += c * ld(gl, j); g1 += c * ld(gl, j + 1); g2 += c * ld(gl, j + 2);
-        j = li(slot, t0 + 4); c = ld(tw, t0 + 4);
-        a0 += c * ld(fl, j); a1 += c * ld(fl, j + 1); a2 += c * ld(fl, j + 2); g0 += c * ld(gl, j); g1 += c * ld(gl, j + 1); g2 += c * ld(gl, j + 2);
-        j = li(slot, t0 + 5); c = ld(tw, t0 + 5);
-        a0 += c * ld(fl, j); a1 += c * ld(fl, j + 1); a2 += c * ld(fl, j + 2); g0 += c * ld(gl, j); g1 += c * ld(gl, j + 1); g2 += c * ld(gl, j + 2);
-        j = li(slot, t0 + 6); c = ld(tw, t0 + 6);
-        a0 += c * ld(fl, j); a1 += c * ld(fl, j + 1); a2 += c * ld(fl, j + 2); g0 += c * ld(gl, j); g1 += c * ld(gl, j + 1); g2 += c * ld(gl, j + 2);
-        j = li(slot, t0 + 7); c = ld(tw, t0 + 7);
-        a0 += c * ld(fl, j); a1 += c * ld(fl, j + 1); a2 += c * ld(fl, j + 2); g0 += c * ld(gl, j); g1 += c * ld(gl, j + 1); g2 += c * ld(gl, j + 2);
-        j = li(slot, t0 + 8); c = ld(tw, t0 + 8);
-        a0 += c * ld(fl, j); a1 += c * ld(fl, j + 1); a2 += c * ld(fl, j + 2); g0 += c * ld(gl, j); g1 += c * ld(gl, j + 1); g2 += c * ld(gl, j + 2);
-        j = li(slot, t0 + 9); c = ld(tw, t0 + 9);
-        a0 += c * ld(fl, j); a1 += c * ld(fl, j + 1); a2 += c * ld(fl, j + 2); g0 += c * ld(gl, j); g1 += c * ld(gl, j + 1); g2 += c * ld(gl, j + 2);
+        const ps = slot + (<usize>(10 * e) << 2), pw = tw + (<usize>(10 * e) << 3);
+        let j = 0, c: f64 = 0, tap: usize = 0;
+        j = load<i32>(ps, 0); c = load<f64>(pw, 0);
+        tap = fl + <usize>j; a0 += c * load<f64>(tap); a1 += c * load<f64>(tap, 8); a2 += c * load<f64>(tap, 16);
+        tap = gl + <usize>j; g0 += c * load<f64>(tap); g1 += c * load<f64>(tap, 8); g2 += c * load<f64>(tap, 16);
+        j = load<i32>(ps, 4); c = load<f64>(pw, 8);
+        tap = fl + <usize>j; a0 += c * load<f64>(tap); a1 += c * load<f64>(tap, 8); a2 += c * load<f64>(tap, 16);
+        tap = gl + <usize>j; g0 += c * load<f64>(tap); g1 += c * load<f64>(tap, 8); g2 += c * load<f64>(tap, 16);
+        j = load<i32>(ps, 8); c = load<f64>(pw, 16);
+        tap = fl + <usize>j; a0 += c * load<f64>(tap); a1 += c * load<f64>(tap, 8); a2 += c * load<f64>(tap, 16);
+        tap = gl + <usize>j; g0 += c * load<f64>(tap); g1 += c * load<f64>(tap, 8); g2 += c * load<f64>(tap, 16);
+        j = load<i32>(ps, 12); c = load<f64>(pw, 24);
+        tap = fl + <usize>j; a0 += c * load<f64>(tap); a1 += c * load<f64>(tap, 8); a2 += c * load<f64>(tap, 16);
+        tap = gl + <usize>j; g0 += c * load<f64>(tap); g1 += c * load<f64>(tap, 8); g2 += c * load<f64>(tap, 16);
+        j = load<i32>(ps, 16); c = load<f64>(pw, 32);
+        tap = fl + <usize>j; a0 += c * load<f64>(tap); a1 += c * load<f64>(tap, 8); a2 += c * load<f64>(tap, 16);
+        tap = gl + <usize>j; g0 += c * load<f64>(tap); g1 += c * load<f64>(tap, 8); g2 += c * load<f64>(tap, 16);
+        j = load<i32>(ps, 20); c = load<f64>(pw, 40);
+        tap = fl + <usize>j; a0 += c * load<f64>(tap); a1 += c * load<f64>(tap, 8); a2 += c * load<f64>(tap, 16);
+        tap = gl + <usize>j; g0 += c * load<f64>(tap); g1 += c * load<f64>(tap, 8); g2 += c * load<f64>(tap, 16);
+        j = load<i32>(ps, 24); c = load<f64>(pw, 48);
+        tap = fl + <usize>j; a0 += c * load<f64>(tap); a1 += c * load<f64>(tap, 8); a2 += c * load<f64>(tap, 16);
+        tap = gl + <usize>j; g0 += c * load<f64>(tap); g1 += c * load<f64>(tap, 8); g2 += c * load<f64>(tap, 16);
+        j = load<i32>(ps, 28); c = load<f64>(pw, 56);
+        tap = fl + <usize>j; a0 += c * load<f64>(tap); a1 += c * load<f64>(tap, 8); a2 += c * load<f64>(tap, 16);
+        tap = gl + <usize>j; g0 += c * load<f64>(tap); g1 += c * load<f64>(tap, 8); g2 += c * load<f64>(tap, 16);
+        j = load<i32>(ps, 32); c = load<f64>(pw, 64);
+        tap = fl + <usize>j; a0 += c * load<f64>(tap); a1 += c * load<f64>(tap, 8); a2 += c * load<f64>(tap, 16);
+        tap = gl + <usize>j; g0 += c * load<f64>(tap); g1 += c * load<f64>(tap, 8); g2 += c * load<f64>(tap, 16);
+        j = load<i32>(ps, 36); c = load<f64>(pw, 72);
+        tap = fl + <usize>j; a0 += c * load<f64>(tap); a1 += c * load<f64>(tap, 8); a2 += c * load<f64>(tap, 16);
+        tap = gl + <usize>j; g0 += c * load<f64>(tap); g1 += c * load<f64>(tap, 8); g2 += c * load<f64>(tap, 16);
         momentumStore(o0, o1, o2, e, P, kb, a0, a1, a2, g0, g1, g2, ec, inv, qE, bern);
       }
     } else {
@@ -157,7 +170,9 @@ export function edgeMomentum(
         for (let t = t0; t < t0 + W; t++) {
           const j = li(slot, t);
           const c = ld(tw, t);
-          a0 += c * ld(fl, j); a1 += c * ld(fl, j + 1); a2 += c * ld(fl, j + 2); g0 += c * ld(gl, j); g1 += c * ld(gl, j + 1); g2 += c * ld(gl, j + 2);
+          const pf = fl + <usize>j, pg = gl + <usize>j;
+          a0 += c * load<f64>(pf); a1 += c * load<f64>(pf, 8); a2 += c * load<f64>(pf, 16);
+          g0 += c * load<f64>(pg); g1 += c * load<f64>(pg, 8); g2 += c * load<f64>(pg, 16);
         }
         momentumStore(o0, o1, o2, e, P, kb, a0, a1, a2, g0, g1, g2, ec, inv, qE, bern);
       }
@@ -184,18 +199,19 @@ export function edgeMomentum(
 @inline function tangentSum(cor: usize, ti: usize, u: usize, t0: i32, W: i32): f64 {
   let acc: f64 = 0;
   if (W == 10) {
-    acc += ld(cor, t0) * ld(u, li(ti, t0));
-    acc += ld(cor, t0 + 1) * ld(u, li(ti, t0 + 1));
-    acc += ld(cor, t0 + 2) * ld(u, li(ti, t0 + 2));
-    acc += ld(cor, t0 + 3) * ld(u, li(ti, t0 + 3));
-    acc += ld(cor, t0 + 4) * ld(u, li(ti, t0 + 4));
-    acc += ld(cor, t0 + 5) * ld(u, li(ti, t0 + 5));
-    acc += ld(cor, t0 + 6) * ld(u, li(ti, t0 + 6));
-    acc += ld(cor, t0 + 7) * ld(u, li(ti, t0 + 7));
-    acc += ld(cor, t0 + 8) * ld(u, li(ti, t0 + 8));
-    acc += ld(cor, t0 + 9) * ld(u, li(ti, t0 + 9));
+    const pc = cor + (<usize>t0 << 3), pi = ti + (<usize>t0 << 2);
+    acc += load<f64>(pc, 0) * at(u, load<i32>(pi, 0));
+    acc += load<f64>(pc, 8) * at(u, load<i32>(pi, 4));
+    acc += load<f64>(pc, 16) * at(u, load<i32>(pi, 8));
+    acc += load<f64>(pc, 24) * at(u, load<i32>(pi, 12));
+    acc += load<f64>(pc, 32) * at(u, load<i32>(pi, 16));
+    acc += load<f64>(pc, 40) * at(u, load<i32>(pi, 20));
+    acc += load<f64>(pc, 48) * at(u, load<i32>(pi, 24));
+    acc += load<f64>(pc, 56) * at(u, load<i32>(pi, 28));
+    acc += load<f64>(pc, 64) * at(u, load<i32>(pi, 32));
+    acc += load<f64>(pc, 72) * at(u, load<i32>(pi, 36));
   } else {
-    for (let q = t0; q < t0 + W; q++) acc += ld(cor, q) * ld(u, li(ti, q));
+    for (let q = t0; q < t0 + W; q++) acc += ld(cor, q) * at(u, li(ti, q));
   }
   return acc;
 }
@@ -203,14 +219,15 @@ export function edgeMomentum(
 @inline function cellSum(dd: usize, ci: usize, u: usize, q0: i32, W: i32): f64 {
   let acc: f64 = 0;
   if (W == 6) {
-    acc += ld(dd, q0) * ld(u, li(ci, q0));
-    acc += ld(dd, q0 + 1) * ld(u, li(ci, q0 + 1));
-    acc += ld(dd, q0 + 2) * ld(u, li(ci, q0 + 2));
-    acc += ld(dd, q0 + 3) * ld(u, li(ci, q0 + 3));
-    acc += ld(dd, q0 + 4) * ld(u, li(ci, q0 + 4));
-    acc += ld(dd, q0 + 5) * ld(u, li(ci, q0 + 5));
+    const pc = dd + (<usize>q0 << 3), pi = ci + (<usize>q0 << 2);
+    acc += load<f64>(pc, 0) * at(u, load<i32>(pi, 0));
+    acc += load<f64>(pc, 8) * at(u, load<i32>(pi, 4));
+    acc += load<f64>(pc, 16) * at(u, load<i32>(pi, 8));
+    acc += load<f64>(pc, 24) * at(u, load<i32>(pi, 12));
+    acc += load<f64>(pc, 32) * at(u, load<i32>(pi, 16));
+    acc += load<f64>(pc, 40) * at(u, load<i32>(pi, 20));
   } else {
-    for (let q = q0; q < q0 + W; q++) acc += ld(dd, q) * ld(u, li(ci, q));
+    for (let q = q0; q < q0 + W; q++) acc += ld(dd, q) * at(u, li(ci, q));
   }
   return acc;
 }
@@ -248,7 +265,7 @@ export function modalTwo(
     let acc0: f64 = 0, acc1: f64 = 0;
     for (let q = WT * e; q < WT * e + WT; q++) {
       const e2 = li(ti, q), blk = 4 * q;
-      const y0 = ld(u0, e2), y1 = ld(u1, e2);
+      const y0 = at(u0, e2), y1 = at(u1, e2);
       acc0 += ld(cb, blk) * y0 + ld(cb, blk + 1) * y1;
       acc1 += ld(cb, blk + 2) * y0 + ld(cb, blk + 3) * y1;
     }
@@ -261,7 +278,7 @@ export function modalTwo(
     let acc0: f64 = 0, acc1: f64 = 0;
     for (let q = WC * i; q < WC * i + WC; q++) {
       const e = li(ci, q), blk = 4 * q;
-      const y0 = ld(u0, e), y1 = ld(u1, e);
+      const y0 = at(u0, e), y1 = at(u1, e);
       acc0 += ld(db, blk) * y0 + ld(db, blk + 1) * y1;
       acc1 += ld(db, blk + 2) * y0 + ld(db, blk + 3) * y1;
     }
@@ -324,21 +341,22 @@ export function pvFlux(out: usize, flux: usize, q: usize, ne: i32, W: i32, ti: u
     let acc: f64 = 0;
     const t0 = W * e;
     if (W == 10) {
-      let e2 = 0;
-      e2 = li(ti, t0); acc += ld(tw, t0) * ld(flux, e2) * (qe + ld(q, e2));
-      e2 = li(ti, t0 + 1); acc += ld(tw, t0 + 1) * ld(flux, e2) * (qe + ld(q, e2));
-      e2 = li(ti, t0 + 2); acc += ld(tw, t0 + 2) * ld(flux, e2) * (qe + ld(q, e2));
-      e2 = li(ti, t0 + 3); acc += ld(tw, t0 + 3) * ld(flux, e2) * (qe + ld(q, e2));
-      e2 = li(ti, t0 + 4); acc += ld(tw, t0 + 4) * ld(flux, e2) * (qe + ld(q, e2));
-      e2 = li(ti, t0 + 5); acc += ld(tw, t0 + 5) * ld(flux, e2) * (qe + ld(q, e2));
-      e2 = li(ti, t0 + 6); acc += ld(tw, t0 + 6) * ld(flux, e2) * (qe + ld(q, e2));
-      e2 = li(ti, t0 + 7); acc += ld(tw, t0 + 7) * ld(flux, e2) * (qe + ld(q, e2));
-      e2 = li(ti, t0 + 8); acc += ld(tw, t0 + 8) * ld(flux, e2) * (qe + ld(q, e2));
-      e2 = li(ti, t0 + 9); acc += ld(tw, t0 + 9) * ld(flux, e2) * (qe + ld(q, e2));
+      const pi = ti + (<usize>t0 << 2), pw = tw + (<usize>t0 << 3);
+      let o = 0;
+      o = load<i32>(pi, 0); acc += load<f64>(pw, 0) * at(flux, o) * (qe + at(q, o));
+      o = load<i32>(pi, 4); acc += load<f64>(pw, 8) * at(flux, o) * (qe + at(q, o));
+      o = load<i32>(pi, 8); acc += load<f64>(pw, 16) * at(flux, o) * (qe + at(q, o));
+      o = load<i32>(pi, 12); acc += load<f64>(pw, 24) * at(flux, o) * (qe + at(q, o));
+      o = load<i32>(pi, 16); acc += load<f64>(pw, 32) * at(flux, o) * (qe + at(q, o));
+      o = load<i32>(pi, 20); acc += load<f64>(pw, 40) * at(flux, o) * (qe + at(q, o));
+      o = load<i32>(pi, 24); acc += load<f64>(pw, 48) * at(flux, o) * (qe + at(q, o));
+      o = load<i32>(pi, 28); acc += load<f64>(pw, 56) * at(flux, o) * (qe + at(q, o));
+      o = load<i32>(pi, 32); acc += load<f64>(pw, 64) * at(flux, o) * (qe + at(q, o));
+      o = load<i32>(pi, 36); acc += load<f64>(pw, 72) * at(flux, o) * (qe + at(q, o));
     } else {
       for (let t = t0; t < t0 + W; t++) {
-        const e2 = li(ti, t);
-        acc += ld(tw, t) * ld(flux, e2) * (qe + ld(q, e2));
+        const o = li(ti, t);
+        acc += ld(tw, t) * at(flux, o) * (qe + at(q, o));
       }
     }
     st(out, e, 0.5 * acc);
@@ -381,8 +399,8 @@ export function jacobianApply(
       let s: f64 = 0, t: f64 = 0;
       for (let q = WC * i; q < WC * i + WC; q++) {
         const e = li(ci, q);
-        s += ld(sl, q) * ld(dFlux, e);
-        t += ld(lk, q) * ld(ub, e) * ld(u, e);
+        s += ld(sl, q) * at(dFlux, e);
+        t += ld(lk, q) * at(ub, e) * at(u, e);
       }
       st(oH, i, -s / ld(area, i));
       st(dK, i, (0.5 * t) / ld(area, i));
@@ -414,7 +432,7 @@ export function jacobianApply(
       let acc: f64 = 0;
       for (let q = WT * e; q < WT * e + WT; q++) {
         const e2 = li(ti, q);
-        acc += ld(tw, q) * (ld(dFlux, e2) * (qe + ld(qE, e2)) + ld(fE, e2) * (dqe + ld(dqEdge, e2)));
+        acc += ld(tw, q) * (at(dFlux, e2) * (qe + at(qE, e2)) + at(fE, e2) * (dqe + at(dqEdge, e2)));
       }
       const c1 = li(ec, 2 * e), c2 = li(ec, 2 * e + 1);
       st(oU, e, 0.5 * acc - (ld(dK, c2) + ld(M, c2) - ld(dK, c1) - ld(M, c1)) / ld(dc, e));

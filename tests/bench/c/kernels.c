@@ -8,8 +8,9 @@
  * rest-state linear operator of all layers. The layer count is a compile-time constant (-DLAYERS=3), as it is a constant of the
  * generated TypeScript kernels. No threads, no explicit vector intrinsics: what `cc -O2` makes of plain loops.
  *
- * Usage: kernels DIR REPS INNER. Prints one JSON object: per kernel the seconds per call of each of REPS
- * repetitions of INNER calls (after INNER warm-up calls); writes the outputs of one call to DIR/out_*.f64 so the
+ * Usage: kernels DIR REPS INNER [cpu]. Prints one JSON object: per kernel the seconds per call of each of REPS
+ * repetitions of INNER calls (after INNER warm-up calls), by the monotonic clock or, with `cpu`, by the process's
+ * CPU time; writes the outputs of one call to DIR/out_*.f64 so the
  * benchmark can check that the C loop computes what the TypeScript kernel computes.
  */
 #define _POSIX_C_SOURCE 199309L
@@ -50,9 +51,10 @@ static void save(const char *name, const double *a, size_t n) {
   fclose(f);
 }
 
+static clockid_t clockId = CLOCK_MONOTONIC;
 static double now(void) {
   struct timespec t;
-  clock_gettime(CLOCK_MONOTONIC, &t);
+  clock_gettime(clockId, &t);
   return (double)t.tv_sec + 1e-9 * (double)t.tv_nsec;
 }
 
@@ -228,7 +230,8 @@ static void timeIt(const char *name, void (*fn)(double *, const double *), doubl
 }
 
 int main(int argc, char **argv) {
-  if (argc < 4) { fprintf(stderr, "usage: kernels DIR REPS INNER\n"); return 2; }
+  if (argc < 4) { fprintf(stderr, "usage: kernels DIR REPS INNER [cpu]\n"); return 2; }
+  if (argc > 4 && strcmp(argv[4], "cpu") == 0) clockId = CLOCK_PROCESS_CPUTIME_ID;
   dir = argv[1];
   const int reps = atoi(argv[2]), inner = atoi(argv[3]);
   size_t n;
