@@ -45,6 +45,12 @@ export interface KernelExports {
   gradient(out: Ptr, phi: Ptr, ne: number, ec: Ptr, dc: Ptr, open: Ptr): void;
   divergence(out: Ptr, flux: Ptr, nc: number, W: number, ci: Ptr, sl: Ptr, area: Ptr): void;
   pvFlux(out: Ptr, flux: Ptr, q: Ptr, ne: number, W: number, ti: Ptr, tw: Ptr, open: Ptr): void;
+  windAndDrag(out: Ptr, x: Ptr, ne: number, uOffset: number, L: number, ec: Ptr, open: Ptr, wind: Ptr, rho0: number, drag: number): void;
+  vectorLaplacian(
+    out: Ptr, u: Ptr, nc: number, ne: number, nv: number, WC: number, ci: Ptr, sl: Ptr, area: Ptr,
+    ve: Ptr, vsd: Ptr, vArea: Ptr, vi: Ptr, ec: Ptr, ev: Ptr, dc: Ptr, len: Ptr, open: Ptr, div: Ptr, vort: Ptr,
+  ): void;
+  addScaled(out: Ptr, a: Ptr, coef: number, n: number): void;
   jacobianApply(
     out: Ptr, x: Ptr, nc: number, ne: number, nv: number, L: number, uOffset: number, WC: number, WT: number,
     G: Ptr, dM: Ptr, xBar: Ptr, hEdge: Ptr, flux: Ptr, hVert: Ptr, qVert: Ptr, qEdge: Ptr,

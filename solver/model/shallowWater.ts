@@ -117,13 +117,13 @@ export class ShallowWaterModel {
     const { nLayers: L, nEdges: ne, uOffset } = this.layout;
     if (this.wasm === undefined) this.wasm = this.kernels === "wasm" ? wasmTendency(m, p, this.layout) : null;
     if (this.wasm) {
-      this.wasm.run(out, x);
-    } else {
-      vertexPotentialVorticity(w.qVertexAll, m, x, uOffset, L, p.coriolisVertex);
-      edgeFluxAndPv(w.fluxAll, w.qEdgeAll, w.fluxPvAll, m, x, uOffset, L, w.qVertexAll);
-      cellContinuityBernoulli(out, w.bernoulli, m, x, uOffset, L, w.fluxAll, p.bottom, p.reducedGravity);
-      edgeMomentum(out, m, uOffset, L, w.fluxAll, w.qEdgeAll, w.fluxPvAll, w.bernoulli, w.tangentSlot);
+      this.wasm.run(out, x); // the passes below, forcing and dissipation included, in the same order
+      return;
     }
+    vertexPotentialVorticity(w.qVertexAll, m, x, uOffset, L, p.coriolisVertex);
+    edgeFluxAndPv(w.fluxAll, w.qEdgeAll, w.fluxPvAll, m, x, uOffset, L, w.qVertexAll);
+    cellContinuityBernoulli(out, w.bernoulli, m, x, uOffset, L, w.fluxAll, p.bottom, p.reducedGravity);
+    edgeMomentum(out, m, uOffset, L, w.fluxAll, w.qEdgeAll, w.fluxPvAll, w.bernoulli, w.tangentSlot);
     if (p.windStress) {
       edgeThickness(w.hEdge, m, x, 0);
       windForcing(out, uOffset, m, p.windStress, p.rho0, w.hEdge);
@@ -178,9 +178,26 @@ function wasmTendency(m: Mesh, p: ModelParams, layout: StateLayout): WasmTendenc
   const tangents = padStencil(m.tangentOffset, ne, (q) => 8 * P * m.tangentIndex[q], [m.tangentCoef]);
   const slot = b.copy(tangents.index), tw = b.copy(tangents.coefs[0]);
   const bottom = b.copy(p.bottom), rg = b.copy(p.reducedGravity);
+  // forcing and dissipation: wind stress, and for the vector Laplacian s·l per cell slot, t·d per vertex slot
+  const wind = p.windStress ? b.copy(p.windStress) : null; // pointer 0 tells the kernel "no wind" (x is at 0)
+  const viscous = p.viscosity > 0 || p.biharmonic > 0;
+  const slotSignLength = new Float64Array(m.cellEdgeOffset[nc]);
+  for (let q = 0; q < slotSignLength.length; q++) slotSignLength[q] = m.cellEdgeSign[q] * m.edgeLength[m.cellEdgeIndex[q]];
+  const lapCells = padStencil(m.cellEdgeOffset, nc, (q) => 8 * m.cellEdgeIndex[q], [slotSignLength]);
+  const vertexSignDistance = m.vertexEdgeSign.map((s, j) => s * m.edgeCellDistance[m.vertexEdges[j]]);
+  const lap = viscous ? {
+    ci: b.copy(lapCells.index), sl: b.copy(lapCells.coefs[0]), area: b.copy(m.cellArea), vsd: b.copy(vertexSignDistance),
+    vArea: b.copy(m.vertexArea), dc: b.copy(m.edgeCellDistance), len: b.copy(m.edgeLength),
+    lap: b.f64(ne), lap2: b.f64(ne), div: b.f64(nc), vort: b.f64(nv),
+  } : null;
   const k: KernelExports | null = b.build();
   if (!k) return null;
   const WC = cells.width, WT = tangents.width;
+  const laplacian = (o: number, u: number) => {
+    if (!lap) return;
+    k.vectorLaplacian(o, u, nc, ne, nv, lapCells.width, lap.ci.ptr, lap.sl.ptr, lap.area.ptr, ve.ptr, lap.vsd.ptr, lap.vArea.ptr, vi.ptr,
+      ec.ptr, ev.ptr, lap.dc.ptr, lap.len.ptr, open.ptr, lap.div.ptr, lap.vort.ptr);
+  };
   return {
     run(o, xIn) {
       x.view.set(xIn);
@@ -188,6 +205,18 @@ function wasmTendency(m: Mesh, p: ModelParams, layout: StateLayout): WasmTendenc
       k.edgeFluxAndPv(flux.ptr, qE.ptr, fq.ptr, x.ptr, ne, nc, uOffset, L, P, ec.ptr, ev.ptr, qV.ptr);
       k.cellContinuityBernoulli(out.ptr, bern.ptr, x.ptr, nc, ne, uOffset, L, P, WC, idx.ptr, dcf.ptr, kcf.ptr, bottom.ptr, rg.ptr, flux.ptr);
       k.edgeMomentum(out.ptr, ne, uOffset, L, P, WT, ec.ptr, open.ptr, inv.ptr, slot.ptr, tw.ptr, flux.ptr, qE.ptr, fq.ptr, bern.ptr);
+      if (wind || p.bottomDrag > 0) k.windAndDrag(out.ptr, x.ptr, ne, uOffset, L, ec.ptr, open.ptr, wind ? wind.ptr : 0, p.rho0, p.bottomDrag);
+      if (lap) {
+        for (let layer = 0; layer < L; layer++) {
+          const uo = out.ptr + 8 * (uOffset + layer * ne);
+          laplacian(lap.lap.ptr, x.ptr + 8 * (uOffset + layer * ne));
+          if (p.viscosity > 0) k.addScaled(uo, lap.lap.ptr, p.viscosity, ne);
+          if (p.biharmonic > 0) {
+            laplacian(lap.lap2.ptr, lap.lap.ptr);
+            k.addScaled(uo, lap.lap2.ptr, -p.biharmonic, ne);
+          }
+        }
+      }
       o.set(out.view);
     },
   };

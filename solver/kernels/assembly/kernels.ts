@@ -439,3 +439,52 @@ export function jacobianApply(
     }
   }
 }
+
+// ---------------------------------------------------------------------------------------------------------
+// Forcing and dissipation of the tendency (terms.ts: windForcing, linearDrag, vectorLaplacian, addScaled), in the
+// order the model applies them: wind on the top layer, drag on the bottom layer, then per layer ν2 ∇²u − ν4 ∇⁴u.
+
+/** Wind τ_e/(ρ0 ĥ_e) on the top layer's open edges (if `wind` ≠ 0), then bottom drag −r u (if r > 0). */
+export function windAndDrag(out: usize, x: usize, ne: i32, uOffset: i32, L: i32, ec: usize, open: usize, wind: usize, rho0: f64, drag: f64): void {
+  if (wind != 0) {
+    const o = out + (<usize>uOffset << 3);
+    for (let e = 0; e < ne; e++) {
+      if (load<u8>(open + <usize>e) == 0) continue;
+      const hE = 0.5 * (ld(x, li(ec, 2 * e)) + ld(x, li(ec, 2 * e + 1)));
+      st(o, e, ld(o, e) + ld(wind, e) / (rho0 * hE));
+    }
+  }
+  if (drag > 0) {
+    const off = uOffset + (L - 1) * ne;
+    const o = out + (<usize>off << 3), u = x + (<usize>off << 3);
+    for (let e = 0; e < ne; e++) st(o, e, ld(o, e) - drag * ld(u, e));
+  }
+}
+
+/**
+ * Vector Laplacian (∇²u)_e = (δ_c2 − δ_c1)/d_e − (ζ_v2 − ζ_v1)/l_e with δ = D u, ζ = C u (0 at coastline
+ * vertices), 0 on coastline edges, into `out`; `div` (nc) and `vort` (nv) are work arrays. `sl` = s·l_e per padded
+ * cell slot (byte-offset indices `ci`), `vsd` = t·d_e per vertex slot.
+ */
+export function vectorLaplacian(
+  out: usize, u: usize, nc: i32, ne: i32, nv: i32, WC: i32, ci: usize, sl: usize, area: usize,
+  ve: usize, vsd: usize, vArea: usize, vi: usize, ec: usize, ev: usize, dc: usize, len: usize, open: usize, div: usize, vort: usize,
+): void {
+  for (let i = 0; i < nc; i++) st(div, i, cellSum(sl, ci, u, WC * i, WC) / ld(area, i));
+  for (let v = 0; v < nv; v++) {
+    const j = 3 * v;
+    st(vort, v, load<u8>(vi + <usize>v) != 0
+      ? (ld(vsd, j) * ld(u, li(ve, j)) + ld(vsd, j + 1) * ld(u, li(ve, j + 1)) + ld(vsd, j + 2) * ld(u, li(ve, j + 2))) / ld(vArea, v)
+      : 0);
+  }
+  for (let e = 0; e < ne; e++) {
+    st(out, e, load<u8>(open + <usize>e) != 0
+      ? (ld(div, li(ec, 2 * e + 1)) - ld(div, li(ec, 2 * e))) / ld(dc, e) - (ld(vort, li(ev, 2 * e + 1)) - ld(vort, li(ev, 2 * e))) / ld(len, e)
+      : 0);
+  }
+}
+
+/** out[e] += coef · a[e] for e < n. */
+export function addScaled(out: usize, a: usize, coef: f64, n: i32): void {
+  for (let e = 0; e < n; e++) st(out, e, ld(out, e) + coef * ld(a, e));
+}
