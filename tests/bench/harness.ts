@@ -3,7 +3,7 @@
 export interface Timing { best: number; median: number; runs: number }
 
 /** Time `fn` (one call = one unit of work) in `reps` repetitions of `inner` calls, after warm-up. */
-export function time(fn: () => void, o: { warmup?: number; reps?: number; inner?: number } = {}): Timing {
+export function time(fn: () => void, o: { warmup?: number; reps?: number; inner?: number; clock?: () => number } = {}): Timing {
   const t = samples(fn, o);
   return { ...summary(t), runs: t.length * (o.inner ?? 5) };
 }
