@@ -73,13 +73,14 @@ interface Work {
 }
 
 /**
- * Which implementation runs the four fused passes: "wasm" (default; the WebAssembly kernels of solver/kernels,
+ * Which implementation runs the tendency (the four fused passes, forcing and dissipation): "wasm" (default; the
+ * WebAssembly kernels of solver/kernels,
  * falling back to the TypeScript loops where WebAssembly is unavailable) or "typescript" (the loops of terms.ts,
  * kept as the reference the kernels are tested against). Both compute the same values up to round-off.
  */
 export type KernelChoice = "wasm" | "typescript";
 
-/** The fused passes in a kernel memory: input and output vectors, work arrays and the mesh arrays they read. */
+/** The tendency in a kernel memory: input and output vectors, work arrays and the mesh arrays they read. */
 interface WasmTendency {
   run(out: Float64Array, x: Float64Array): void;
 }
@@ -160,8 +161,9 @@ export class ShallowWaterModel {
 }
 
 /**
- * The four fused passes of terms.ts as WebAssembly kernels over copies of the mesh arrays (stencils padded to
- * fixed widths, see padStencil); null where WebAssembly is unavailable. Allocates its memory once.
+ * The tendency — the four fused passes of terms.ts, then wind, drag and viscosity in the order `tendency` applies
+ * them — as WebAssembly kernels over copies of the mesh arrays (stencils padded to fixed widths, see padStencil);
+ * null where WebAssembly is unavailable. Allocates its memory once.
  */
 function wasmTendency(m: Mesh, p: ModelParams, layout: StateLayout): WasmTendency | null {
   const { nLayers: L, nCells: nc, nEdges: ne, uOffset, n } = layout;
