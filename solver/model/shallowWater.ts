@@ -74,9 +74,9 @@ interface Work {
 
 /**
  * Which implementation runs the tendency (the four fused passes, forcing and dissipation): "wasm" (default; the
- * WebAssembly kernels of solver/kernels,
- * falling back to the TypeScript loops where WebAssembly is unavailable) or "typescript" (the loops of terms.ts,
- * kept as the reference the kernels are tested against). Both compute the same values up to round-off.
+ * WebAssembly kernels of solver/kernels, falling back to the TypeScript loops where WebAssembly is unavailable)
+ * or "typescript" (the loops of terms.ts, kept as the reference the kernels are tested against). Both compute the
+ * same values up to round-off.
  */
 export type KernelChoice = "wasm" | "typescript";
 
