@@ -88,7 +88,7 @@ for (const n of [64, 128]) {
       ref: () => { gradientLoop(grad, m, bt.cell); pvFluxLoop(cor1, 0, m, bt.edge, bt.pv); pvFluxLoop(cor2, 0, m, bt.edge, bt.pv); divergenceLoop(div, m, bt.edge); },
     },
     rest: { label: "rest operator", units: nc * 3, inner, fn: () => rest.apply(outRest, restInput), ref: () => restRef.apply(outRest, restInput) },
-    jacobian: { label: "Jacobian-vector", units: nc * 3, inner: Math.max(1, Math.floor(inner / 2)), fn: () => jac.apply(outJac, restInput), ref: () => jacRef.apply(outJac, restInput) },
+    jacobian: { label: "Jacobian-vector", units: nc * 3, inner, fn: () => jac.apply(outJac, restInput), ref: () => jacRef.apply(outJac, restInput) },
   };
   const names = Object.keys(kernels) as KernelName[];
   const sw = Object.fromEntries(names.map((k) => [k, [] as number[]])) as Record<KernelName, number[]>;
@@ -104,15 +104,13 @@ for (const n of [64, 128]) {
     }
     if (problem) {
       const cr = problem.run(reps, inner, !wall);
-      for (const k of ["tendency", "restricted", "substep", "rest"] as const) c[k].push(...cr[k].map((s) => s * 1e3));
-      kernels.tendency.fn();
-      kernels.restricted.fn();
-      kernels.substep.fn();
-      kernels.rest.fn();
+      for (const k of names) c[k].push(...cr[k].map((s) => s * 1e3));
+      for (const k of names) kernels[k].fn();
       diff.tendency = relativeDifference(cr.outTendency, out);
       diff.restricted = relativeDifference(cr.outRestricted, outModal);
       diff.substep = relativeDifference(cr.outSubstep, outSub);
       diff.rest = relativeDifference(cr.outRest, outRest);
+      diff.jacobian = relativeDifference(cr.outJacobian, outJac);
     }
   }
   const key = `${n}x${n}`;

@@ -32,8 +32,8 @@ export interface BarotropicFields { cell: Float64Array; edge: Float64Array; pv: 
 export interface NativeProblem {
   /** Seconds per call of each repetition, and the outputs of the last call (sub-step: gradient, two PV fluxes, divergence). */
   run(reps: number, inner: number, cpu: boolean): {
-    tendency: number[]; restricted: number[]; substep: number[]; rest: number[];
-    outTendency: Float64Array; outRestricted: Float64Array; outSubstep: Float64Array; outRest: Float64Array;
+    tendency: number[]; restricted: number[]; substep: number[]; rest: number[]; jacobian: number[];
+    outTendency: Float64Array; outRestricted: Float64Array; outSubstep: Float64Array; outRest: Float64Array; outJacobian: Float64Array;
   };
 }
 
@@ -95,11 +95,14 @@ export function compileNative(layers: number): NativeLoops | { unavailable: stri
       put("restCoriolis.f64", rest.coriolisCoef);
       put("restEdgeThickness.f64", rest.edgeThickness);
       put("restInput.f64", restInput);
+      put("vertexKiteArea.f64", m.vertexKiteArea);
+      put("vertexArea.f64", m.vertexArea);
+      put("vertexEdgeSign.f64", m.vertexEdgeSign);
       const read = (name: string) => { const b = readFileSync(join(dir, name)); return new Float64Array(b.buffer, b.byteOffset, b.byteLength / 8).slice(); };
       return {
         run(reps, inner, cpu) {
-          const res = JSON.parse(execFileSync(exe, [dir, String(reps), String(inner), ...(cpu ? ["cpu"] : [])]).toString()) as { tendency: number[]; restricted: number[]; substep: number[]; rest: number[] };
-          return { ...res, outTendency: read("out_tendency.f64"), outRestricted: read("out_restricted.f64"), outSubstep: read("out_substep.f64"), outRest: read("out_rest.f64") };
+          const res = JSON.parse(execFileSync(exe, [dir, String(reps), String(inner), ...(cpu ? ["cpu"] : [])]).toString()) as { tendency: number[]; restricted: number[]; substep: number[]; rest: number[]; jacobian: number[] };
+          return { ...res, outTendency: read("out_tendency.f64"), outRestricted: read("out_restricted.f64"), outSubstep: read("out_substep.f64"), outRest: read("out_rest.f64"), outJacobian: read("out_jacobian.f64") };
         },
       };
     },

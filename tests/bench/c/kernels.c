@@ -5,7 +5,7 @@
  * Same work as the Stepwell kernels: four fused passes (vertex PV, edge flux and PV, cell continuity and
  * Bernoulli function, edge momentum) for the tendency; Coriolis, gradient and divergence stencils for the
  * restricted operator; gradient, two PV fluxes and divergence for the stencils of a barotropic sub-step; the
- * rest-state linear operator of all layers. The layer count is a compile-time constant (-DLAYERS=3), as it is a constant of the
+ * rest-state linear operator of all layers; the Jacobian-vector product of the inviscid, unforced tendency. The layer count is a compile-time constant (-DLAYERS=3), as it is a constant of the
  * generated TypeScript kernels. No threads, no explicit vector intrinsics: what `cc -O2` makes of plain loops.
  *
  * Usage: kernels DIR REPS INNER [cpu]. Prints one JSON object: per kernel the seconds per call of each of REPS
@@ -215,6 +215,84 @@ static void restOperator(double *restrict out, const double *restrict x) {
 }
 static void restTimed(double *out, const double *x) { (void)out; (void)x; restOperator(restOut, restX); }
 
+/* Jacobian-vector product of the inviscid, unforced tendency about the state x̄ (solver/model/jacobian.ts):
+   setup computes the linearization point (not timed), jacobian() is the product */
+static double *vertexKiteArea, *vertexArea, *vertexEdgeSign;
+static double *jxBar, *jhEdge, *jflux, *jhVert, *jqVert, *jqEdge, *jdM, *jdhEdge, *jdFlux, *jdVort, *jdqVert, *jdqEdge, *jdK, *jv, *jout;
+static void curlOf(double *out, const double *u) {
+  for (int v = 0; v < nv; v++) {
+    if (!vertexInterior[v]) { out[v] = 0; continue; }
+    double s = 0;
+    for (int j = 3 * v; j < 3 * v + 3; j++) s += vertexEdgeSign[j] * edgeCellDistance[vertexEdges[j]] * u[vertexEdges[j]];
+    out[v] = s / vertexArea[v];
+  }
+}
+static void vertexMean(double *out, const double *h) {
+  for (int v = 0; v < nv; v++) {
+    double s = 0;
+    for (int j = 3 * v; j < 3 * v + 3; j++) s += vertexKiteArea[j] * h[vertexCellsClamped[j]];
+    out[v] = s / vertexArea[v];
+  }
+}
+static void jacobianSetup(const double *x) {
+  for (int k = 0; k < L; k++) {
+    const double *h = x + k * nc, *u = x + L * nc + k * ne;
+    for (int e = 0; e < ne; e++) {
+      jhEdge[k * ne + e] = 0.5 * (h[edgeCellsClamped[2 * e]] + h[edgeCellsClamped[2 * e + 1]]);
+      jflux[k * ne + e] = jhEdge[k * ne + e] * u[e];
+    }
+    vertexMean(jhVert + k * nv, h);
+    curlOf(jdVort, u);
+    for (int v = 0; v < nv; v++) jqVert[k * nv + v] = (jdVort[v] + coriolis[v]) / jhVert[k * nv + v];
+    for (int e = 0; e < ne; e++) jqEdge[k * ne + e] = 0.5 * (jqVert[k * nv + edgeVertices[2 * e]] + jqVert[k * nv + edgeVertices[2 * e + 1]]);
+  }
+}
+static void jacobian(double *restrict out, const double *restrict x) {
+  for (int i = 0; i < nc; i++)
+    for (int k = 0; k < L; k++) {
+      double s = 0;
+      for (int j = 0; j < L; j++) s += coupling[k * L + j] * x[j * nc + i];
+      jdM[k * nc + i] = s;
+    }
+  for (int k = 0; k < L; k++) {
+    const int hOff = k * nc, uOff = L * nc + k * ne, eOff = k * ne, vOff = k * nv;
+    const double *h = x + hOff, *u = x + uOff, *ub = jxBar + uOff;
+    for (int e = 0; e < ne; e++) {
+      jdhEdge[e] = 0.5 * (h[edgeCellsClamped[2 * e]] + h[edgeCellsClamped[2 * e + 1]]);
+      jdFlux[e] = jdhEdge[e] * ub[e] + jhEdge[eOff + e] * u[e];
+    }
+    for (int i = 0; i < nc; i++) {
+      double s = 0;
+      for (int q = cellEdgeOffset[i]; q < cellEdgeOffset[i + 1]; q++) s += cellEdgeSign[q] * edgeLength[cellEdgeIndex[q]] * jdFlux[cellEdgeIndex[q]];
+      out[hOff + i] = -s / cellArea[i];
+    }
+    curlOf(jdVort, u);
+    vertexMean(jdqVert, h);
+    for (int v = 0; v < nv; v++) jdqVert[v] = (jdVort[v] - jqVert[vOff + v] * jdqVert[v]) / jhVert[vOff + v];
+    for (int e = 0; e < ne; e++) jdqEdge[e] = 0.5 * (jdqVert[edgeVertices[2 * e]] + jdqVert[edgeVertices[2 * e + 1]]);
+    for (int i = 0; i < nc; i++) {
+      double s = 0;
+      for (int q = cellEdgeOffset[i]; q < cellEdgeOffset[i + 1]; q++) {
+        const int e = cellEdgeIndex[q];
+        s += edgeLength[e] * edgeCellDistance[e] * ub[e] * u[e];
+      }
+      jdK[i] = (0.5 * s) / cellArea[i];
+    }
+    for (int e = 0; e < ne; e++) {
+      if (!edgeOpen[e]) { out[uOff + e] = 0; continue; }
+      const double qe = jqEdge[eOff + e], dqe = jdqEdge[e];
+      double acc = 0;
+      for (int q = tangentOffset[e]; q < tangentOffset[e + 1]; q++) {
+        const int e2 = tangentIndex[q];
+        acc += tangentCoef[q] * (jdFlux[e2] * (qe + jqEdge[eOff + e2]) + jflux[eOff + e2] * (dqe + jdqEdge[e2]));
+      }
+      const int c1 = edgeCells[2 * e], c2 = edgeCells[2 * e + 1];
+      out[uOff + e] = 0.5 * acc - (jdK[c2] + jdM[hOff + c2] - jdK[c1] - jdM[hOff + c1]) / edgeCellDistance[e];
+    }
+  }
+}
+static void jacobianTimed(double *out, const double *x) { (void)out; (void)x; jacobian(jout, jv); }
+
 static void timeIt(const char *name, void (*fn)(double *, const double *), double *out, const double *x, int reps, int inner, int last) {
   double *t = malloc(sizeof(double) * (size_t)reps);
   for (int w = 0; w < inner; w++) fn(out, x);
@@ -291,6 +369,19 @@ int main(int argc, char **argv) {
   restMont = calloc((size_t)(L * nc), sizeof(double));
   restOut = calloc((size_t)(L * (nc + ne)), sizeof(double));
 
+  vertexKiteArea = load("vertexKiteArea.f64", 8, NULL);
+  vertexArea = load("vertexArea.f64", 8, NULL);
+  vertexEdgeSign = load("vertexEdgeSign.f64", 8, NULL);
+  jxBar = x;
+  jv = restX;
+  jhEdge = calloc((size_t)(L * ne), sizeof(double)); jflux = calloc((size_t)(L * ne), sizeof(double));
+  jqEdge = calloc((size_t)(L * ne), sizeof(double)); jhVert = calloc((size_t)(L * nv), sizeof(double));
+  jqVert = calloc((size_t)(L * nv), sizeof(double)); jdM = calloc((size_t)(L * nc), sizeof(double));
+  jdhEdge = calloc((size_t)ne, sizeof(double)); jdFlux = calloc((size_t)ne, sizeof(double)); jdqEdge = calloc((size_t)ne, sizeof(double));
+  jdVort = calloc((size_t)nv, sizeof(double)); jdqVert = calloc((size_t)nv, sizeof(double)); jdK = calloc((size_t)nc, sizeof(double));
+  jout = calloc((size_t)(L * (nc + ne)), sizeof(double));
+  jacobianSetup(x);
+
   qV = calloc((size_t)L * nv, sizeof(double));
   flux = calloc((size_t)L * ne, sizeof(double));
   qE = calloc((size_t)L * ne, sizeof(double));
@@ -303,7 +394,8 @@ int main(int argc, char **argv) {
   timeIt("tendency", tendency, out, x, reps, inner, 0);
   timeIt("restricted", restricted, outModal, y, reps, 2 * inner, 0);
   timeIt("substep", substep, NULL, NULL, reps, 2 * inner, 0);
-  timeIt("rest", restTimed, NULL, NULL, reps, inner, 1);
+  timeIt("rest", restTimed, NULL, NULL, reps, inner, 0);
+  timeIt("jacobian", jacobianTimed, NULL, NULL, reps, inner, 1);
   printf("}\n");
   save("out_tendency.f64", out, (size_t)L * (nc + ne));
   save("out_restricted.f64", outModal, (size_t)(nc + ne));
@@ -314,5 +406,6 @@ int main(int argc, char **argv) {
   memcpy(bt + 3 * ne, btDiv, sizeof(double) * (size_t)nc);
   save("out_substep.f64", bt, (size_t)(3 * ne + nc));
   save("out_rest.f64", restOut, (size_t)(L * (nc + ne)));
+  save("out_jacobian.f64", jout, (size_t)(L * (nc + ne)));
   return 0;
 }
