@@ -125,7 +125,7 @@ for (const n of [64, 128]) {
     log(`${label.padEnd(21)} ${key.padEnd(9)} ${fmt(t).padEnd(24)} ${fmt(tr).padEnd(24)} ${cc ? fmt(cc).padEnd(20) : "— (no C loop)".padEnd(20)} ` +
       `${cc ? `${(t.best / cc.best).toFixed(2).padStart(5)} / ${(t.median / cc.median).toFixed(2).padEnd(12)}` : "".padEnd(20)} ${cc ? diff[k]!.toExponential(1) : ""}`);
   }
-  const s = time(() => run.stepper.step(run.state, 0, 60), { warmup: 3, reps: quick ? 3 : 9, inner: n === 64 ? 5 : 2 });
+  const s = time(() => run.stepper.step(run.state, 0, 60), { warmup: 3, reps: quick ? 3 : 9, inner: n === 64 ? 5 : 2, ...(wall ? {} : { clock: cpuClock }) });
   row.rk4Step = { ms: { best: round(s.best), median: round(s.median) } };
   tendency[key] = row;
   rk4Step[key] = { ms: { best: round(s.best), median: round(s.median) } };
