@@ -11,7 +11,7 @@ import { parseScenario } from "../solver/scenario/schema.js";
 import { canonicalJson, contentHash } from "../solver/studies/hash.js";
 import { StudyTracker, type StudyProgress } from "../solver/studies/common.js";
 import { parseMethodList } from "../solver/studies/methodList.js";
-import { planReference, referenceCache, referenceRun, type ReferenceRecord } from "../solver/studies/reference.js";
+import { referenceCache, referenceRun, type ReferenceRecord } from "../solver/studies/reference.js";
 import { Run } from "../solver/driver/run.js";
 import type { StepperSpec } from "../solver/scenario/schema.js";
 import { resolveStabilityOptions, stabilityStudy, type StabilityOptions, type StabilityResult, type StepperConfig } from "../solver/studies/stability.js";
@@ -118,9 +118,4 @@ export function finishSweepStudy(plan: SweepPlan, reference: ReferenceSummary, r
   return finishSweep(plan, reference, rows);
 }
 
-export { summarizeReference, planReference };
-
-/** Relative cost of each sweep item for progress and scheduling: its number of steps. */
-export function sweepItemWeights(plan: SweepPlan): number[] {
-  return Array.from({ length: plan.nItems }, (_, k) => plan.dts[k % plan.dts.length].steps);
-}
+export { summarizeReference };
