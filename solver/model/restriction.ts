@@ -35,6 +35,7 @@ import { verticalModes } from "../diagnostics/modes.js";
 import { inverseFactorial } from "../linalg/scalarPhi.js";
 import type { ShallowWaterModel, StateLayout } from "./shallowWater.js";
 import { isRegularHexMesh, restLinearOperator, estimateSpectralRadius, type RestLinearOperator } from "./linear.js";
+import { operatorShiftedSolver, type OperatorShiftedSolver, type ShiftedSolverOptions } from "./shiftedSolve.js";
 
 export interface ModalRestriction {
   /** Number of kept modes m (1 = barotropic only). */
@@ -62,6 +63,14 @@ export interface ModalRestriction {
   readonly restricted: LinearOperator;
   /** Multiply-adds of one L̂ matvec as implemented (a deterministic cost measure; compare RestLinearOperator's). */
   readonly multiplyAddsPerMatvec: number;
+  /**
+   * out = (I − γM)⁻¹ b for the restricted part M = Π̃ L Π on layer vectors (out and b may alias). Since
+   * R Π̃ L P = L̂, y = R out solves (I − γL̂) y = R b (a sparse LU of the modal system, once per γ, cached) and
+   * out = b + γ Π̃ L P y: the thickness correction is a layer divergence, so layer volumes are those of b.
+   */
+  solve(out: Float64Array, b: Float64Array, gamma: number): void;
+  /** The sparse solver of the modal system behind `solve` (built on first use; `stats` in products with L̂). */
+  shiftedSolver(options?: ShiftedSolverOptions): OperatorShiftedSolver;
 }
 
 export function modalRestriction(model: ShallowWaterModel, nModes: number, rest: RestLinearOperator = restLinearOperator(model)): ModalRestriction {
@@ -373,10 +382,24 @@ export function modalRestriction(model: ShallowWaterModel, nModes: number, rest:
   modalOp.spectralBound = bound;
   restrictedOp.spectralBound = bound;
 
+  const multiplyAddsPerMatvec = (diagonal ? m : mm) * (nnzT + 2 * ne + nnzC);
+  let solver: OperatorShiftedSolver | undefined;
+  const solveModal = new Float64Array(nModal), solveLift = new Float64Array(n);
+  function shiftedSolver(options?: ShiftedSolverOptions): OperatorShiftedSolver {
+    solver ??= operatorShiftedSolver(modalOp, mesh, m, multiplyAddsPerMatvec, options);
+    return solver;
+  }
   return {
     modes: m, layout, modalLayout, flat, speeds, rest,
     restrict, prolong, project, operator: modalOp, liftApply, restricted: restrictedOp,
-    multiplyAddsPerMatvec: (flat ? m : mm) * (nnzT + 2 * ne + nnzC),
+    multiplyAddsPerMatvec, shiftedSolver,
+    solve(out, b, gamma) {
+      const s = shiftedSolver();
+      restrict(solveModal, b);
+      s.solve(solveModal, solveModal, gamma);
+      liftApply(solveLift, solveModal);
+      for (let q = 0; q < n; q++) out[q] = b[q] + gamma * solveLift[q];
+    },
   };
 }
 
