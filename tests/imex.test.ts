@@ -1,0 +1,155 @@
+import { describe, expect, it } from "vitest";
+import { createRun } from "../solver/driver/run";
+import { budgetWork, layerMass, totalEnergy } from "../solver/diagnostics/budget";
+import { IMEX_METHODS, createImex } from "../solver/time/imex";
+import { ARS232, ARS443, IMEX_TABLES, TRAPEZOIDAL, checkImexTable, type ImexTable } from "../solver/time/imexTables";
+import type { Problem } from "../solver/time/interface";
+import type { ShallowWaterModel } from "../solver/model/shallowWater";
+import { testProblem } from "./imexProblem";
+
+const threeLayers = [{ thickness: 300, density: 1025 }, { thickness: 700, density: 1026.4 }, { thickness: 3000, density: 1027.6 }];
+
+/** 8×8 periodic cells of 20 km, three layers, f-plane with β, a 20 m bump on the first interior interface. */
+function smallRun() {
+  return createRun({
+    name: "imex", mesh: { type: "periodic-hex", cellsX: 8, cellsY: 8, spacing: 20000 }, layers: threeLayers,
+    physics: { gravity: 9.81, f0: 7e-5, beta: 1e-11 }, initial: { type: "bump", amplitude: 20, radius: 40000, interface: 1 },
+    stepper: { method: "rk4", dt: 10 }, duration: 100,
+  });
+}
+
+/** Classical RK4 (Kutta 1901), the reference integrator. */
+function rk4(model: ShallowWaterModel, x: Float64Array, steps: number, dt: number): void {
+  const n = x.length, k1 = new Float64Array(n), k2 = new Float64Array(n), k3 = new Float64Array(n), k4 = new Float64Array(n), y = new Float64Array(n);
+  for (let s = 0, t = 0; s < steps; s++, t += dt) {
+    model.tendency(k1, x, t); for (let q = 0; q < n; q++) y[q] = x[q] + (dt / 2) * k1[q];
+    model.tendency(k2, y, t + dt / 2); for (let q = 0; q < n; q++) y[q] = x[q] + (dt / 2) * k2[q];
+    model.tendency(k3, y, t + dt / 2); for (let q = 0; q < n; q++) y[q] = x[q] + dt * k3[q];
+    model.tendency(k4, y, t + dt); for (let q = 0; q < n; q++) x[q] += (dt / 6) * (k1[q] + 2 * k2[q] + 2 * k3[q] + k4[q]);
+  }
+}
+
+const dot = (a: readonly number[], b: readonly number[]) => a.reduce((s, x, i) => s + x * b[i], 0);
+const mat = (A: readonly (readonly number[])[], v: readonly number[]) => A.map((row) => dot(row, v));
+
+/**
+ * Order conditions of an additive Runge–Kutta pair with shared nodes up to order 3 (Kennedy & Carpenter,
+ * Appl. Numer. Math. 44 (2003) 139–181, §3; for one tableau Hairer, Nørsett & Wanner, Solving ODEs I, §II.2):
+ * Σb = 1; Σb c = ½; Σb c² = ⅓ and Σ b^α A^β c = ⅙ for every pairing α, β of explicit and implicit.
+ */
+function orderDefects(t: ImexTable): number[] {
+  const bs = [t.explicitB, t.implicitB], As = [t.explicitA, t.implicitA], c = t.c as number[];
+  const d1 = bs.map((b) => dot(b, c.map(() => 1)) - 1);
+  const d2 = bs.map((b) => dot(b, c) - 1 / 2);
+  const d3 = [
+    ...bs.map((b) => dot(b, c.map((x) => x * x)) - 1 / 3),
+    ...bs.flatMap((b) => As.map((A) => dot(b, mat(A, c)) - 1 / 6)),
+  ];
+  return [Math.max(...d1.map(Math.abs)), Math.max(...d2.map(Math.abs)), Math.max(...d3.map(Math.abs))];
+}
+
+describe("IMEX tables (Ascher, Ruuth & Spiteri 1997, Appl. Numer. Math. 25, 151–167)", () => {
+  it("are consistent (rows sum to c, Σb = 1, explicit strictly lower)", () => {
+    for (const t of IMEX_TABLES) expect(() => checkImexTable(t)).not.toThrow();
+  });
+
+  it("ARS(2,3,2) and the trapezoidal pair satisfy the order-2 conditions and not all order-3 ones", () => {
+    for (const t of [ARS232, TRAPEZOIDAL]) {
+      const [d1, d2, d3] = orderDefects(t);
+      expect(d1).toBeLessThan(1e-15);
+      expect(d2).toBeLessThan(1e-15);
+      expect(d3).toBeGreaterThan(1e-3);
+    }
+  });
+
+  it("ARS(4,4,3) satisfies every order-3 condition of both tableaux and their coupling", () => {
+    const [d1, d2, d3] = orderDefects(ARS443);
+    expect(Math.max(d1, d2, d3)).toBeLessThan(1e-14);
+  });
+
+  it("ARS implicit parts are L-stable: R(z) = 1 + z bᵀ(I − zA)⁻¹1 → 0 as z → −∞ (stiffly accurate, a_ii > 0 after stage 0)", () => {
+    for (const t of [ARS232, ARS443]) {
+      // stiffly accurate: b equals the last row of the implicit tableau (the paper's construction)
+      expect(t.implicitB).toEqual(t.implicitA[t.c.length - 1]);
+      const z = -1e8, s = t.c.length;
+      // solve (I − zA) y = 1 by forward substitution
+      const y: number[] = [];
+      for (let i = 0; i < s; i++) {
+        let r = 1;
+        for (let j = 0; j < i; j++) r += z * t.implicitA[i][j] * y[j];
+        y.push(r / (1 - z * t.implicitA[i][i]));
+      }
+      expect(Math.abs(1 + z * dot(t.implicitB, y))).toBeLessThan(1e-6);
+    }
+  });
+
+  it("a table with an explicit entry on the diagonal is refused", () => {
+    const bad: ImexTable = { ...TRAPEZOIDAL, name: "bad", explicitA: [[0, 0], [0.5, 0.5]] };
+    expect(() => checkImexTable(bad)).toThrow(/bad: explicit entry \(1, 1\)/);
+  });
+});
+
+describe("IMEX steppers on a small 3-layer periodic mesh", () => {
+  it("measured orders against an RK4 reference: ARS(2,3,2) 2, ARS(4,4,3) 3, trapezoidal 2 (the papers' orders)", () => {
+    const run = smallRun();
+    const model = run.model, x0 = Float64Array.from(run.state);
+    const P = testProblem(model);
+    const dtRk4 = (2 * Math.SQRT2) / P.rest.spectralBound; // RK4 limit on the imaginary axis (common practice, no source)
+    const T = 16 * dtRk4;
+    const ref = Float64Array.from(x0);
+    rk4(model, ref, 16 * 64, dtRk4 / 64);
+    const nh = 3 * model.layout.nCells;
+    const expected: Record<string, number> = { "imex-ars232": 2, "imex-ars443": 3, "imex-trapezoidal": 2 };
+    for (const def of IMEX_METHODS) {
+      const errors: number[] = [];
+      for (const frac of [0.5, 0.25, 0.125]) {
+        const st = def.create(P, { linear: "modes:1" }, { field: "stepper" });
+        const x = Float64Array.from(x0), dt = frac * dtRk4, steps = Math.round(T / dt);
+        for (let s = 0; s < steps; s++) st.step(x, s * dt, dt);
+        let e = 0;
+        for (let q = 0; q < nh; q++) e = Math.max(e, Math.abs(x[q] - ref[q]));
+        errors.push(e);
+      }
+      const observed = Math.log2(errors[1] / errors[2]);
+      expect(observed, `${def.name} errors ${errors.map((e) => e.toExponential(2)).join(", ")}`).toBeGreaterThan(expected[def.name] - 0.25);
+      expect(observed).toBeLessThan(expected[def.name] + 0.4);
+    }
+  });
+
+  it("ARS(2,3,2) and ARS(4,4,3) with every mode implicit stay stable at 100× the RK4 limit for 200 steps: energy bounded, layer volumes exact", () => {
+    const run = smallRun();
+    const model = run.model, x0 = Float64Array.from(run.state);
+    const P = testProblem(model);
+    const w = budgetWork(model);
+    const energy = (x: Float64Array) => { const e = totalEnergy(model, x, w); return e.kinetic + e.potential; };
+    const dt = 100 * (2 * Math.SQRT2) / P.rest.spectralBound;
+    const e0 = energy(x0), m0 = layerMass(model, x0);
+    for (const def of IMEX_METHODS.filter((d) => d.name !== "imex-trapezoidal")) {
+      for (const linear of ["rest", "modes:3"]) {
+        const st = def.create(P, { linear }, { field: "stepper" });
+        const x = Float64Array.from(x0);
+        let eMax = 0;
+        for (let s = 0; s < 200; s++) { st.step(x, s * dt, dt); eMax = Math.max(eMax, energy(x)); }
+        // the fast waves are damped (L-stable implicit part), the slow flow carries on: energy stays below its start
+        // value plus a few per cent (the explicit part is not energy-conserving exactly)
+        expect(eMax / e0, `${def.name} linear=${linear}`).toBeLessThan(1.05);
+        expect(energy(x) / e0).toBeGreaterThan(0.3);
+        const m = layerMass(model, x);
+        for (let k = 0; k < 3; k++) expect(Math.abs(m[k] - m0[k]) / m0[k]).toBeLessThan(1e-14);
+      }
+    }
+  });
+
+  it("refuses a linear part without a shifted solve, or one that is re-formed, naming stepper.linear", () => {
+    const base = testProblem(smallRun().model);
+    const part = base.linear("modes:1");
+    const withPart = (linear: Problem["linear"]): Problem => ({
+      n: base.n, layout: base.layout, newVector: base.newVector, tendency: base.tendency, counters: base.counters,
+      fastSlow: undefined as never, linear,
+    });
+    const noSolve = withPart(() => ({ ...part, solve: undefined }));
+    expect(() => createImex(ARS232, noSolve, { linear: "modes:1" }, "stepper")).toThrow(/^stepper\.linear: .*no shifted solve/);
+    const reformed = withPart(() => ({ ...part, reformed: true }));
+    expect(() => createImex(ARS232, reformed, { linear: "jacobian" }, "stepper")).toThrow(/^stepper\.linear: .*fixed linear part/);
+  });
+});
