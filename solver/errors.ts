@@ -1,5 +1,5 @@
 /** The one error type Stepwell throws at its boundaries (scenario files, CLI arguments, worker calls). */
-export type SolverErrorCode = "bad-input" | "bad-tableau" | "bad-mesh" | "non-finite" | "breakdown" | "cancelled";
+export type SolverErrorCode = "bad-input" | "bad-tableau" | "bad-mesh" | "non-finite" | "breakdown" | "cancelled" | "stepper-fault";
 
 export class SolverError extends Error {
   constructor(

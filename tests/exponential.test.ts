@@ -2,7 +2,8 @@ import { describe, expect, it } from "vitest";
 import * as math from "mathjs";
 import { createRun, type Run } from "../solver/driver/run";
 import { createStepper, listMethods } from "../solver/time/registry";
-import { buildLinearPart, exponentialRk, tableMaxPhi } from "../solver/time/exponential";
+import { exponentialRk, tableMaxPhi } from "../solver/time/exponential";
+import { problemFor } from "../solver/model/problem";
 import * as tables from "../solver/time/expTables";
 import { checkExpTable, EXP_TABLES, type ExpRkTable } from "../solver/time/expTables";
 import { restLinearOperator } from "../solver/model/linear";
@@ -23,7 +24,7 @@ function scenario(over: Record<string, unknown> = {}, physics: Record<string, un
 }
 
 function stepper(run: Run, spec: Record<string, unknown>): Stepper {
-  return createStepper({ model: run.model, spec: spec as never, modes: run.modes, field: "stepper" });
+  return createStepper(run.problem, spec);
 }
 
 const FIXED_LINEAR = ["rest", "modes:1"] as const;
@@ -77,7 +78,7 @@ describe("stepper options", () => {
     return "";
   };
   it("name the offending field", () => {
-    expect(msg({ method: "etdrk4", backend: "magic" })).toMatch(/^stepper\.backend: unknown backend "magic"/);
+    expect(msg({ method: "etdrk4", backend: "magic" })).toMatch(/^stepper\.backend: unknown value "magic"; expected one of "krylov"/);
     expect(msg({ method: "etdrk4", linear: "modes:4" })).toMatch(/^stepper\.linear: modes:4 asks for more modes than the 3 layers/);
     expect(msg({ method: "etdrk4", linear: "lagged" })).toMatch(/^stepper\.linear: unknown linear part/);
     expect(msg({ method: "etdrk4", tolerance: 0 })).toMatch(/^stepper\.tolerance must be > 0/);
@@ -118,10 +119,10 @@ describe("linear exactness: N ≡ 0 gives e^{hL}x at hω_max = 50 (T17; e^{hL} f
   for (const table of EXP_TABLES) {
     for (const [linear, backend] of [["rest", "krylov"], ["rest", "chebyshev"], ["modes:1", "krylov"]] as const) {
       it(`${table.name}, linear ${linear}, ${backend}`, () => {
-        const part = buildLinearPart(model, { linear, backend, tolerance: 1e-11, maxPhi: tableMaxPhi(table), rest: L });
-        const st = exponentialRk(table, linearProblem, part, { method: table.name, label: table.name, order: table.order });
+        const part = problemFor(model).linear(linear);
+        const step = exponentialRk(table, linearProblem, part, part.phi({ backend, tolerance: 1e-11, maxPhi: tableMaxPhi(table) }));
         const x = Float64Array.from(x0);
-        st.step(x, 0, h);
+        step(x, 0, h);
         let err = 0;
         for (let i = 0; i < n; i++) err = Math.max(err, Math.abs(x[i] - want[i]));
         expect(err / scale).toBeLessThan(1e-8);

@@ -3,7 +3,7 @@ import { createRun, Run } from "../solver/driver/run";
 import { buildScenario } from "../solver/scenario/build";
 import { parseScenario } from "../solver/scenario/schema";
 import { seededRandom } from "../solver/mesh/hexLattice";
-import { verticalModes } from "../solver/diagnostics/modes";
+import { verticalModes } from "../solver/model/modes";
 import type { ShallowWaterModel } from "../solver/model/shallowWater";
 
 /** A scenario object with overrides (tests use small meshes). */

@@ -12,7 +12,7 @@ const run = createRun({
 }, undefined);
 
 function build(spec: Record<string, unknown>) {
-  return createStepper({ model: run.model, spec: { dt: 10, ...spec } as never, modes: run.modes, field: "stepper" });
+  return createStepper(run.problem, { dt: 10, ...spec });
 }
 const byKey = (os: OptionDescription[]) => new Map(os.map((o) => [o.key, o]));
 const values = (o: OptionDescription | undefined) => (o?.choices ?? []).map((c) => c.value);
@@ -21,7 +21,7 @@ describe("option choices of the registered methods", () => {
   it("lists every registry option of every method, with help and a known kind", () => {
     for (const m of listMethods()) {
       const os = optionChoices(m.name, 3);
-      expect(os.map((o) => o.key)).toEqual([...m.options]);
+      expect(os.map((o) => o.key)).toEqual(Object.keys(m.options ?? {}));
       for (const o of os) {
         expect(o.help.length).toBeGreaterThan(10);
         expect(["select", "number", "integer", "json"]).toContain(o.kind);

@@ -131,8 +131,8 @@ describe("convergence sweep", () => {
     // exact, so Δt goes beyond the RK4 limit; a tight φ tolerance and a fine reference keep the floor low.
     const steppers: StepperConfig[] = exponential.map((m) => {
       const spec: StepperConfig = { method: m.name };
-      if (m.options.includes("linear")) spec.linear = m.family === "exponential-rosenbrock" ? "jacobian" : "rest";
-      if (m.options.includes("tolerance")) spec.tolerance = 1e-12;
+      if (m.options && "linear" in m.options) spec.linear = m.family === "exponential-rosenbrock" ? "jacobian" : "rest";
+      if (m.options && "tolerance" in m.options) spec.tolerance = 1e-12;
       return spec;
     });
     const built = buildScenario(parseScenario(smooth));

@@ -69,7 +69,7 @@ function stepperInfo(r: Run): StepperInfo {
 /** The registered methods, with option pickers for a scenario of `nLayers` layers (default: the loaded one's). */
 function methods(nLayers = run?.model.params.nLayers ?? 1): MethodSummary[] {
   return listMethods().map((m) => ({
-    name: m.name, family: m.family, order: m.order, description: m.description, options: [...m.options],
+    name: m.name, family: m.family ?? "user", order: m.order, description: m.description, options: Object.keys(m.options ?? {}),
     choices: optionChoices(m.name, nLayers), imaginaryAxisBound: m.imaginaryAxisBound, baroclinicAxisBound: m.baroclinicAxisBound,
   }));
 }

@@ -1,9 +1,10 @@
 import { SolverError } from "../errors.js";
 import { budgetWork, computeBudget, courantNumbers, type Budget, type BudgetWork, type CourantNumbers } from "../diagnostics/budget.js";
-import { hexMaxFrequency, RK4_IMAGINARY_BOUND, verticalModes, type VerticalModes } from "../diagnostics/modes.js";
+import { hexMaxFrequency, verticalModes, type VerticalModes } from "../model/modes.js";
+import { problemFor, type ModelProblem } from "../model/problem.js";
 import { buildScenario, type BuiltScenario } from "../scenario/build.js";
 import { parseScenario, stepperSchema, type Scenario, type StepperSpec } from "../scenario/schema.js";
-import { createStepper } from "../time/registry.js";
+import { createStepper, rk4ImaginaryBound } from "../time/registry.js";
 import type { Stepper } from "../time/types.js";
 
 /** Where, when and why a run stopped (a result, not an exception). */
@@ -63,6 +64,8 @@ export class Run {
   }
 
   get model() { return this.built.model; }
+  /** The stepper interface of this run's model (built once per model, cached). */
+  get problem(): ModelProblem { return problemFor(this.built.model); }
   get mesh() { return this.built.mesh; }
   get dt(): number { return this.spec.dt; }
 
@@ -74,7 +77,7 @@ export class Run {
       const f = `${field}${i.path.length ? "." + i.path.join(".") : ""}`;
       throw new SolverError("bad-input", `${f}: ${i.message}`, f);
     }
-    this.stepper = createStepper({ model: this.built.model, spec: r.data, modes: this.modes, field });
+    this.stepper = createStepper(this.problem, r.data, { field });
     this.spec = r.data;
   }
 
@@ -90,7 +93,7 @@ export class Run {
 
   /** RK4 gravity-wave Δt limit of this scenario's fastest mode on its mesh [s]. */
   rk4DtLimit(): number {
-    return RK4_IMAGINARY_BOUND / hexMaxFrequency(this.fastestSpeed(), this.mesh.spacing);
+    return rk4ImaginaryBound() / hexMaxFrequency(this.fastestSpeed(), this.mesh.spacing);
   }
 
   /** Barotropic speed over the deepest water column (topography makes c0 vary) [m/s]. */
@@ -142,7 +145,12 @@ export class Run {
     const dt = this.dt;
     for (let s = 0; s < nSteps; s++) {
       this.lastGood.set(this.state);
-      this.stepper.step(this.state, this.time, dt);
+      try {
+        this.stepper.step(this.state, this.time, dt);
+      } catch (e) {
+        this.state.set(this.lastGood); // a stepper that throws leaves the last good state in place
+        throw e;
+      }
       const c = this.check();
       if (!c.ok) {
         this.state.set(this.lastGood);

@@ -76,3 +76,25 @@ export function createPhiAction(backend: PhiBackendName, op: LinearOperator, opt
   }
   throw new SolverError("bad-input", `unhandled backend ${String(backend)}`, "stepper.backend");
 }
+
+/**
+ * The φ filter option of a stepper: "off" / absent → none; a number → that filter order with κ = 36 at the spectral bound; or { order, strength?, cutoff? }.
+ */
+export function parsePhiFilter(raw: unknown, field: string): { order: number; strength?: number; cutoff?: number } | undefined {
+  if (raw === undefined || raw === null || raw === false || raw === "off" || raw === "none" || raw === 0) return undefined;
+  if (typeof raw === "number") {
+    if (!(Number.isFinite(raw) && raw > 0)) throw new SolverError("bad-input", `${field}: the filter order must be a number > 0 (e.g. 8), got ${raw}`, field);
+    return { order: raw };
+  }
+  if (typeof raw === "string" && raw.trim() !== "" && Number.isFinite(Number(raw))) return parsePhiFilter(Number(raw), field);
+  if (typeof raw === "object" && !Array.isArray(raw)) {
+    const f = raw as Record<string, unknown>;
+    for (const key of Object.keys(f)) if (!["order", "strength", "cutoff"].includes(key)) throw new SolverError("bad-input", `${field}.${key}: unknown field (a filter has order, strength, cutoff)`, `${field}.${key}`);
+    if (typeof f.order !== "number" || !(f.order > 0) || !Number.isFinite(f.order)) throw new SolverError("bad-input", `${field}.order must be a number > 0`, `${field}.order`);
+    if (f.strength !== undefined && !(typeof f.strength === "number" && f.strength >= 0 && Number.isFinite(f.strength))) throw new SolverError("bad-input", `${field}.strength must be a number ≥ 0`, `${field}.strength`);
+    if (f.cutoff !== undefined && !(typeof f.cutoff === "number" && f.cutoff > 0 && Number.isFinite(f.cutoff))) throw new SolverError("bad-input", `${field}.cutoff must be a frequency > 0 [1/s]`, `${field}.cutoff`);
+    return { order: f.order, strength: f.strength as number | undefined, cutoff: f.cutoff as number | undefined };
+  }
+  throw new SolverError("bad-input", `${field}: expected "off", a filter order (e.g. 8) or { "order": 8, "strength": 36, "cutoff": ω_c }, got ${JSON.stringify(raw)}`, field);
+}
+

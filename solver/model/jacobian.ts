@@ -13,7 +13,7 @@
  * vertices (free slip), ĥ = the wet cell's value on coastline edges.
  */
 import type { LinearOperator, OperatorCounters } from "../linalg/types.js";
-import { layerCoupling } from "../diagnostics/modes.js";
+import { layerCoupling } from "./modes.js";
 import type { ShallowWaterModel, StateLayout } from "./shallowWater.js";
 
 export interface JacobianOperator extends LinearOperator {

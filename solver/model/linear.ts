@@ -20,7 +20,7 @@
  */
 import type { LinearOperator, OperatorCounters } from "../linalg/types.js";
 import type { Mesh } from "../mesh/types.js";
-import { layerCoupling, verticalModes } from "../diagnostics/modes.js";
+import { layerCoupling, verticalModes } from "./modes.js";
 import type { ShallowWaterModel, StateLayout } from "./shallowWater.js";
 import { operatorShiftedSolver, type OperatorShiftedSolver, type ShiftedSolverOptions } from "./shiftedSolve.js";
 

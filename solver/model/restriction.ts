@@ -31,7 +31,7 @@
  */
 import { SolverError } from "../errors.js";
 import type { LinearOperator, OperatorCounters, PhiAction, PhiStats } from "../linalg/types.js";
-import { verticalModes } from "../diagnostics/modes.js";
+import { verticalModes } from "./modes.js";
 import { inverseFactorial } from "../linalg/scalarPhi.js";
 import type { ShallowWaterModel, StateLayout } from "./shallowWater.js";
 import { isRegularHexMesh, restLinearOperator, estimateSpectralRadius, type RestLinearOperator } from "./linear.js";

@@ -2,7 +2,7 @@ import { SolverError } from "../errors.js";
 import { basinHexMesh, periodicHexMesh } from "../mesh/hexLattice.js";
 import { displacement, skewGradient, vertexToCell } from "../mesh/operators.js";
 import type { Mesh } from "../mesh/types.js";
-import { layerCoupling } from "../diagnostics/modes.js";
+import { layerCoupling } from "../model/modes.js";
 import { luSolve } from "../linalg/dense.js";
 import { ShallowWaterModel, type ModelParams } from "../model/shallowWater.js";
 import type { InitialSpec, MeshSpec, Scenario } from "./schema.js";

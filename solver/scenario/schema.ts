@@ -114,10 +114,14 @@ const initial = z.discriminatedUnion("type", [
 ]);
 
 export const stepperSchema = z.object({
-  method: z.string({ error: "must be a method name" }).min(1),
+  method: z.string({ error: "must be a method name" }).min(1).optional(),
+  /** A user stepper module (path, relative to the file that names it); its definition replaces `method`. */
+  module: z.string({ error: "must be a path to a stepper module (.js, .mjs or .ts)" }).min(1).optional(),
   dt: positive("dt [s]"),
   label: z.string().optional(),
-}).passthrough();
+}).passthrough().superRefine((s, ctx) => {
+  if (s.method === undefined && s.module === undefined) ctx.addIssue({ code: "custom", path: ["method"], message: "is required: a method name (or give \"module\": a stepper module file)" });
+}).transform((s) => ({ ...s, method: s.method ?? "" }));
 
 export const scenarioSchema = z.object({
   name: z.string({ error: "must be a string" }).min(1, { error: "must not be empty" }),

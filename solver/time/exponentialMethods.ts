@@ -1,37 +1,30 @@
 /**
  * Registry entries of the exponential methods: every table of expTables.ts under its own name, plus
- * "custom-exp" taking a user φ-table (option `phiTable`). Options: linear, backend, tolerance, substeps, filter.
+ * "custom-exp" taking a user φ-table (option `phiTable`).
  */
-import type { MethodEntry } from "./registry.js";
-import { EXP_TABLES, parseExpTable, type ExpRkTable } from "./expTables.js";
-import { createExponentialStepper, EXPONENTIAL_OPTIONS } from "./exponential.js";
+import { SolverError } from "../errors.js";
+import type { StepperDefinition } from "./interface.js";
+import { EXP_TABLES, parseExpTable } from "./expTables.js";
+import { createExponential, exponentialDefinition, linearOption, PHI_OPTIONS } from "./exponential.js";
 
-const LINEAR_HELP = 'linear "rest" | "modes:N" | "jacobian", backend krylov | taylor | chebyshev | substep | rational | dense';
-
-function entry(t: ExpRkTable): MethodEntry {
-  const rosenbrock = t.linearPart === "jacobian";
-  return {
-    name: t.name,
-    family: rosenbrock ? "exponential-rosenbrock" : "exponential",
-    order: t.order,
-    description: `${t.reference}; ${t.b.length} tendency evaluation${t.b.length === 1 ? "" : "s"} per step; ` +
-      `${rosenbrock ? "default linear: jacobian" : "default linear: rest"}; ${LINEAR_HELP}`,
-    options: [...EXPONENTIAL_OPTIONS],
-    create: ({ model, spec, field }) => createExponentialStepper(t, model, spec as Record<string, unknown>, field),
-  };
-}
-
-export const EXPONENTIAL_METHODS: readonly MethodEntry[] = [
-  ...EXP_TABLES.map(entry),
+export const EXPONENTIAL_METHODS: readonly StepperDefinition[] = [
+  ...EXP_TABLES.map(exponentialDefinition),
   {
     name: "custom-exp", family: "exponential", order: 1,
-    description: 'any exponential Runge–Kutta method given as "phiTable": { "c": [...], "a": [[], [[{"k":1,"coef":…,"at":…}]], …], "b": [...], "order": p }; ' + LINEAR_HELP,
-    options: [...EXPONENTIAL_OPTIONS, "phiTable"],
-    create: ({ model, spec, field }) => {
-      const raw = spec as Record<string, unknown>;
-      const table = parseExpTable(raw.phiTable, `${field}.phiTable`);
-      const { phiTable: _ignored, ...rest } = raw;
-      return createExponentialStepper(table, model, rest, field, "custom-exp");
+    description: 'any exponential Runge–Kutta method given as "phiTable": { "c": [...], "a": [[], [[{"k":1,"coef":…,"at":…}]], …], "b": [...], "order": p }',
+    options: {
+      linear: linearOption(undefined),
+      ...PHI_OPTIONS,
+      phiTable: {
+        type: "json", label: "φ-coefficient table (JSON)",
+        help: 'the φ-coefficient table as { "c": [...], "a": [[], [[{"k":1,"coef":…,"at":…}]], …], "b": [...], "order": p }',
+        parse: (v, field) => parseExpTable(v, field),
+      },
+    },
+    create: (problem, o, ctx) => {
+      const table = o.phiTable as ReturnType<typeof parseExpTable> | undefined;
+      if (!table) throw new SolverError("bad-input", `${ctx.field}.phiTable: is required for method "custom-exp"`, `${ctx.field}.phiTable`);
+      return createExponential(table, problem, o, ctx.field, "custom-exp");
     },
   },
 ];

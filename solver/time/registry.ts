@@ -1,114 +1,106 @@
+/**
+ * The list of built-in steppers: every test, the CLI and the sandbox iterate over it. Each entry is a
+ * `StepperDefinition`, the same shape a user module exports.
+ */
 import { SolverError } from "../errors.js";
-import type { ShallowWaterModel } from "../model/shallowWater.js";
-import type { StepperSpec } from "../scenario/schema.js";
-import type { VerticalModes } from "../diagnostics/modes.js";
-import { checkTableau, explicitRk } from "./explicitRk.js";
+import { checkTableau, explicitRkDefinition, explicitRkInstance, MAX_STAGES } from "./explicitRk.js";
 import { EXPLICIT_TABLEAUX, type ButcherTableau } from "./tableaux.js";
 import { SPLIT_EXPLICIT_METHOD } from "./splitExplicit.js";
+import type { Problem, StepperDefinition } from "./interface.js";
 import type { Stepper } from "./types.js";
 import { EXPONENTIAL_METHODS } from "./exponentialMethods.js";
+import { instantiate } from "./instantiate.js";
+import { moduleDefinition } from "./userModules.js";
 
-/** What a method factory gets: the model, the stepper spec from the scenario, and the vertical modes. */
-export interface MethodContext {
-  readonly model: ShallowWaterModel;
-  readonly spec: StepperSpec;
-  readonly modes: VerticalModes;
-  /** Prefix for field names in error messages, e.g. "stepper". */
-  readonly field: string;
-}
-
-export interface MethodEntry {
-  readonly name: string;
-  readonly family: "explicit" | "split-explicit" | "exponential" | "exponential-rosenbrock";
-  readonly order: number;
-  readonly description: string;
-  /** Option keys the method accepts besides method, dt and label. */
-  readonly options: readonly string[];
-  /** Linear stability bound on the imaginary axis, |ω Δt| ≤ bound, if the method has one. */
-  readonly imaginaryAxisBound?: number;
-  /**
-   * For methods that treat the barotropic mode separately: the bound |ω1 Δt| ≤ bound on the first baroclinic
-   * gravity wave (ω1 = √6 c1/d on the hexagonal mesh) that then limits the long step.
-   */
-  readonly baroclinicAxisBound?: number;
-  create(ctx: MethodContext): Stepper;
-}
-
-function explicitEntry(tab: ButcherTableau, bound: number, description: string): MethodEntry {
-  return {
-    name: tab.name, family: "explicit", order: tab.order, description, options: [], imaginaryAxisBound: bound,
-    create: ({ model }) => explicitRk(tab, model),
-  };
-}
+/** @deprecated name kept for callers: a registry entry is a stepper definition. */
+export type MethodEntry = StepperDefinition;
 
 const tableauSchemaHelp = '{ "a": [[], [a10], [a20, a21], …], "b": [b0, …], "c": [c0, …], "order": p }';
 
-function customRk(ctx: MethodContext): Stepper {
-  const raw = (ctx.spec as Record<string, unknown>).tableau;
-  const field = `${ctx.field}.tableau`;
-  if (!raw || typeof raw !== "object") throw new SolverError("bad-tableau", `${field}: is required for method "custom-rk": ${tableauSchemaHelp}`, field);
+/** Parse and check a user Butcher tableau (the `tableau` option of custom-rk). */
+function parseTableau(raw: unknown, field: string): ButcherTableau {
+  if (!raw || typeof raw !== "object" || Array.isArray(raw)) throw new SolverError("bad-tableau", `${field}: must be an object ${tableauSchemaHelp}`, field);
   const t = raw as Record<string, unknown>;
   const nums = (key: string): number[] => {
     const v = t[key];
     if (!Array.isArray(v) || !v.every((x) => typeof x === "number")) throw new SolverError("bad-tableau", `${field}.${key}: must be an array of numbers`, `${field}.${key}`);
+    if (v.length > MAX_STAGES) throw new SolverError("bad-tableau", `${field}.${key}: has ${v.length} entries; the limit is ${MAX_STAGES} stages`, `${field}.${key}`);
     return v as number[];
   };
   const a = t.a;
-  if (!Array.isArray(a) || !a.every((row) => Array.isArray(row) && row.every((x) => typeof x === "number"))) {
-    throw new SolverError("bad-tableau", `${field}.a: must be an array of rows of numbers (strictly lower-triangular)`, `${field}.a`);
+  if (!Array.isArray(a) || a.length > MAX_STAGES || !a.every((row) => Array.isArray(row) && row.every((x) => typeof x === "number"))) {
+    throw new SolverError("bad-tableau", `${field}.a: must be an array of at most ${MAX_STAGES} rows of numbers (strictly lower-triangular)`, `${field}.a`);
   }
   const order = t.order === undefined ? 1 : t.order;
-  if (typeof order !== "number" || !Number.isInteger(order) || order < 1) throw new SolverError("bad-tableau", `${field}.order: must be a whole number ≥ 1`, `${field}.order`);
+  if (typeof order !== "number" || !Number.isInteger(order) || order < 1 || order > MAX_STAGES) throw new SolverError("bad-tableau", `${field}.order: must be a whole number from 1 to ${MAX_STAGES}`, `${field}.order`);
   const tab: ButcherTableau = {
     name: typeof t.name === "string" ? t.name : "custom-rk", order, reference: "user tableau",
     a: a as number[][], b: nums("b"), c: nums("c"),
   };
   checkTableau(tab, field);
-  const st = explicitRk(tab, ctx.model);
-  return { ...st, method: "custom-rk", label: `custom-rk (${tab.name})`, step: st.step, stats: st.stats };
+  return tab;
 }
 
-const entries = new Map<string, MethodEntry>();
+const CUSTOM_RK: StepperDefinition = {
+  name: "custom-rk", family: "explicit", order: 1,
+  description: `any explicit Runge–Kutta method given as "tableau": ${tableauSchemaHelp}`,
+  options: {
+    tableau: { type: "json", label: "tableau (JSON)", help: `the Butcher tableau as ${tableauSchemaHelp}`, parse: (v, field) => parseTableau(v, field) },
+  },
+  create(problem, o, ctx) {
+    const tab = o.tableau as ButcherTableau | undefined;
+    if (!tab) throw new SolverError("bad-tableau", `${ctx.field}.tableau: is required for method "custom-rk": ${tableauSchemaHelp}`, `${ctx.field}.tableau`);
+    return { ...explicitRkInstance(tab, problem, `custom-rk (${tab.name})`), order: tab.order };
+  },
+};
 
-export function registerMethod(e: MethodEntry): void {
+const entries = new Map<string, StepperDefinition>();
+
+export function registerMethod(e: StepperDefinition): void {
   entries.set(e.name, e);
 }
 
-registerMethod(explicitEntry(EXPLICIT_TABLEAUX[0], 2 * Math.SQRT2, "classical fourth-order Runge–Kutta, 4 tendency evaluations per step"));
-registerMethod(explicitEntry(EXPLICIT_TABLEAUX[1], Math.sqrt(3), "three-stage strong-stability-preserving Runge–Kutta, order 3"));
-registerMethod({
-  name: "custom-rk", family: "explicit", order: 1,
-  description: `any explicit Runge–Kutta method given as "tableau": ${tableauSchemaHelp}`,
-  options: ["tableau"], create: customRk,
-});
+registerMethod(explicitRkDefinition(EXPLICIT_TABLEAUX[0], "classical fourth-order Runge–Kutta, 4 tendency evaluations per step"));
+registerMethod(explicitRkDefinition(EXPLICIT_TABLEAUX[1], "three-stage strong-stability-preserving Runge–Kutta, order 3"));
+registerMethod(CUSTOM_RK);
+registerMethod(SPLIT_EXPLICIT_METHOD);
+for (const e of EXPONENTIAL_METHODS) registerMethod(e);
 
 export function methodNames(): string[] {
   return [...entries.keys()];
 }
 
-export function listMethods(): MethodEntry[] {
+export function listMethods(): StepperDefinition[] {
   return [...entries.values()];
 }
 
-export function getMethod(name: string, field = "stepper.method"): MethodEntry {
+export function getMethod(name: string, field = "stepper.method"): StepperDefinition {
   const e = entries.get(name);
   if (!e) throw new SolverError("bad-input", `${field}: unknown method "${name}"; known methods: ${methodNames().join(", ")}`, field);
   return e;
 }
 
-/** Build the stepper a spec asks for, rejecting options the method does not know. */
-export function createStepper(ctx: MethodContext): Stepper {
-  const e = getMethod(ctx.spec.method, `${ctx.field}.method`);
-  for (const key of Object.keys(ctx.spec)) {
-    if (key === "method" || key === "dt" || key === "label") continue;
-    if (!e.options.includes(key)) {
-      const known = e.options.length ? `; it takes ${e.options.join(", ")}` : "; it takes no options";
-      throw new SolverError("bad-input", `${ctx.field}.${key}: method "${e.name}" has no option "${key}"${known}`, `${ctx.field}.${key}`);
-    }
-  }
-  return e.create(ctx);
+/** RK4's imaginary-axis bound 2√2, from its tableau (the one place the Δt limits of the page and CLI come from). */
+export function rk4ImaginaryBound(): number {
+  return getMethod("rk4").imaginaryAxisBound!;
 }
 
-registerMethod(SPLIT_EXPLICIT_METHOD);
+export interface CreateStepperOptions {
+  /** Field prefix for messages (default "stepper"). */
+  field?: string;
+  /** A definition to use instead of the registry entry named by spec.method (user modules). */
+  definition?: StepperDefinition;
+  /** Where a user definition came from (file or URL), to locate its faults. */
+  origin?: string;
+}
 
-for (const e of EXPONENTIAL_METHODS) registerMethod(e);
+/** Build the stepper a spec asks for on a problem, rejecting options the method does not declare. */
+export function createStepper(problem: Problem, spec: Record<string, unknown>, o: CreateStepperOptions = {}): Stepper {
+  const field = o.field ?? "stepper";
+  if (!o.definition && typeof spec.module === "string") {
+    const m = moduleDefinition(spec.module, `${field}.module`);
+    return instantiate(m.definition, problem, spec, { field, origin: m.origin });
+  }
+  const def = o.definition ?? getMethod(String(spec.method), `${field}.method`);
+  return instantiate(def, problem, spec, { field, origin: o.origin });
+}

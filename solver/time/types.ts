@@ -1,15 +1,9 @@
-/** What every time stepper sees and exposes (numerics reference §5–6). */
-
-/** An ODE x' = F(x, t) on a flat state vector. */
-export interface OdeProblem {
-  readonly n: number;
-  /** out = F(x, t); must not allocate. */
-  tendency(out: Float64Array, x: Float64Array, t: number): void;
-}
+/** What the driver, the studies and the worker see of a running stepper. */
+import type { StepperDefinition, StepperInstance } from "./interface.js";
 
 export interface StepStats {
   steps: number;
-  /** Full tendency evaluations (or their equivalent). */
+  /** Full tendency evaluations (or their equivalent), as counted by the problem. */
   rhsEvaluations: number;
   /** Linear-operator applications, including those inside φ-actions and Jacobian-vector products. */
   matvecs: number;
@@ -17,22 +11,22 @@ export interface StepStats {
   innerProducts: number;
 }
 
+/** A stepper definition instantiated on a problem, with its work counted since creation. */
 export interface Stepper {
   /** Method name as written in scenario files, e.g. "rk4". */
   readonly method: string;
   /** A human label with the options, e.g. "etdrk4 (linear=modes:1, backend=krylov)". */
   readonly label: string;
-  /** Nominal order of accuracy. */
+  /** Order of accuracy of this configuration. */
   readonly order: number;
   readonly stats: StepStats;
   /** Advance x in place from t to t + dt. Allocates nothing. */
   step(x: Float64Array, t: number, dt: number): void;
   /** Optional note a user must see (e.g. "order reduced with a fixed linear part"). */
   readonly note?: string;
-}
-
-export function emptyStats(): StepStats {
-  return { steps: 0, rhsEvaluations: 0, matvecs: 0, innerProducts: 0 };
+  readonly definition: StepperDefinition;
+  /** What `create` returned (built-ins may carry extra read-only fields, e.g. the split-explicit sub-step count). */
+  readonly instance: StepperInstance;
 }
 
 /** y += a x (BLAS argument order). */
