@@ -5,7 +5,8 @@ import { IMEX_METHODS, createImex } from "../solver/time/imex";
 import { ARS232, ARS443, IMEX_TABLES, TRAPEZOIDAL, checkImexTable, type ImexTable } from "../solver/time/imexTables";
 import type { Problem } from "../solver/time/interface";
 import type { ShallowWaterModel } from "../solver/model/shallowWater";
-import { testProblem } from "./imexProblem";
+import { problemFor } from "../solver/model/problem";
+import { createStepper } from "../solver/time/registry";
 
 const threeLayers = [{ thickness: 300, density: 1025 }, { thickness: 700, density: 1026.4 }, { thickness: 3000, density: 1027.6 }];
 
@@ -93,7 +94,7 @@ describe("IMEX steppers on a small 3-layer periodic mesh", () => {
   it("measured orders against an RK4 reference: ARS(2,3,2) 2, ARS(4,4,3) 3, trapezoidal 2 (the papers' orders)", () => {
     const run = smallRun();
     const model = run.model, x0 = Float64Array.from(run.state);
-    const P = testProblem(model);
+    const P = problemFor(model);
     const dtRk4 = (2 * Math.SQRT2) / P.rest.spectralBound; // RK4 limit on the imaginary axis (common practice, no source)
     const T = 16 * dtRk4;
     const ref = Float64Array.from(x0);
@@ -119,7 +120,7 @@ describe("IMEX steppers on a small 3-layer periodic mesh", () => {
   it("ARS(2,3,2) and ARS(4,4,3) with every mode implicit stay stable at 100× the RK4 limit for 200 steps: energy bounded, layer volumes exact", () => {
     const run = smallRun();
     const model = run.model, x0 = Float64Array.from(run.state);
-    const P = testProblem(model);
+    const P = problemFor(model);
     const w = budgetWork(model);
     const energy = (x: Float64Array) => { const e = totalEnergy(model, x, w); return e.kinetic + e.potential; };
     const dt = 100 * (2 * Math.SQRT2) / P.rest.spectralBound;
@@ -141,7 +142,7 @@ describe("IMEX steppers on a small 3-layer periodic mesh", () => {
   });
 
   it("refuses a linear part without a shifted solve, or one that is re-formed, naming stepper.linear", () => {
-    const base = testProblem(smallRun().model);
+    const base = problemFor(smallRun().model);
     const part = base.linear("modes:1");
     const withPart = (linear: Problem["linear"]): Problem => ({
       n: base.n, layout: base.layout, newVector: base.newVector, tendency: base.tendency, counters: base.counters,
@@ -151,5 +152,26 @@ describe("IMEX steppers on a small 3-layer periodic mesh", () => {
     expect(() => createImex(ARS232, noSolve, { linear: "modes:1" }, "stepper")).toThrow(/^stepper\.linear: .*no shifted solve/);
     const reformed = withPart(() => ({ ...part, reformed: true }));
     expect(() => createImex(ARS232, reformed, { linear: "jacobian" }, "stepper")).toThrow(/^stepper\.linear: .*fixed linear part/);
+  });
+
+  it("are registered; options are validated by their declaration; solves and products are counted in matvec equivalents", () => {
+    const run = smallRun();
+    const problem = problemFor(run.model);
+    for (const name of ["imex-ars232", "imex-ars443", "imex-trapezoidal"]) {
+      expect(() => createStepper(problem, { method: name, dt: 600, linear: "modes:4" })).toThrow(/stepper\.linear/);
+      expect(() => createStepper(problem, { method: name, dt: 600, substeps: 3 })).toThrow(/substeps/);
+    }
+    const st = createStepper(problem, { method: "imex-ars443", dt: 600 });
+    expect(st.label).toBe("imex-ars443 (linear=modes:1)");
+    const x = Float64Array.from(run.state);
+    st.step(x, 0, 600);
+    st.step(x, 600, 600);
+    // ARS(4,4,3): 4 tendency evaluations, 4 solves and 5 products with A per step (the last stage's slow part is unused)
+    expect(st.stats.rhsEvaluations).toBe(8);
+    const solver = problem.restriction(1).shiftedSolver().stats;
+    expect(solver.solves).toBe(8);
+    // products: 5 per step by the engine, one lift per solve, plus the substitutions and the one factorization
+    const expected = 2 * 5 + 8 * (1 + solver.matvecsPerSolve) + solver.probeProducts + solver.matvecsPerFactorization;
+    expect(st.stats.matvecs).toBeCloseTo(expected, 9);
   });
 });
