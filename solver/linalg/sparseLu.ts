@@ -55,7 +55,7 @@ export function symmetricGraph(nNodes: number, pairs: (add: (a: number, b: numbe
  * split by the breadth-first level (from a pseudo-peripheral node) of smallest size near the middle; both
  * sides are ordered first, the separator last. Disconnected pieces are ordered one after the other.
  */
-export function nestedDissection(g: NodeGraph, leafSize = 48): Int32Array {
+export function nestedDissection(g: NodeGraph, leafSize = 16): Int32Array {
   const n = g.nNodes, off = g.offset, idx = g.index;
   const order = new Int32Array(n);
   let filled = 0;
@@ -117,22 +117,41 @@ export function nestedDissection(g: NodeGraph, leafSize = 48): Int32Array {
       return;
     }
     if (r.levels < 3) { emit(nodes); return; }
-    const size = new Int32Array(r.levels);
-    for (let q = 0; q < r.count; q++) size[depth[queue[q]]]++;
-    // smallest level whose nodes before it make up 30–70 % of the piece; the median level otherwise
+    // size[l]: nodes of level l; cut[l]: those with a neighbour in level l + 1 (the separator level l would need)
+    const size = new Int32Array(r.levels), cut = new Int32Array(r.levels);
+    const bfsMark = seen[start];
+    for (let q = 0; q < r.count; q++) {
+      const v = queue[q], d = depth[v];
+      size[d]++;
+      for (let p = off[v]; p < off[v + 1]; p++) {
+        const w = idx[p];
+        if (member[w] === id && seen[w] === bfsMark && depth[w] === d + 1) { cut[d]++; break; }
+      }
+    }
+    // the level with the smallest cut among those whose nodes before it make up 20–80 % of the piece; the median otherwise
     let sep = -1, before = 0, median = -1;
     for (let l = 0; l < r.levels; l++) {
       if (median < 0 && before + size[l] >= nodes.length / 2) median = l;
-      if (l > 0 && l < r.levels - 1 && before >= 0.3 * nodes.length && before <= 0.7 * nodes.length) {
-        if (sep < 0 || size[l] < size[sep]) sep = l;
+      if (l > 0 && l < r.levels - 1 && before >= 0.2 * nodes.length && before <= 0.8 * nodes.length) {
+        if (sep < 0 || cut[l] < cut[sep]) sep = l;
       }
       before += size[l];
     }
     if (sep < 0) sep = Math.min(Math.max(median, 1), r.levels - 2);
+    // only the nodes of level `sep` with a neighbour in the next level are needed to separate; the others join the near side
     const a: number[] = [], b: number[] = [], s: number[] = [];
     for (let q = 0; q < r.count; q++) {
       const v = queue[q], d = depth[v];
-      (d < sep ? a : d > sep ? b : s).push(v);
+      if (d < sep) a.push(v);
+      else if (d > sep) b.push(v);
+      else {
+        let touches = false;
+        for (let p = off[v]; p < off[v + 1] && !touches; p++) {
+          const w = idx[p];
+          if (member[w] === id && seen[w] === bfsMark && depth[w] === sep + 1) touches = true;
+        }
+        (touches ? s : a).push(v);
+      }
     }
     dissect(Int32Array.from(a));
     dissect(Int32Array.from(b));
@@ -392,4 +411,219 @@ export function distance2Colouring(g: NodeGraph): { colour: Int32Array; count: n
     if (c + 1 > count) count = c + 1;
   }
   return { colour, count };
+}
+
+/**
+ * Block factors A = (I + L)(D + U) on a node pattern whose entries are dense b×b blocks (row-major):
+ * L strictly lower by block columns, U strictly upper by block rows (same indices), D⁻¹ the inverses of the
+ * pivot blocks. The flops are those of the scalar factorization of the expanded pattern; the index work is
+ * b² times smaller.
+ */
+export interface BlockLu {
+  readonly nNodes: number;
+  readonly b: number;
+  readonly lColPtr: Int32Array;
+  readonly index: Int32Array;
+  readonly lower: Float64Array;
+  readonly upper: Float64Array;
+  readonly pivotInverse: Float64Array;
+}
+
+export interface BlockLuWork {
+  s: Int32Array; mark: Int32Array; stack: Int32Array; next: Int32Array;
+  xu: Float64Array; xl: Float64Array; tu: Float64Array; tl: Float64Array; dk: Float64Array; inv: Float64Array; piv: Int32Array;
+}
+export function blockLuWork(nNodes: number, b: number): BlockLuWork {
+  const bb = b * b;
+  return {
+    s: new Int32Array(nNodes), mark: new Int32Array(nNodes), stack: new Int32Array(nNodes), next: new Int32Array(nNodes),
+    xu: new Float64Array(nNodes * bb), xl: new Float64Array(nNodes * bb), tu: new Float64Array(bb), tl: new Float64Array(bb),
+    dk: new Float64Array(bb), inv: new Float64Array(bb), piv: new Int32Array(b),
+  };
+}
+
+/** Symbolic factorization of a block pattern: the node-level analysis, limits counted in scalar entries and flops. */
+export function symbolicBlockLu(pattern: BlockPattern, limits: LuLimits): SymbolicLu {
+  const b = pattern.nComp, bb = b * b;
+  const s = symbolicLu(
+    { n: pattern.order.length, colPtr: pattern.blockOffset, rowIdx: pattern.blockIndex },
+    { maxFill: limits.maxFill / bb, maxWork: limits.maxWork / (bb * b), field: limits.field },
+  );
+  return { ...s, nnzL: s.nnzL, factorMultiplyAdds: s.factorMultiplyAdds * bb * b };
+}
+
+/** out = inverse of the b×b block a (Gauss–Jordan with partial pivoting); a is destroyed. */
+function invertBlock(out: Float64Array, a: Float64Array, b: number, piv: Int32Array): void {
+  out.fill(0);
+  for (let i = 0; i < b; i++) out[i * b + i] = 1;
+  for (let k = 0; k < b; k++) {
+    let p = k, best = Math.abs(a[k * b + k]);
+    for (let i = k + 1; i < b; i++) { const v = Math.abs(a[i * b + k]); if (v > best) { best = v; p = i; } }
+    if (!(best > 0) || !Number.isFinite(best)) throw new SolverError("breakdown", "sparse LU: singular pivot block");
+    piv[k] = p;
+    if (p !== k) {
+      for (let j = 0; j < b; j++) {
+        let t = a[k * b + j]; a[k * b + j] = a[p * b + j]; a[p * b + j] = t;
+        t = out[k * b + j]; out[k * b + j] = out[p * b + j]; out[p * b + j] = t;
+      }
+    }
+    const d = 1 / a[k * b + k];
+    for (let j = 0; j < b; j++) { a[k * b + j] *= d; out[k * b + j] *= d; }
+    for (let i = 0; i < b; i++) {
+      if (i === k) continue;
+      const f = a[i * b + k];
+      if (f === 0) continue;
+      for (let j = 0; j < b; j++) { a[i * b + j] -= f * a[k * b + j]; out[i * b + j] -= f * out[k * b + j]; }
+    }
+  }
+}
+
+/**
+ * Up-looking block LU of the matrix whose block (Q, P) (row node Q, column node P) sits at
+ * values[slot·b² ...] (row-major) for slot = the position of Q in the sorted list of P (pattern.blockOffset).
+ */
+export function numericBlockLu(pattern: BlockPattern, sym: SymbolicLu, values: Float64Array, work?: BlockLuWork, into?: BlockLu): BlockLu {
+  const b = pattern.nComp, bb = b * b, nNodes = pattern.order.length;
+  const colPtr = pattern.blockOffset, rowIdx = pattern.blockIndex;
+  const { parent, lColPtr } = sym;
+  const ts = blockTransposeSlot(pattern);
+  const w = work ?? blockLuWork(nNodes, b);
+  const index = into?.index ?? new Int32Array(sym.nnzL);
+  const lower = into?.lower ?? new Float64Array(sym.nnzL * bb);
+  const upper = into?.upper ?? new Float64Array(sym.nnzL * bb);
+  const pivotInverse = into?.pivotInverse ?? new Float64Array(nNodes * bb);
+  if (b === 1) {
+    // scalar blocks: the scalar factorization on the same layout is faster than the block loops with b = 1
+    const f = numericLu(
+      { n: nNodes, colPtr, rowIdx, transposeSlot: ts }, sym, values,
+      { s: w.s, mark: w.mark, stack: w.stack, next: w.next, xu: w.xu, xl: w.xl },
+      { n: nNodes, lColPtr, index, lower, upper, pivot: pivotInverse, pivotRatio: 0 },
+    );
+    for (let k = 0; k < nNodes; k++) pivotInverse[k] = 1 / f.pivot[k];
+    return { nNodes, b, lColPtr, index, lower, upper, pivotInverse };
+  }
+  const { s, mark, stack, next, xu, xl, tu, tl, dk, inv, piv } = w;
+  mark.fill(-1);
+  next.set(lColPtr.subarray(0, nNodes));
+  xu.fill(0); xl.fill(0);
+  for (let k = 0; k < nNodes; k++) {
+    const top = ereach(colPtr, rowIdx, k, parent, s, mark, stack);
+    for (let p = colPtr[k]; p < colPtr[k + 1]; p++) {
+      const i = rowIdx[p];
+      if (i > k) continue;
+      const src = p * bb, srcT = ts[p] * bb, dst = i * bb;
+      for (let q = 0; q < bb; q++) { xu[dst + q] = values[src + q]; xl[dst + q] = values[srcT + q]; }
+    }
+    const kb = k * bb;
+    for (let q = 0; q < bb; q++) { dk[q] = xu[kb + q]; xu[kb + q] = 0; xl[kb + q] = 0; }
+    for (let t = top; t < nNodes; t++) {
+      const i = s[t], ib = i * bb;
+      // U(i,k) = XU_i; L(k,i) = XL_i D_i⁻¹
+      for (let q = 0; q < bb; q++) { tu[q] = xu[ib + q]; xu[ib + q] = 0; }
+      for (let r = 0; r < b; r++) {
+        for (let c = 0; c < b; c++) {
+          let acc = 0;
+          for (let m = 0; m < b; m++) acc += xl[ib + r * b + m] * pivotInverse[ib + m * b + c];
+          tl[r * b + c] = acc;
+        }
+      }
+      for (let q = 0; q < bb; q++) xl[ib + q] = 0;
+      const end = next[i];
+      for (let p = lColPtr[i]; p < end; p++) {
+        const jb = index[p] * bb, pb = p * bb;
+        // XU_j −= L(j,i) U(i,k);  XL_j −= L(k,i) U(i,j)
+        for (let r = 0; r < b; r++) {
+          for (let c = 0; c < b; c++) {
+            let au = 0, al = 0;
+            for (let m = 0; m < b; m++) {
+              au += lower[pb + r * b + m] * tu[m * b + c];
+              al += tl[r * b + m] * upper[pb + m * b + c];
+            }
+            xu[jb + r * b + c] -= au;
+            xl[jb + r * b + c] -= al;
+          }
+        }
+      }
+      for (let r = 0; r < b; r++) {
+        for (let c = 0; c < b; c++) {
+          let acc = 0;
+          for (let m = 0; m < b; m++) acc += tl[r * b + m] * tu[m * b + c];
+          dk[r * b + c] -= acc;
+        }
+      }
+      const p = next[i]++;
+      index[p] = k;
+      const pb = p * bb;
+      for (let q = 0; q < bb; q++) { lower[pb + q] = tl[q]; upper[pb + q] = tu[q]; }
+    }
+    invertBlock(inv, dk, b, piv);
+    for (let q = 0; q < bb; q++) {
+      if (!Number.isFinite(inv[q])) throw new SolverError("breakdown", `sparse LU: non-finite pivot block at ${k} of ${nNodes}`);
+      pivotInverse[kb + q] = inv[q];
+    }
+  }
+  return { nNodes, b, lColPtr, index, lower, upper, pivotInverse };
+}
+
+const transposeCache = new WeakMap<BlockPattern, Int32Array>();
+/** For the block at node slot p = (Q, P), the slot of (P, Q) (the node pattern is symmetric with sorted lists). */
+function blockTransposeSlot(pattern: BlockPattern): Int32Array {
+  let ts = transposeCache.get(pattern);
+  if (!ts) {
+    const off = pattern.blockOffset, idx = pattern.blockIndex, n = pattern.order.length;
+    ts = new Int32Array(idx.length);
+    const next = off.slice(0, n);
+    for (let j = 0; j < n; j++) for (let p = off[j]; p < off[j + 1]; p++) ts[p] = next[idx[p]]++;
+    transposeCache.set(pattern, ts);
+  }
+  return ts;
+}
+
+/** Solve A y = y in place with block factors; y in the new order (node position P, component c at P·b + c). */
+export function blockLuSolveInPlace(f: BlockLu, y: Float64Array, tmp: Float64Array): void {
+  const { nNodes, b, lColPtr: cp, index: ix, lower: lo, upper: up, pivotInverse: dinv } = f;
+  const bb = b * b;
+  if (b === 1) {
+    for (let j = 0; j < nNodes; j++) {
+      const yj = y[j];
+      if (yj === 0) continue;
+      const end = cp[j + 1];
+      for (let p = cp[j]; p < end; p++) y[ix[p]] -= lo[p] * yj;
+    }
+    for (let j = nNodes - 1; j >= 0; j--) {
+      let s = y[j];
+      const end = cp[j + 1];
+      for (let p = cp[j]; p < end; p++) s -= up[p] * y[ix[p]];
+      y[j] = s * dinv[j];
+    }
+    return;
+  }
+  for (let j = 0; j < nNodes; j++) {
+    const jb = j * b, end = cp[j + 1];
+    for (let p = cp[j]; p < end; p++) {
+      const ib = ix[p] * b, pb = p * bb;
+      for (let r = 0; r < b; r++) {
+        let acc = 0;
+        for (let m = 0; m < b; m++) acc += lo[pb + r * b + m] * y[jb + m];
+        y[ib + r] -= acc;
+      }
+    }
+  }
+  for (let j = nNodes - 1; j >= 0; j--) {
+    const jb = j * b, end = cp[j + 1];
+    for (let r = 0; r < b; r++) tmp[r] = y[jb + r];
+    for (let p = cp[j]; p < end; p++) {
+      const ib = ix[p] * b, pb = p * bb;
+      for (let r = 0; r < b; r++) {
+        let acc = 0;
+        for (let m = 0; m < b; m++) acc += up[pb + r * b + m] * y[ib + m];
+        tmp[r] -= acc;
+      }
+    }
+    for (let r = 0; r < b; r++) {
+      let acc = 0;
+      for (let m = 0; m < b; m++) acc += dinv[jb * b + r * b + m] * tmp[m];
+      y[jb + r] = acc;
+    }
+  }
 }

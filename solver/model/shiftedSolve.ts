@@ -15,8 +15,8 @@
 import { SolverError } from "../errors.js";
 import type { LinearOperator } from "../linalg/types.js";
 import {
-  blockPattern, distance2Colouring, luSolveInPlace, luWork, nestedDissection, numericLu, symbolicLu, symmetricGraph,
-  type BlockPattern, type NodeGraph, type NumericLu, type SymbolicLu,
+  blockLuSolveInPlace, blockLuWork, blockPattern, distance2Colouring, nestedDissection, numericBlockLu, symbolicBlockLu,
+  symmetricGraph, type BlockLu, type BlockPattern, type NodeGraph, type SymbolicLu,
 } from "../linalg/sparseLu.js";
 import type { Mesh } from "../mesh/types.js";
 
@@ -83,11 +83,12 @@ export function operatorShiftedSolver(
   const limits = { maxFill: opts.maxFill ?? 2e7, maxWork: opts.maxWork ?? 2e11, field };
 
   let pattern: BlockPattern | undefined, sym: SymbolicLu | undefined, kValues: Float64Array | undefined;
-  let work: ReturnType<typeof luWork> | undefined;
+  let work: ReturnType<typeof blockLuWork> | undefined;
   let aValues: Float64Array | undefined, diagSlot: Uint8Array | undefined;
   let probeProducts = 0;
-  const cache: { gamma: number; f: NumericLu }[] = [];
-  const perm = new Float64Array(n);
+  const cache: { gamma: number; f: BlockLu }[] = [];
+  const perm = new Float64Array(n), blockTmp = new Float64Array(nComp);
+  const bb = nComp * nComp;
   /** Original index of the unknown (node, component). */
   const orig = (node: number, c: number) => (node < nc ? c * nc + node : uOffset + c * ne + (node - nc));
 
@@ -95,12 +96,12 @@ export function operatorShiftedSolver(
     const g = waveOperatorGraph(mesh);
     const order = nestedDissection(g);
     const pat = blockPattern(g, order, nComp);
-    const s = symbolicLu(pat, limits); // refuses before any heavy work
-    // probe K column by column group
+    const s = symbolicBlockLu(pat, limits); // refuses before any heavy work
+    // probe K: one product per colour and component reads the columns of every node of that colour
     const { colour, count } = distance2Colouring(g);
     const classes: number[][] = Array.from({ length: count }, () => []);
     for (let v = 0; v < g.nNodes; v++) classes[colour[v]].push(v);
-    const kv = new Float64Array(pat.colPtr[pat.n]);
+    const kv = new Float64Array(pat.blockIndex.length * bb);
     const v = new Float64Array(n), y = new Float64Array(n);
     for (let c = 0; c < nComp; c++) {
       for (const cls of classes) {
@@ -110,27 +111,30 @@ export function operatorShiftedSolver(
         probeProducts++;
         for (const node of cls) {
           const P = pat.position[node];
-          let slot = pat.colPtr[P * nComp + c];
           for (let q = pat.blockOffset[P]; q < pat.blockOffset[P + 1]; q++) {
             const rowNode = pat.order[pat.blockIndex[q]];
-            for (let d = 0; d < nComp; d++) kv[slot++] = y[orig(rowNode, d)];
+            for (let d = 0; d < nComp; d++) kv[q * bb + d * nComp + c] = y[orig(rowNode, d)];
           }
         }
       }
     }
     const diag = new Uint8Array(kv.length);
-    for (let j = 0; j < pat.n; j++) for (let p = pat.colPtr[j]; p < pat.colPtr[j + 1]; p++) if (pat.rowIdx[p] === j) diag[p] = 1;
+    for (let P = 0; P < order.length; P++) {
+      for (let q = pat.blockOffset[P]; q < pat.blockOffset[P + 1]; q++) {
+        if (pat.blockIndex[q] === P) for (let d = 0; d < nComp; d++) diag[q * bb + d * nComp + d] = 1;
+      }
+    }
     pattern = pat; sym = s; kValues = kv; diagSlot = diag;
-    work = luWork(pat.n);
+    work = blockLuWork(order.length, nComp);
     aValues = new Float64Array(kv.length);
     stats.unknowns = pat.n;
-    stats.fill = s.nnzL;
+    stats.fill = s.nnzL * bb;
     stats.probeProducts = probeProducts;
-    stats.matvecsPerSolve = (2 * s.nnzL + n) / multiplyAddsPerMatvec;
+    stats.matvecsPerSolve = (2 * s.nnzL * bb + order.length * bb) / multiplyAddsPerMatvec;
     stats.matvecsPerFactorization = s.factorMultiplyAdds / multiplyAddsPerMatvec;
   }
 
-  function factorFor(gamma: number): NumericLu {
+  function factorFor(gamma: number): BlockLu {
     for (let i = 0; i < cache.length; i++) {
       if (cache[i].gamma === gamma) {
         const hit = cache[i];
@@ -142,7 +146,7 @@ export function operatorShiftedSolver(
     const kv = kValues!, av = aValues!, dg = diagSlot!;
     for (let p = 0; p < kv.length; p++) av[p] = dg[p] - gamma * kv[p];
     const reuse = cache.length >= cacheSize ? cache.shift()!.f : undefined;
-    const f = numericLu(pattern!, sym!, av, work!, reuse);
+    const f = numericBlockLu(pattern!, sym!, av, work!, reuse);
     cache.push({ gamma, f });
     stats.factorizations++;
     op.counters.matvecs += stats.matvecsPerFactorization;
@@ -164,7 +168,7 @@ export function operatorShiftedSolver(
         const node = order[P];
         for (let d = 0; d < nComp; d++) perm[P * nComp + d] = c[orig(node, d)];
       }
-      luSolveInPlace(f, perm);
+      blockLuSolveInPlace(f, perm, blockTmp);
       for (let P = 0; P < order.length; P++) {
         const node = order[P];
         for (let d = 0; d < nComp; d++) y[orig(node, d)] = perm[P * nComp + d];
