@@ -224,6 +224,9 @@ export function restLinearOperator(model: ShallowWaterModel, opts: RestOperatorO
       toInterface(out, tmpB);
       counters.matvecs++;
     },
+    shiftedSolve(y, c, gamma) {
+      op.shiftedSolver().solve(y, c, gamma);
+    },
   };
   const op: RestLinearOperator & { spectralBound: number } = {
     n, layout, counters, skew: true, spectralBound: Infinity,

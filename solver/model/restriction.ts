@@ -359,6 +359,9 @@ export function modalRestriction(model: ShallowWaterModel, nModes: number, rest:
       applyThickness(out, y);
       applyVelocity(out, y);
     },
+    shiftedSolve(y, c, gamma) {
+      shiftedSolver().solve(y, c, gamma);
+    },
   };
   const restrictTmp = new Float64Array(nModal);
   const restrictedOp: { -readonly [K in keyof LinearOperator]: LinearOperator[K] } = {

@@ -160,7 +160,7 @@ export function operatorShiftedSolver(
   return {
     stats,
     solve(y, c, gamma) {
-      if (!Number.isFinite(gamma) || gamma < 0) throw new SolverError("bad-input", `${field}: shift γ = ${gamma} must be finite and ≥ 0`, field);
+      if (!Number.isFinite(gamma)) throw new SolverError("bad-input", `${field}: shift γ = ${gamma} must be finite`, field);
       const f = factorFor(gamma);
       const pat = pattern!;
       const order = pat.order;
