@@ -529,7 +529,9 @@ export function numericBlockLu(pattern: BlockPattern, sym: SymbolicLu, values: F
       }
       for (let q = 0; q < bb; q++) xl[ib + q] = 0;
       const end = next[i];
-      for (let p = lColPtr[i]; p < end; p++) {
+      if (b === 3) {
+        update3(xu, xl, lower, upper, index, lColPtr[i], end, tu, tl);
+      } else for (let p = lColPtr[i]; p < end; p++) {
         const jb = index[p] * bb, pb = p * bb;
         // XU_j −= L(j,i) U(i,k);  XL_j −= L(k,i) U(i,j)
         for (let r = 0; r < b; r++) {
@@ -598,6 +600,7 @@ export function blockLuSolveInPlace(f: BlockLu, y: Float64Array, tmp: Float64Arr
     }
     return;
   }
+  if (b === 3) { solve3(f, y); return; }
   for (let j = 0; j < nNodes; j++) {
     const jb = j * b, end = cp[j + 1];
     for (let p = cp[j]; p < end; p++) {
@@ -625,5 +628,53 @@ export function blockLuSolveInPlace(f: BlockLu, y: Float64Array, tmp: Float64Arr
       for (let m = 0; m < b; m++) acc += dinv[jb * b + r * b + m] * tmp[m];
       y[jb + r] = acc;
     }
+  }
+}
+
+/** blockLuSolveInPlace for 3×3 blocks, written out (three layers or modes: the common case). */
+function solve3(f: BlockLu, y: Float64Array): void {
+  const { nNodes, lColPtr: cp, index: ix, lower: lo, upper: up, pivotInverse: di } = f;
+  for (let j = 0; j < nNodes; j++) {
+    const jb = 3 * j, y0 = y[jb], y1 = y[jb + 1], y2 = y[jb + 2];
+    if (y0 === 0 && y1 === 0 && y2 === 0) continue;
+    const end = cp[j + 1];
+    for (let p = cp[j]; p < end; p++) {
+      const ib = 3 * ix[p], pb = 9 * p;
+      y[ib] -= lo[pb] * y0 + lo[pb + 1] * y1 + lo[pb + 2] * y2;
+      y[ib + 1] -= lo[pb + 3] * y0 + lo[pb + 4] * y1 + lo[pb + 5] * y2;
+      y[ib + 2] -= lo[pb + 6] * y0 + lo[pb + 7] * y1 + lo[pb + 8] * y2;
+    }
+  }
+  for (let j = nNodes - 1; j >= 0; j--) {
+    const jb = 3 * j, end = cp[j + 1];
+    let t0 = y[jb], t1 = y[jb + 1], t2 = y[jb + 2];
+    for (let p = cp[j]; p < end; p++) {
+      const ib = 3 * ix[p], pb = 9 * p;
+      const x0 = y[ib], x1 = y[ib + 1], x2 = y[ib + 2];
+      t0 -= up[pb] * x0 + up[pb + 1] * x1 + up[pb + 2] * x2;
+      t1 -= up[pb + 3] * x0 + up[pb + 4] * x1 + up[pb + 5] * x2;
+      t2 -= up[pb + 6] * x0 + up[pb + 7] * x1 + up[pb + 8] * x2;
+    }
+    const db = 9 * j;
+    y[jb] = di[db] * t0 + di[db + 1] * t1 + di[db + 2] * t2;
+    y[jb + 1] = di[db + 3] * t0 + di[db + 4] * t1 + di[db + 5] * t2;
+    y[jb + 2] = di[db + 6] * t0 + di[db + 7] * t1 + di[db + 8] * t2;
+  }
+}
+
+/** The inner update of numericBlockLu for 3×3 blocks, written out: XU_j −= L(j,i)·TU, XL_j −= TL·U(i,j). */
+function update3(xu: Float64Array, xl: Float64Array, lower: Float64Array, upper: Float64Array, index: Int32Array, start: number, end: number, tu: Float64Array, tl: Float64Array): void {
+  const u0 = tu[0], u1 = tu[1], u2 = tu[2], u3 = tu[3], u4 = tu[4], u5 = tu[5], u6 = tu[6], u7 = tu[7], u8 = tu[8];
+  const l0 = tl[0], l1 = tl[1], l2 = tl[2], l3 = tl[3], l4 = tl[4], l5 = tl[5], l6 = tl[6], l7 = tl[7], l8 = tl[8];
+  for (let p = start; p < end; p++) {
+    const jb = 9 * index[p], pb = 9 * p;
+    const a0 = lower[pb], a1 = lower[pb + 1], a2 = lower[pb + 2], a3 = lower[pb + 3], a4 = lower[pb + 4], a5 = lower[pb + 5], a6 = lower[pb + 6], a7 = lower[pb + 7], a8 = lower[pb + 8];
+    xu[jb] -= a0 * u0 + a1 * u3 + a2 * u6; xu[jb + 1] -= a0 * u1 + a1 * u4 + a2 * u7; xu[jb + 2] -= a0 * u2 + a1 * u5 + a2 * u8;
+    xu[jb + 3] -= a3 * u0 + a4 * u3 + a5 * u6; xu[jb + 4] -= a3 * u1 + a4 * u4 + a5 * u7; xu[jb + 5] -= a3 * u2 + a4 * u5 + a5 * u8;
+    xu[jb + 6] -= a6 * u0 + a7 * u3 + a8 * u6; xu[jb + 7] -= a6 * u1 + a7 * u4 + a8 * u7; xu[jb + 8] -= a6 * u2 + a7 * u5 + a8 * u8;
+    const b0 = upper[pb], b1 = upper[pb + 1], b2 = upper[pb + 2], b3 = upper[pb + 3], b4 = upper[pb + 4], b5 = upper[pb + 5], b6 = upper[pb + 6], b7 = upper[pb + 7], b8 = upper[pb + 8];
+    xl[jb] -= l0 * b0 + l1 * b3 + l2 * b6; xl[jb + 1] -= l0 * b1 + l1 * b4 + l2 * b7; xl[jb + 2] -= l0 * b2 + l1 * b5 + l2 * b8;
+    xl[jb + 3] -= l3 * b0 + l4 * b3 + l5 * b6; xl[jb + 4] -= l3 * b1 + l4 * b4 + l5 * b7; xl[jb + 5] -= l3 * b2 + l4 * b5 + l5 * b8;
+    xl[jb + 6] -= l6 * b0 + l7 * b3 + l8 * b6; xl[jb + 7] -= l6 * b1 + l7 * b4 + l8 * b7; xl[jb + 8] -= l6 * b2 + l7 * b5 + l8 * b8;
   }
 }
