@@ -42,7 +42,7 @@ export interface ShiftedSolverOptions {
   field?: string;
   /** Largest nnz(L) (default 2e7, about 400 MB for L and U). */
   maxFill?: number;
-  /** Largest multiply-adds of one factorization (default 2e11). */
+  /** Largest multiply-adds of one factorization (default 5e10, a minute or two). */
   maxWork?: number;
   /** Factorizations kept for distinct γ (default 4; the least recently used is dropped). */
   cacheSize?: number;
@@ -80,7 +80,7 @@ export function operatorShiftedSolver(
   const n = nComp * (nc + ne);
   if (op.n !== n) throw new SolverError("bad-input", `${field}: operator length ${op.n} does not match ${nComp} components on the mesh (${n})`, field);
   const cacheSize = Math.max(1, opts.cacheSize ?? 4);
-  const limits = { maxFill: opts.maxFill ?? 2e7, maxWork: opts.maxWork ?? 2e11, field };
+  const limits = { maxFill: opts.maxFill ?? 2e7, maxWork: opts.maxWork ?? 5e10, field };
 
   let pattern: BlockPattern | undefined, sym: SymbolicLu | undefined, kValues: Float64Array | undefined;
   let work: ReturnType<typeof blockLuWork> | undefined;
