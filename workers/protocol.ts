@@ -3,6 +3,7 @@
  * The app imports these types (and `import type` of solver types) but never the solver itself.
  */
 import type { Budget, CourantNumbers } from "../solver/diagnostics/budget.js";
+import type { EnergyBudgetSummary } from "../solver/diagnostics/energyBudget.js";
 import type { CellOutlines, FieldInfo, FieldKind } from "../solver/diagnostics/fields.js";
 import type { RunDescription, UnstableReport } from "../solver/driver/run.js";
 import type { Scenario, StepperSpec } from "../solver/scenario/schema.js";
@@ -75,8 +76,16 @@ export interface ChunkReport {
   /** Steps done in this chunk and the worker's wall time for them [ms]. */
   chunkSteps: number;
   chunkMs: number;
+  /** Part of chunkMs spent on the energy budget (one extra tendency evaluation per step) [ms]. */
+  budgetMs: number;
   unstable: UnstableInfo | null;
   snapshot: Snapshot;
+  /**
+   * Energy budget since the scenario was loaded or reset (change, wind work, drag and viscous losses, residual;
+   * m⁵ s⁻²), and the energy drift or why it is not defined (null with a reason for forced or damped runs).
+   */
+  energyBudget: EnergyBudgetSummary | null;
+  energyDrift: { value: number | null; reason?: string };
 }
 
 export interface StepperInfo {

@@ -6,6 +6,7 @@
 import { expose, transfer } from "comlink";
 import { fieldWork, cellOutlines, computeField, FIELDS, type FieldWork } from "../solver/diagnostics/fields.js";
 import { createRun, type Run } from "../solver/driver/run.js";
+import { driftUndefinedReason, type EnergyBudgetSummary } from "../solver/diagnostics/energyBudget.js";
 import { parseScenarioText, type StepperSpec } from "../solver/scenario/schema.js";
 import { BUILTIN_SCENARIOS } from "../solver/scenario/builtins.js";
 import { listMethods } from "../solver/time/registry.js";
@@ -49,15 +50,25 @@ function snapshot(r: Run, view: MapView, recycled?: Float32Array): Snapshot {
 
 function report(r: Run, view: MapView, chunkSteps: number, chunkMs: number, recycled?: Float32Array): ChunkReport {
   const budget = r.budget();
+  const eb = r.energyBudget ? r.energyBudget.summary(r.state) : null;
   const st = r.stepper.stats;
   const u = r.unstable;
   return {
     step: r.steps, time: r.time, budget, courant: r.courant(budget),
     counters: { steps: st.steps, rhsEvaluations: st.rhsEvaluations, matvecs: st.matvecs, innerProducts: st.innerProducts },
-    chunkSteps, chunkMs,
+    chunkSteps, chunkMs, budgetMs: 0,
     unstable: u ? { ...u, cell: u.field === "thickness" ? u.index : r.mesh.edgeCells[2 * u.index] } : null,
     snapshot: snapshot(r, view, recycled),
+    energyBudget: eb,
+    energyDrift: energyDrift(r, eb, budget.energy),
   };
+}
+
+/** (E − E0)/E0 since the start when that means something, else null with the reason. */
+function energyDrift(r: Run, eb: EnergyBudgetSummary | null, energy: number): ChunkReport["energyDrift"] {
+  const e0 = eb ? eb.initialEnergy : r.budget(r.built.initial).energy;
+  const reason = driftUndefinedReason(r.model, e0);
+  return reason ? { value: null, reason } : { value: (energy - e0) / e0 };
 }
 
 const moved = (rep: ChunkReport) => transfer(rep, [rep.snapshot.values.buffer]);
@@ -77,6 +88,8 @@ function methods(nLayers = run?.model.params.nLayers ?? 1): MethodSummary[] {
 function start(raw: unknown, stepper: StepperSpec | undefined, view: MapView): InitResult {
   const next = createRun(raw, stepper); // throws before the current run is touched
   run = next;
+  const tracker = next.trackEnergyBudget();
+  if (tracker) tracker.clock = () => performance.now() / 1000;
   work = fieldWork(next.model);
   const outlines = cellOutlines(next.mesh);
   const result: InitResult = {
@@ -99,8 +112,11 @@ const api = {
     const r = current();
     const t0 = performance.now();
     const s0 = r.steps;
+    const b0 = r.energyBudget?.seconds ?? 0;
     r.advance(Math.max(0, Math.floor(n)));
-    return moved(report(r, view, r.steps - s0, performance.now() - t0, recycled));
+    const rep = report(r, view, r.steps - s0, performance.now() - t0, recycled);
+    rep.budgetMs = 1000 * ((r.energyBudget?.seconds ?? 0) - b0);
+    return moved(rep);
   }),
   /** The map field of the current state, e.g. after the user picks another field while paused. */
   snapshot: guarded((view: MapView, recycled?: Float32Array): Snapshot => {

@@ -24,9 +24,10 @@ const str = (v: number | undefined, scale = 1) => (v === undefined ? "" : String
 function bounds(mesh: Mesh): { w: number; h: number } {
   if (mesh.type === "periodic-hex") return { w: 0, h: 0 };
   if (mesh.shape !== "polygon") return { w: mesh.width ?? 0, h: mesh.height ?? 0 };
+  // a polygon basin's width and height, when given, stretch its outline (the solver does the stretching)
   const xs = (mesh.vertices ?? []).map((v) => v[0]);
   const ys = (mesh.vertices ?? []).map((v) => v[1]);
-  return { w: Math.max(...xs) - Math.min(...xs), h: Math.max(...ys) - Math.min(...ys) };
+  return { w: mesh.width ?? Math.max(...xs) - Math.min(...xs), h: mesh.height ?? Math.max(...ys) - Math.min(...ys) };
 }
 
 function draftOf(s: Scenario): Draft {
@@ -67,16 +68,6 @@ function compile(base: Scenario, d: Draft): Record<string, unknown> {
   if (m.type === "periodic-hex") {
     m.cellsX = num(v["mesh.cellsX"]);
     m.cellsY = num(v["mesh.cellsY"]);
-  } else if (m.shape === "polygon") {
-    const b = bounds(base.mesh);
-    const w = num(v["mesh.width"], 1000);
-    const h = num(v["mesh.height"], 1000);
-    if (typeof w !== "number" || typeof h !== "number" || !(w > 0) || !(h > 0)) {
-      m.vertices = "width and height must be positive numbers of km"; // the solver reports mesh.vertices
-    } else {
-      const vertices = (base.mesh as { vertices?: [number, number][] }).vertices ?? [];
-      m.vertices = vertices.map(([x, y]) => [(x * w) / b.w, (y * h) / b.h]);
-    }
   } else {
     m.width = num(v["mesh.width"], 1000);
     m.height = num(v["mesh.height"], 1000);
@@ -115,7 +106,7 @@ export const ScenarioPanel = memo(function ScenarioPanel(p: ScenarioPanelProps) 
     <label className="field" key={path}>
       <span>{label} <small>[{unit}]</small></span>
       <input data-testid={`input-${path}`} value={draft.values[path] ?? ""} onChange={set(path)} inputMode="decimal" />
-      <FieldError error={p.error} path={path === "mesh.width" || path === "mesh.height" ? (p.scenario.mesh.type === "basin-hex" && p.scenario.mesh.shape === "polygon" ? "mesh.vertices" : path) : path} />
+      <FieldError error={p.error} path={path} />
     </label>
   );
   const m = p.scenario.mesh;

@@ -4,27 +4,37 @@ import { SolverError } from "../errors.js";
 export interface ParsedArgs {
   positional: string[];
   options: Map<string, string | true>;
+  /** Every value of a repeatable option (e.g. `--option key=value --option …`). */
+  multi: Map<string, string[]>;
 }
+
+/** Options that may be given more than once. */
+export const REPEATABLE = ["option"];
 
 export function parseArgs(argv: readonly string[], flags: readonly string[] = []): ParsedArgs {
   const positional: string[] = [];
   const options = new Map<string, string | true>();
+  const multi = new Map<string, string[]>();
+  const put = (key: string, v: string) => {
+    options.set(key, v);
+    if (REPEATABLE.includes(key)) multi.set(key, [...(multi.get(key) ?? []), v]);
+  };
   for (let i = 0; i < argv.length; i++) {
     const a = argv[i];
     if (a.startsWith("--")) {
       const eq = a.indexOf("=");
       const key = eq > 0 ? a.slice(2, eq) : a.slice(2);
-      if (eq > 0) options.set(key, a.slice(eq + 1));
+      if (eq > 0) put(key, a.slice(eq + 1));
       else if (flags.includes(key)) options.set(key, true);
       else {
         const v = argv[i + 1];
         if (v === undefined || (v.startsWith("--") && v.length > 2)) throw new SolverError("bad-input", `--${key}: needs a value`, `--${key}`);
-        options.set(key, v);
+        put(key, v);
         i++;
       }
     } else positional.push(a);
   }
-  return { positional, options };
+  return { positional, options, multi };
 }
 
 export function rejectUnknown(args: ParsedArgs, known: readonly string[], command: string): void {

@@ -1,17 +1,20 @@
 import type { ParsedArgs } from "./args.js";
+import type { CliContext } from "./context.js";
 import { MODES_USAGE, modesCommand } from "./modesCommand.js";
 import { RUN_USAGE, runCommand } from "./runCommand.js";
 import { SCENARIOS_USAGE, scenariosCommand } from "./scenariosCommand.js";
 import { STABILITY_USAGE, stabilityCommand } from "./stabilityCommand.js";
 import { SWEEP_USAGE, sweepCommand } from "./sweepCommand.js";
 import { MERGE_USAGE, mergeCommand } from "./mergeCommand.js";
+import { TEMPLATE_USAGE, templateCommand } from "./templateCommand.js";
+import { ASSESS_USAGE, assessCommand } from "./assessCommand.js";
 
 export interface Command {
   readonly usage: string;
   readonly summary: string;
   /** Flags that take no value. */
   readonly flags?: readonly string[];
-  run(args: ParsedArgs, out: (s: string) => void, err: (s: string) => void): number | Promise<number>;
+  run(args: ParsedArgs, out: (s: string) => void, err: (s: string) => void, ctx: CliContext): number | Promise<number>;
 }
 
 /** Every CLI command; a new command is one file plus one line here. */
@@ -21,5 +24,7 @@ export const COMMANDS: Record<string, Command> = {
   scenarios: { usage: SCENARIOS_USAGE, summary: "list the built-in scenarios", run: scenariosCommand },
   stability: { usage: STABILITY_USAGE, summary: "largest stable time step of each stepper (bracket by doubling, then bisect)", run: stabilityCommand },
   sweep: { usage: SWEEP_USAGE, summary: "convergence and work-precision sweep against a cached fine reference run", flags: ["reference-only", "no-cache"], run: sweepCommand },
+  assess: { usage: ASSESS_USAGE, summary: "report card of one stepper: observed order, largest stable Δt, conservation and cost against RK4", run: assessCommand },
+  template: { usage: TEMPLATE_USAGE, summary: "write a commented starter stepper module that `run --stepper-module` accepts", flags: ["force"], run: templateCommand },
   merge: { usage: MERGE_USAGE, summary: "join the partial results of a sharded stability or sweep run", run: mergeCommand },
 };

@@ -1,41 +1,72 @@
-import { readFileSync, writeFileSync, mkdirSync } from "node:fs";
-import { dirname } from "node:path";
+import { closeSync, fsyncSync, mkdirSync, openSync, readFileSync, renameSync, rmSync, writeFileSync } from "node:fs";
+import { randomBytes } from "node:crypto";
+import { basename, dirname, join } from "node:path";
 import { SolverError } from "../errors.js";
 import { builtinScenario, BUILTIN_SCENARIOS } from "../scenario/builtins.js";
+import { resolvePathsInFile, userPath } from "./paths.js";
 
 /** A scenario argument: a built-in name or a path to a JSON file. Returns the raw (unvalidated) object. */
 export function loadScenarioArg(arg: string | undefined): unknown {
   if (!arg) throw new SolverError("bad-input", `SCENARIO: missing; give a file or one of: ${BUILTIN_SCENARIOS.map((b) => b.name).join(", ")}`, "SCENARIO");
   const b = builtinScenario(arg);
   if (b) return b;
+  const path = userPath(arg);
   let text: string;
   try {
-    text = readFileSync(arg, "utf8");
+    text = readFileSync(path, "utf8");
   } catch {
-    throw new SolverError("bad-input", `SCENARIO: "${arg}" is neither a built-in scenario (${BUILTIN_SCENARIOS.map((s) => s.name).join(", ")}) nor a readable file`, "SCENARIO");
+    const where = path === arg ? "" : ` (looked for ${path})`;
+    throw new SolverError("bad-input", `SCENARIO: "${arg}" is neither a built-in scenario (${BUILTIN_SCENARIOS.map((s) => s.name).join(", ")}) nor a readable file${where}`, "SCENARIO");
   }
   try {
-    return JSON.parse(text);
+    return resolvePathsInFile(JSON.parse(text), path);
   } catch (e) {
     throw new SolverError("bad-input", `SCENARIO: ${arg} is not valid JSON (${(e as Error).message})`, "SCENARIO");
   }
 }
 
-export function writeJson(path: string, value: unknown): void {
+/**
+ * Every file the tool writes goes through here: the content is written to a temporary name in the same directory
+ * (hidden, ending in .tmp, so globs such as parts/*.json never see it), flushed to disk, and renamed over the
+ * target. A rename within one directory is atomic (POSIX rename(2)), so a reader — a later `merge`, another
+ * shard job sharing a cache — sees the old file or the new one, never a truncated one; an interrupted or
+ * failed write leaves at most the temporary file, which is removed when the failure is seen.
+ */
+export function writeFileAtomic(path: string, data: string | Uint8Array): void {
+  const dir = dirname(path);
+  mkdirSync(dir, { recursive: true });
+  const tmp = join(dir, `.${basename(path)}.${process.pid}-${randomBytes(4).toString("hex")}.tmp`);
   try {
-    mkdirSync(dirname(path), { recursive: true });
-    writeFileSync(path, JSON.stringify(value, (_k, v) => (typeof v === "number" && !Number.isFinite(v) ? null : v), 2) + "\n");
+    const fd = openSync(tmp, "w");
+    try {
+      writeFileSync(fd, data);
+      fsyncSync(fd);
+    } finally {
+      closeSync(fd);
+    }
+    renameSync(tmp, path);
   } catch (e) {
-    throw new SolverError("bad-input", `--json: cannot write ${path} (${(e as Error).message})`, "--json");
+    rmSync(tmp, { force: true });
+    throw e;
   }
 }
 
+/** JSON text as the tool writes it: two-space indents, non-finite numbers as null. */
+export function jsonText(value: unknown): string {
+  return JSON.stringify(value, (_k, v) => (typeof v === "number" && !Number.isFinite(v) ? null : v), 2) + "\n";
+}
+
+/** Write a result file named on the command line (resolved from where the user started). */
+export function writeJson(path: string, value: unknown, option = "--json"): void {
+  writeText(path, jsonText(value), option);
+}
+
 export function writeText(path: string, text: string, option: string): void {
+  const target = userPath(path);
   try {
-    mkdirSync(dirname(path), { recursive: true });
-    writeFileSync(path, text);
+    writeFileAtomic(target, text);
   } catch (e) {
-    throw new SolverError("bad-input", `${option}: cannot write ${path} (${(e as Error).message})`, option);
+    throw new SolverError("bad-input", `${option}: cannot write ${target} (${(e as Error).message})`, option);
   }
 }
 

@@ -4,6 +4,7 @@ import { mergeStabilityParts, type StabilityPart } from "../studies/stability.js
 import { mergeSweepParts, type SweepPart } from "../studies/sweep.js";
 import { rejectUnknown, stringOption, type ParsedArgs } from "./args.js";
 import { writeJson, writeText } from "./io.js";
+import { userPath } from "./paths.js";
 import { printStability, stabilityJson } from "./stabilityCommand.js";
 import { printSweep, sweepCsv } from "./sweepCommand.js";
 
@@ -16,7 +17,7 @@ export function mergeCommand(args: ParsedArgs, out: (s: string) => void): number
   if (!args.positional.length) throw new SolverError("bad-input", "PARTS: give the partial result files written with --shard i/n", "PARTS");
   const parts = args.positional.map((path) => {
     try {
-      return JSON.parse(readFileSync(path, "utf8")) as { kind?: string };
+      return JSON.parse(readFileSync(userPath(path), "utf8")) as { kind?: string };
     } catch (e) {
       throw new SolverError("bad-input", `PARTS: cannot read ${path} as JSON (${(e as Error).message})`, "PARTS");
     }

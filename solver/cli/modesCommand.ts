@@ -1,14 +1,15 @@
 import { Run } from "../driver/run.js";
+import { LIMIT_OPTIONS, limitsFromArgs } from "./limitArgs.js";
 import { buildScenario } from "../scenario/build.js";
 import { parseScenario } from "../scenario/schema.js";
 import { rejectUnknown, stringOption, type ParsedArgs } from "./args.js";
 import { fmt, loadScenarioArg, table, writeJson } from "./io.js";
 
-export const MODES_USAGE = "modes SCENARIO [--json FILE]";
+export const MODES_USAGE = `modes SCENARIO [--max-cells N] [--max-memory BYTES] [--json FILE]`;
 
 export function modesCommand(args: ParsedArgs, out: (s: string) => void): number {
-  rejectUnknown(args, ["json"], "modes");
-  const scenario = parseScenario(loadScenarioArg(args.positional[0]));
+  rejectUnknown(args, ["json", ...LIMIT_OPTIONS], "modes");
+  const scenario = parseScenario(loadScenarioArg(args.positional[0]), "", { limits: limitsFromArgs(args), runLength: false });
   const run = new Run(buildScenario(scenario));
   const d = run.describe();
   out(`Vertical modes of ${scenario.name} (${d.nLayers} layers, mesh spacing ${fmt(d.spacing / 1000, "km")}):`);

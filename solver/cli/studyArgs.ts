@@ -1,12 +1,14 @@
-import { mkdirSync, readFileSync, renameSync, writeFileSync } from "node:fs";
-import { join } from "node:path";
+import { readFileSync } from "node:fs";
+import { dirname } from "node:path";
+import { loadedModule } from "./modules.js";
 import { SolverError } from "../errors.js";
 import type { Scenario } from "../scenario/schema.js";
-import { referenceCache, type ReferenceCache, type ReferenceRecord } from "../studies/reference.js";
 import type { StudyProgress } from "../studies/common.js";
 import type { StepperConfig } from "../studies/stability.js";
 import { stringOption, type ParsedArgs } from "./args.js";
+import { terminal } from "./context.js";
 import { fmt } from "./io.js";
+import { resolvePathsInFile, userPath } from "./paths.js";
 
 /** Split at commas that are not inside parentheses. */
 function splitTop(text: string, field: string): string[] {
@@ -53,11 +55,15 @@ export function parseMethodList(text: string, field: string): StepperConfig[] {
   });
 }
 
-/** `--steppers FILE`: a JSON array of stepper objects as in a scenario file (a `dt` there is ignored). */
-export function readSteppersFile(path: string): StepperConfig[] {
+/**
+ * `--steppers FILE`: a JSON array of stepper objects as in a scenario file (a `dt` there is ignored). FILE is
+ * taken from where the user started; a relative `module` path inside it from FILE's own directory.
+ */
+export function readSteppersFile(arg: string): StepperConfig[] {
   let raw: unknown;
+  const path = userPath(arg);
   try {
-    raw = JSON.parse(readFileSync(path, "utf8"));
+    raw = resolvePathsInFile(JSON.parse(readFileSync(path, "utf8")), path);
   } catch (e) {
     throw new SolverError("bad-input", `--steppers: cannot read ${path} as JSON (${(e as Error).message})`, "--steppers");
   }
@@ -65,7 +71,12 @@ export function readSteppersFile(path: string): StepperConfig[] {
   return raw.map((s, i) => {
     if (!s || typeof s !== "object" || Array.isArray(s)) throw new SolverError("bad-input", `--steppers[${i}]: must be an object like { "method": "rk4" }`, `--steppers[${i}]`);
     const o = { ...(s as Record<string, unknown>) };
-    if (typeof o.method !== "string" || !o.method) throw new SolverError("bad-input", `--steppers[${i}].method: is required (a method name)`, `--steppers[${i}].method`);
+    if (typeof o.module === "string") {
+      const { key, definition } = loadedModule(o.module, `--steppers[${i}].module`, dirname(path));
+      o.module = key;
+      o.method = definition.name;
+    }
+    if (typeof o.method !== "string" || !o.method) throw new SolverError("bad-input", `--steppers[${i}].method: is required (a method name, or "module": a stepper module file)`, `--steppers[${i}].method`);
     if (o.label !== undefined && typeof o.label !== "string") throw new SolverError("bad-input", `--steppers[${i}].label: must be a string`, `--steppers[${i}].label`);
     delete o.dt;
     return o as StepperConfig;
@@ -102,7 +113,7 @@ export function numberList(args: ParsedArgs, key: string): number[] | undefined 
  * (every 10% of the work or every minute).
  */
 export function progressReporter(err: (s: string) => void, clock: () => number, what: string): (p: StudyProgress) => void {
-  const tty = process.stderr.isTTY === true;
+  const tty = terminal.stderrIsTTY;
   const t0 = clock();
   let lastLine = t0;
   let lastTenth = 0;
@@ -118,8 +129,8 @@ export function progressReporter(err: (s: string) => void, clock: () => number, 
       lastDraw = now;
       const width = 24;
       const full = Math.round(p.fraction * width);
-      process.stderr.write(`\r[${"#".repeat(full)}${".".repeat(width - full)}] ${text}`.slice(0, (process.stderr.columns ?? 120) - 1).padEnd(Math.min(process.stderr.columns ?? 120, 160) - 1));
-      if (p.fraction >= 1) process.stderr.write("\n");
+      terminal.writeErr(`\r[${"#".repeat(full)}${".".repeat(width - full)}] ${text}`.slice(0, terminal.columns - 1).padEnd(Math.min(terminal.columns, 160) - 1));
+      if (p.fraction >= 1) terminal.writeErr("\n");
       return;
     }
     const tenth = Math.floor(p.fraction * 10);
@@ -129,41 +140,4 @@ export function progressReporter(err: (s: string) => void, clock: () => number, 
       err(text);
     }
   };
-}
-
-/** On-disk reference cache (under STEPWELL_CACHE_DIR or .stepwell-cache/) in front of the engine's memory cache. */
-export class DiskReferenceCache implements ReferenceCache {
-  constructor(readonly dir: string = process.env.STEPWELL_CACHE_DIR || ".stepwell-cache", private readonly memory: ReferenceCache = referenceCache) {}
-
-  private file(key: string): string { return join(this.dir, `reference-${key}.json`); }
-
-  get(key: string): ReferenceRecord | undefined {
-    const m = this.memory.get(key);
-    if (m) return m;
-    try {
-      const j = JSON.parse(readFileSync(this.file(key), "utf8")) as Omit<ReferenceRecord, "state"> & { state: string };
-      if (j.key !== key) return undefined;
-      const buf = Buffer.from(j.state, "base64");
-      const state = new Float64Array(buf.byteLength / 8);
-      new Uint8Array(state.buffer).set(buf);
-      const rec: ReferenceRecord = { ...j, state };
-      this.memory.set(key, rec);
-      return rec;
-    } catch {
-      return undefined;
-    }
-  }
-
-  set(key: string, record: ReferenceRecord): void {
-    this.memory.set(key, record);
-    try {
-      mkdirSync(this.dir, { recursive: true });
-      const tmp = `${this.file(key)}.${process.pid}.tmp`;
-      const state = Buffer.from(record.state.buffer, record.state.byteOffset, record.state.byteLength).toString("base64");
-      writeFileSync(tmp, JSON.stringify({ ...record, state }));
-      renameSync(tmp, this.file(key)); // atomic, so parallel shards never read half a file
-    } catch {
-      // a cache that cannot be written only costs time
-    }
-  }
 }

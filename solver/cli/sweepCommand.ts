@@ -1,35 +1,44 @@
 import { SolverError } from "../errors.js";
+import { checkListLength } from "../scenario/limits.js";
+import { LIMIT_OPTIONS, LIMIT_USAGE, limitsFromArgs } from "./limitArgs.js";
 import { buildScenario } from "../scenario/build.js";
 import { parseScenario } from "../scenario/schema.js";
 import type { ErrorComponent } from "../studies/metrics.js";
 import { referenceRun, type ReferenceCache } from "../studies/reference.js";
 import { parseShard } from "../studies/shard.js";
-import { planSweep, runSweep, type SweepDefinition, type SweepResult, type SweepRow } from "../studies/sweep.js";
-import { StudyTracker } from "../studies/common.js";
+import { planSweep, runSweep, type InterruptedSweep, type SweepDefinition, type SweepResult, type SweepRow } from "../studies/sweep.js";
+import { isCancellation, StudyInterrupted, StudyTracker } from "../studies/common.js";
 import { referenceCache } from "../studies/reference.js";
 import { numberOption, rejectUnknown, stringOption, type ParsedArgs } from "./args.js";
+import { NEVER_STOP, STOP_EXIT_CODES, type CliContext } from "./context.js";
 import { fmt, loadScenarioArg, table, writeJson, writeText } from "./io.js";
-import { DiskReferenceCache, numberList, parseMethodList, progressReporter, steppersFromArgs } from "./studyArgs.js";
+import { cacheDirectory, DiskReferenceCache } from "./referenceStore.js";
+import { solverIdentity } from "./solverIdentity.js";
+import { numberList, parseMethodList, progressReporter, steppersFromArgs } from "./studyArgs.js";
 
 export const SWEEP_USAGE =
   "sweep SCENARIO (--methods LIST | --steppers FILE) (--dts d1,d2,… | --dt-factors f1,f2,…) [--reference-dt S] [--reference-method M] " +
-  "[--duration S] [--error ssh|thickness|velocity] [--tolerance E] [--matvec-weight W] [--json FILE] [--csv FILE] [--shard i/n] [--reference-only] [--no-cache]";
+  "[--duration S] [--error ssh|thickness|velocity] [--tolerance E] [--matvec-weight W] [--json FILE] [--csv FILE] [--shard i/n] [--reference-only] [--no-cache] " +
+  LIMIT_USAGE;
 
 const CSV_HEADER = ["label", "method", "dt", "dtRatioToRk4", "status", "errorSsh", "errorThickness", "errorVelocity", "massDrift", "energyDrift",
-  "wallSeconds", "rhsEvaluations", "matvecs", "cost", "atReferenceFloor"];
+  "energyResidual", "wallSeconds", "rhsEvaluations", "matvecs", "cost", "atReferenceFloor"];
 
 export function sweepCsv(rows: SweepRow[]): string {
   const q = (s: string) => (/[",\n]/.test(s) ? `"${s.replace(/"/g, '""')}"` : s);
   const n = (v: number | null) => (v === null || !Number.isFinite(v) ? "" : String(v));
   return [CSV_HEADER.join(","), ...rows.map((r) => [q(r.label), q(r.method), n(r.dt), n(r.dtRatioToRk4), r.status, n(r.error.ssh), n(r.error.thickness),
-    n(r.error.velocity), n(r.massDrift), n(r.energyDrift), n(r.wallSeconds), n(r.rhsEvaluations), n(r.matvecs), n(r.cost), String(r.atReferenceFloor)].join(","))].join("\n") + "\n";
+    n(r.error.velocity), n(r.massDrift), n(r.energyDrift), n(r.energyResidual), n(r.wallSeconds), n(r.rhsEvaluations), n(r.matvecs), n(r.cost), String(r.atReferenceFloor)].join(","))].join("\n") + "\n";
 }
 
 export function printSweep(rows: SweepRow[], out: (s: string) => void, result?: SweepResult): void {
   const e = (v: number | null) => (v === null ? "—" : fmt(v, "", 3));
-  out(table(["stepper", "Δt", "× RK4", "status", "err ssh", "err h", "err u", "mass drift", "energy drift", "wall", "RHS", "matvecs"],
+  out(table(["stepper", "Δt", "× RK4", "status", "err ssh", "err h", "err u", "mass drift", "energy drift", "energy residual", "wall", "RHS", "matvecs"],
     rows.map((r) => [r.label, fmt(r.dt, "s"), fmt(r.dtRatioToRk4, "", 3), r.status + (r.atReferenceFloor ? " (floor)" : ""), e(r.error.ssh), e(r.error.thickness),
-      e(r.error.velocity), fmt(r.massDrift, "", 2), fmt(r.energyDrift, "", 2), fmt(r.wallSeconds, "s", 3), String(r.rhsEvaluations), String(r.matvecs)])));
+      e(r.error.velocity), fmt(r.massDrift, "", 2), r.energyDrift === null ? "n/a" : fmt(r.energyDrift, "", 2),
+      r.energyResidual === null ? "n/a" : fmt(r.energyResidual, "", 2), fmt(r.wallSeconds, "s", 3), String(r.rhsEvaluations), String(r.matvecs)])));
+  const why = rows.find((r) => r.energyDriftReason)?.energyDriftReason;
+  if (why) out(`energy drift n/a: ${why}; "energy residual" is the budget residual relative to the largest budget term.`);
   if (!result) return;
   out("");
   out(`Reference ${result.reference.label} at Δt = ${fmt(result.reference.dt, "s")} (${result.reference.steps} steps); its own error ≈ ${fmt(result.reference.floor[result.workPrecision.component], "", 2)} (${result.workPrecision.component}).`);
@@ -45,9 +54,14 @@ export function printSweep(rows: SweepRow[], out: (s: string) => void, result?: 
 }
 
 export function sweepDefinition(args: ParsedArgs, duration: number | undefined): SweepDefinition {
+  const limits = limitsFromArgs(args);
   const steppers = steppersFromArgs(args, null, ["methods"]);
+  const field = args.options.has("steppers") ? "--steppers" : "--methods";
+  checkListLength(steppers.length, "studyMethods", limits, field);
   const dts = numberList(args, "dts");
   const dtFactors = numberList(args, "dt-factors");
+  if (dts) checkListLength(dts.length, "studyDts", limits, "--dts");
+  if (dtFactors) checkListLength(dtFactors.length, "studyDts", limits, "--dt-factors");
   if (dts && dtFactors) throw new SolverError("bad-input", "--dts: give either --dts (seconds) or --dt-factors (multiples of the RK4 limit), not both", "--dts");
   if (!dts && !dtFactors) throw new SolverError("bad-input", "--dts: give the time steps with --dts d1,d2,… (seconds) or --dt-factors f1,f2,… (multiples of the RK4 limit)", "--dts");
   const refMethod = stringOption(args, "reference-method");
@@ -62,14 +76,13 @@ export function sweepDefinition(args: ParsedArgs, duration: number | undefined):
   if (tolerance !== undefined && !(tolerance > 0)) throw new SolverError("bad-input", `--tolerance: the requested error must be > 0, got ${tolerance}`, "--tolerance");
   const matvecWeight = numberOption(args, "matvec-weight");
   if (matvecWeight !== undefined && !(matvecWeight >= 0)) throw new SolverError("bad-input", `--matvec-weight: must be ≥ 0, got ${matvecWeight}`, "--matvec-weight");
-  const field = args.options.has("steppers") ? "--steppers" : "--methods";
-  return { steppers, field, dts, dtFactors, duration, referenceSpec, referenceDt: numberOption(args, "reference-dt", { positive: true }), component, tolerance, matvecWeight };
+  return { limits, steppers, field, dts, dtFactors, duration, referenceSpec, referenceDt: numberOption(args, "reference-dt", { positive: true }), component, tolerance, matvecWeight };
 }
 
-export function sweepCommand(args: ParsedArgs, out: (s: string) => void, err: (s: string) => void): number {
+export function sweepCommand(args: ParsedArgs, out: (s: string) => void, err: (s: string) => void, ctx: CliContext = NEVER_STOP): number {
   rejectUnknown(args, ["methods", "steppers", "dts", "dt-factors", "reference-dt", "reference-method", "duration", "error", "tolerance", "matvec-weight",
-    "json", "csv", "shard", "reference-only", "no-cache"], "sweep");
-  const scenario = parseScenario(loadScenarioArg(args.positional[0]));
+    "json", "csv", "shard", "reference-only", "no-cache", ...LIMIT_OPTIONS], "sweep");
+  const scenario = parseScenario(loadScenarioArg(args.positional[0]), "", { limits: limitsFromArgs(args), runLength: false });
   if (args.positional.length > 1) throw new SolverError("bad-input", `SCENARIO: give one scenario, got ${args.positional.length} words (${args.positional.join(" ")})`, "SCENARIO");
   const def = sweepDefinition(args, numberOption(args, "duration", { positive: true }));
   const shardText = stringOption(args, "shard");
@@ -77,27 +90,45 @@ export function sweepCommand(args: ParsedArgs, out: (s: string) => void, err: (s
   const json = stringOption(args, "json");
   const csv = stringOption(args, "csv");
   if (shard && !json) throw new SolverError("bad-input", "--json: a sharded run writes a partial result; give --json FILE (then join the parts with merge)", "--json");
-  const cache: ReferenceCache = args.options.has("no-cache") ? referenceCache : new DiskReferenceCache();
+  const warn = (m: string) => err(`stepwell sweep: warning: ${m}`);
+  const solver = solverIdentity();
+  const cache: ReferenceCache = args.options.has("no-cache") ? referenceCache : new DiskReferenceCache(cacheDirectory(), solver, warn);
   const clock = () => performance.now() / 1000;
   const built = buildScenario(scenario);
-  const hooks = { clock, onProgress: progressReporter(err, clock, "sweep"), cache };
-  if (args.options.has("reference-only")) {
-    const plan = planSweep(built, def);
-    const ref = referenceRun(built, plan.reference, cache, new StudyTracker(hooks, 2));
-    out(`Reference ${ref.label} at Δt = ${fmt(ref.dt, "s")} (${ref.steps} steps) ready` + (cache instanceof DiskReferenceCache ? ` in ${cache.dir}/` : "") + `; key ${ref.key}`);
+  const hooks = { clock, onProgress: progressReporter(err, clock, "sweep"), cache, solver, onWarning: warn, shouldCancel: () => ctx.stopReason() !== null };
+  try {
+    if (args.options.has("reference-only")) {
+      const plan = planSweep(built, def);
+      for (const w of plan.warnings) warn(w);
+      const ref = referenceRun(built, plan.reference, cache, new StudyTracker(hooks, 2), solver);
+      out(`Reference ${ref.label} at Δt = ${fmt(ref.dt, "s")} (${ref.steps} steps) ready` + (cache instanceof DiskReferenceCache ? ` in ${cache.dir}/` : "") + `; key ${ref.key}`);
+      return 0;
+    }
+    if (shard) {
+      const part = runSweep(built, def, { ...hooks, shard });
+      out(`slice ${shard.index}/${shard.count}: ${part.items.length} of ${part.nItems} runs`);
+      printSweep(part.rows, out);
+      writeJson(json!, part);
+      if (csv) writeText(csv, sweepCsv(part.rows), "--csv");
+      return 0;
+    }
+    const result = runSweep(built, def, hooks);
+    printSweep(result.rows, out, result);
+    if (json) writeJson(json, result);
+    if (csv) writeText(csv, sweepCsv(result.rows), "--csv");
     return 0;
+  } catch (e) {
+    if (!isCancellation(e)) throw e;
+    // stopped: the rows that finished, marked interrupted; a cut-short reference is not kept
+    const stop = ctx.stopReason() ?? "SIGINT";
+    const partial = e instanceof StudyInterrupted ? e.partial as InterruptedSweep : undefined;
+    if (partial) {
+      printSweep(partial.rows, out);
+      if (json) writeJson(json, { ...partial, interruptedBy: stop });
+      if (csv) writeText(csv, sweepCsv(partial.rows), "--csv");
+    }
+    const finished = e instanceof StudyInterrupted ? `with ${e.done} of ${e.total} runs finished` : "before the reference run finished";
+    err(`stepwell sweep: interrupted (${stop}) ${finished}${json && partial ? `; ${json} holds those` : ""}`);
+    return STOP_EXIT_CODES[stop];
   }
-  if (shard) {
-    const part = runSweep(built, def, { ...hooks, shard });
-    out(`slice ${shard.index}/${shard.count}: ${part.items.length} of ${part.nItems} runs`);
-    printSweep(part.rows, out);
-    writeJson(json!, part);
-    if (csv) writeText(csv, sweepCsv(part.rows), "--csv");
-    return 0;
-  }
-  const result = runSweep(built, def, hooks);
-  printSweep(result.rows, out, result);
-  if (json) writeJson(json, result);
-  if (csv) writeText(csv, sweepCsv(result.rows), "--csv");
-  return 0;
 }

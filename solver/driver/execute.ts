@@ -1,5 +1,8 @@
 import { SolverError } from "../errors.js";
+import { LIMITS } from "../scenario/limits.js";
 import type { Budget } from "../diagnostics/budget.js";
+import type { ShallowWaterModel } from "../model/shallowWater.js";
+import { driftUndefinedReason, type EnergyBudgetSeries, type EnergyBudgetSummary } from "../diagnostics/energyBudget.js";
 import { Run, type UnstableReport } from "./run.js";
 
 export interface ExecuteOptions {
@@ -13,6 +16,26 @@ export interface ExecuteOptions {
   onProgress?: (p: { fraction: number; step: number; time: number; budget?: Budget }) => boolean | void;
   /** Steps per chunk between progress calls (default: the output interval). */
   chunk?: number;
+  /** Track the energy budget (default true): one extra tendency evaluation per step, reported apart. */
+  energyBudget?: boolean;
+}
+
+/**
+ * Energy drift and what stands in its place. The drift (max |E − E0| / |E0| over the output times) is defined
+ * only for a run that neither forces nor dissipates and starts with energy; otherwise it is null with a reason,
+ * and the energy-budget residual (the energy the stepper itself creates or destroys) is reported instead.
+ */
+export interface EnergyReport {
+  /** Total energy per unit reference density [m⁵ s⁻²]; × ρ0 gives joules. */
+  initial: number;
+  final: number;
+  maxRelativeDrift: number | null;
+  /** Why maxRelativeDrift is null. */
+  reason?: string;
+  /** Energy-budget residual over the run [m⁵ s⁻²] (null when the budget was not tracked). */
+  budgetResidual: number | null;
+  /** |residual| / the largest budget term (null with energyBudget.reason when undefined). */
+  relativeBudgetResidual: number | null;
 }
 
 export interface RunResult {
@@ -31,7 +54,11 @@ export interface RunResult {
   innerProducts: number;
   matvecsPerStep: number;
   mass: { initial: number[]; final: number[]; maxRelativeDrift: number };
-  energy: { initial: number; final: number; maxRelativeDrift: number };
+  energy: EnergyReport;
+  /** Energy budget over the run, or null when not tracked. */
+  energyBudget: EnergyBudgetSummary | null;
+  /** The budget at each output time (cumulative from the start), or null when not tracked. */
+  budgetSeries: EnergyBudgetSeries | null;
   unstable: UnstableReport | null;
   note?: string;
 }
@@ -42,21 +69,20 @@ export class DriftTracker {
   readonly energy0: number;
   maxMassDrift = 0;
   maxEnergyChange = 0;
-  maxEnergy: number;
-  constructor(b0: Budget) {
+  /** Why the energy drift is not defined for this run (see driftUndefinedReason), or null. */
+  readonly driftReason: string | null;
+  constructor(b0: Budget, model: ShallowWaterModel) {
     this.mass0 = [...b0.mass];
     this.energy0 = b0.energy;
-    this.maxEnergy = Math.abs(b0.energy);
+    this.driftReason = driftUndefinedReason(model, b0.energy);
   }
   add(b: Budget): void {
     b.mass.forEach((m, k) => { this.maxMassDrift = Math.max(this.maxMassDrift, Math.abs(m - this.mass0[k]) / Math.abs(this.mass0[k])); });
     this.maxEnergyChange = Math.max(this.maxEnergyChange, Math.abs(b.energy - this.energy0));
-    this.maxEnergy = Math.max(this.maxEnergy, Math.abs(b.energy));
   }
-  /** Relative to the initial energy; from rest (E0 = 0) relative to the largest energy reached. */
-  get maxEnergyDrift(): number {
-    const ref = this.energy0 !== 0 ? Math.abs(this.energy0) : this.maxEnergy;
-    return ref > 0 ? this.maxEnergyChange / ref : 0;
+  /** Largest |E − E0| / E0 over the samples; null with a reason when that means nothing. */
+  get energyDrift(): { value: number | null; reason?: string } {
+    return this.driftReason ? { value: null, reason: this.driftReason } : { value: this.maxEnergyChange / this.energy0 };
   }
 }
 
@@ -68,8 +94,14 @@ export function execute(run: Run, o: ExecuteOptions = {}): RunResult {
   if (!(total >= 1)) throw new SolverError("bad-input", `--steps: the run needs at least one step (duration ${o.duration ?? s.duration} s at dt ${dt} s)`, "--steps");
   const clock = o.clock ?? (() => 0);
   const b0 = run.budget();
-  const drift = new DriftTracker(b0);
+  const drift = new DriftTracker(b0, run.model);
+  const tracker = o.energyBudget === false ? null : run.trackEnergyBudget();
+  if (tracker) tracker.clock = o.clock ?? null;
   const sample = Math.max(1, Math.round((s.outputInterval ?? s.duration / 24) / dt));
+  if (total / sample > LIMITS.outputTimes) {
+    throw new SolverError("bad-input", `outputInterval: ${total} steps with an output every ${sample} step${sample === 1 ? "" : "s"} is more than the limit of ` +
+      `${LIMITS.outputTimes} output times; make outputInterval longer`, "outputInterval");
+  }
   const chunk = Math.max(1, o.chunk ?? sample);
   const st0 = { ...run.stepper.stats };
   const t0 = clock();
@@ -85,6 +117,7 @@ export function execute(run: Run, o: ExecuteOptions = {}): RunResult {
     if (!ok || sinceSample >= sample || done >= total) {
       b = run.budget();
       drift.add(b);
+      tracker?.record(run.state);
       sinceSample = 0;
     }
     if (!ok) break;
@@ -93,7 +126,10 @@ export function execute(run: Run, o: ExecuteOptions = {}): RunResult {
       break;
     }
   }
-  const wall = clock() - t0;
+  tracker?.record(run.state);
+  const budgetSummary = tracker ? tracker.summary(run.state) : null;
+  const wall = clock() - t0 - (budgetSummary?.wallSeconds ?? 0);
+  const energyDrift = drift.energyDrift;
   const bEnd = run.budget();
   const st = run.stepper.stats;
   const steps = st.steps - st0.steps;
@@ -107,8 +143,22 @@ export function execute(run: Run, o: ExecuteOptions = {}): RunResult {
     rhsEvaluations: st.rhsEvaluations - st0.rhsEvaluations, matvecs, innerProducts: st.innerProducts - st0.innerProducts,
     matvecsPerStep: steps > 0 ? matvecs / steps : 0,
     mass: { initial: drift.mass0, final: bEnd.mass, maxRelativeDrift: drift.maxMassDrift },
-    energy: { initial: drift.energy0, final: bEnd.energy, maxRelativeDrift: drift.maxEnergyDrift },
+    energy: {
+      initial: drift.energy0, final: bEnd.energy, maxRelativeDrift: energyDrift.value,
+      ...(energyDrift.reason ? { reason: energyDrift.reason } : {}),
+      budgetResidual: budgetSummary ? budgetSummary.residual : null,
+      relativeBudgetResidual: budgetSummary ? budgetSummary.relativeResidual : null,
+    },
+    energyBudget: budgetSummary,
+    budgetSeries: tracker ? copySeries(tracker.series) : null,
     unstable: run.unstable,
     ...(run.stepper.note ? { note: run.stepper.note } : {}),
+  };
+}
+
+function copySeries(s: EnergyBudgetSeries): EnergyBudgetSeries {
+  return {
+    time: [...s.time], energy: [...s.energy], change: [...s.change], windWork: [...s.windWork], dragLoss: [...s.dragLoss],
+    viscousLoss: [...s.viscousLoss], residual: [...s.residual],
   };
 }

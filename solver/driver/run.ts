@@ -1,6 +1,7 @@
 import { SolverError } from "../errors.js";
+import { EnergyBudgetTracker } from "../diagnostics/energyBudget.js";
 import { budgetWork, computeBudget, courantNumbers, type Budget, type BudgetWork, type CourantNumbers } from "../diagnostics/budget.js";
-import { hexMaxFrequency, verticalModes, type VerticalModes } from "../model/modes.js";
+import { deepestColumnSpeed, hexMaxFrequency, verticalModes, type VerticalModes } from "../model/modes.js";
 import { problemFor, type ModelProblem } from "../model/problem.js";
 import { buildScenario, type BuiltScenario } from "../scenario/build.js";
 import { parseScenario, stepperSchema, type Scenario, type StepperSpec } from "../scenario/schema.js";
@@ -51,6 +52,8 @@ export class Run {
   time = 0;
   steps = 0;
   unstable: UnstableReport | null = null;
+  /** The energy budget over the steps of `advance`, once switched on with `trackEnergyBudget` (null: off). */
+  energyBudget: EnergyBudgetTracker | null = null;
   private readonly work: BudgetWork;
 
   constructor(built: BuiltScenario, spec?: StepperSpec) {
@@ -99,10 +102,18 @@ export class Run {
   /** Barotropic speed over the deepest water column (topography makes c0 vary) [m/s]. */
   fastestSpeed(): number {
     const p = this.model.params;
-    let deepest = 0;
-    for (let i = 0; i < p.bottom.length; i++) deepest = Math.max(deepest, -p.bottom[i]);
-    const nominal = p.nominalThickness.reduce((a, b) => a + b, 0);
-    return this.modes.speeds[0] * Math.sqrt(Math.max(deepest, nominal) / nominal);
+    return deepestColumnSpeed(p.reducedGravity, p.nominalThickness, p.bottom);
+  }
+
+  /**
+   * Switch the energy budget on (from the current state and time, costing one extra tendency evaluation per step,
+   * counted apart from the stepper's) or off.
+   */
+  trackEnergyBudget(on = true): EnergyBudgetTracker | null {
+    if (!on) { this.energyBudget = null; return null; }
+    this.energyBudget ??= new EnergyBudgetTracker(this.model);
+    this.energyBudget.start(this.state, this.time);
+    return this.energyBudget;
   }
 
   budget(x: Float64Array = this.state): Budget {
@@ -165,6 +176,7 @@ export class Run {
       }
       this.time += dt;
       this.steps++;
+      this.energyBudget?.afterStep(this.state, this.time);
     }
     return true;
   }
@@ -175,6 +187,7 @@ export class Run {
     this.time = 0;
     this.steps = 0;
     this.unstable = null;
+    this.energyBudget?.start(this.state, 0);
   }
 }
 

@@ -449,14 +449,13 @@ export function shapeBounds(s: BasinShape): { xMin: number; xMax: number; yMin: 
  * Closed basin: the hexagonal cells whose centres lie inside the shape (largest connected group of them);
  * edges between a wet cell and the outside are coastline with zero normal velocity.
  */
-export function basinHexMesh(shape: BasinShape, spacing: number): Mesh {
+export function basinHexMesh(shape: BasinShape, spacing: number, maxLatticePoints = 4_000_000): Mesh {
   if (!(spacing > 0)) throw new SolverError("bad-mesh", `mesh.spacing must be > 0 m, got ${spacing}`, "mesh.spacing");
   const bb = shapeBounds(shape);
-  const margin = 3;
-  const nx = Math.ceil((bb.xMax - bb.xMin) / spacing) + 2 * margin;
-  let ny = Math.ceil((bb.yMax - bb.yMin) / (SQRT3_2 * spacing)) + 2 * margin;
-  if (ny % 2) ny++;
-  if (nx * ny > 4_000_000) throw new SolverError("bad-mesh", `mesh: ${nx}×${ny} lattice is too large; use a larger mesh.spacing`, "mesh.spacing");
+  const { nx, ny, margin } = basinLattice(shape, spacing);
+  if (!(nx * ny <= maxLatticePoints)) {
+    throw new SolverError("bad-mesh", `mesh.spacing: ${nx}×${ny} lattice is more than the limit of ${maxLatticePoints} points; use a larger mesh.spacing`, "mesh.spacing");
+  }
   const L: Lattice = {
     nx, ny, spacing, jitter: new Float64Array(2 * nx * ny),
     originX: bb.xMin - margin * spacing, originY: bb.yMin - margin * SQRT3_2 * spacing,
@@ -486,8 +485,157 @@ export function basinHexMesh(shape: BasinShape, spacing: number): Mesh {
     }
     if (size > bestSize) { bestSize = size; best = p; }
   }
-  if (bestSize < 7) throw new SolverError("bad-mesh", `mesh: the basin holds only ${bestSize} cells; make it larger or the spacing smaller`, "mesh");
+  if (bestSize < 7) {
+    throw new SolverError("bad-mesh", `mesh.spacing: a basin of ${describeSize(shape)} holds only ${bestSize} connected cell${bestSize === 1 ? "" : "s"} at a spacing of ` +
+      `${spacing} m (at least 7 are needed); make the spacing smaller or the basin larger`, "mesh.spacing");
+  }
   const wet = new Uint8Array(nx * ny);
   for (let p = 0; p < nx * ny; p++) wet[p] = label[p] === best ? 1 : 0;
   return buildFromLattice(L, wet, "basin");
+}
+
+/** Size of the lattice a basin is cut from: its bounding box over the spacing, with `margin` dry rows around it. */
+export function basinLattice(shape: BasinShape, spacing: number): { nx: number; ny: number; margin: number; across: number; along: number } {
+  const bb = shapeBounds(shape);
+  const margin = 3;
+  const across = (bb.xMax - bb.xMin) / spacing;
+  const along = (bb.yMax - bb.yMin) / (SQRT3_2 * spacing);
+  const nx = Math.ceil(across) + 2 * margin;
+  let ny = Math.ceil(along) + 2 * margin;
+  if (ny % 2) ny++;
+  return { nx, ny, margin, across, along };
+}
+
+/** Area of one hexagonal cell of a lattice of this spacing, (√3/2) d² [m²]. */
+export function hexCellArea(spacing: number): number {
+  return SQRT3_2 * spacing * spacing;
+}
+
+/** Signed area of a polygon by the shoelace formula (counter-clockwise positive) [m²]. */
+export function polygonArea(v: readonly (readonly [number, number])[]): number {
+  let a = 0;
+  for (let i = 0, j = v.length - 1; i < v.length; j = i++) a += v[j][0] * v[i][1] - v[i][0] * v[j][1];
+  return 0.5 * a;
+}
+
+export function shapeArea(s: BasinShape): number {
+  if (s.shape === "rectangle") return s.width * s.height;
+  if (s.shape === "ellipse") return (Math.PI * s.width * s.height) / 4;
+  return Math.abs(polygonArea(s.vertices));
+}
+
+/** "1200 km × 1000 km (area 1.2e6 km²)" for messages. */
+export function describeSize(s: BasinShape): string {
+  const bb = shapeBounds(s);
+  const num = (v: number, d: number) => (Math.abs(v) < 1e7 ? String(Number(v.toPrecision(d))) : v.toPrecision(3));
+  const km = (m: number) => `${num(m / 1000, 4)} km`;
+  return `${km(bb.xMax - bb.xMin)} × ${km(bb.yMax - bb.yMin)} (area ${num(shapeArea(s) / 1e6, 3)} km²)`;
+}
+
+/**
+ * The vertices of a polygon basin, stretched so that their bounding box is width × height when either is given
+ * (each axis independently), placed with the box's lower-left corner where it was.
+ */
+export function stretchPolygon(
+  vertices: readonly (readonly [number, number])[], width?: number, height?: number,
+): [number, number][] {
+  if (width === undefined && height === undefined) return vertices.map(([x, y]) => [x, y]);
+  const bb = shapeBounds({ shape: "polygon", vertices });
+  const sx = width === undefined ? 1 : width / (bb.xMax - bb.xMin);
+  const sy = height === undefined ? 1 : height / (bb.yMax - bb.yMin);
+  return vertices.map(([x, y]) => [bb.xMin + (x - bb.xMin) * sx, bb.yMin + (y - bb.yMin) * sy]);
+}
+
+/** Orientation of (a, b, c): > 0 counter-clockwise, < 0 clockwise, 0 collinear (cross product; common practice). */
+function orient(ax: number, ay: number, bx: number, by: number, cx: number, cy: number): number {
+  return (bx - ax) * (cy - ay) - (by - ay) * (cx - ax);
+}
+
+/** c on the closed segment a–b, given that the three are collinear. */
+function onSegment(ax: number, ay: number, bx: number, by: number, cx: number, cy: number): boolean {
+  return Math.min(ax, bx) <= cx && cx <= Math.max(ax, bx) && Math.min(ay, by) <= cy && cy <= Math.max(ay, by);
+}
+
+/**
+ * Whether closed segments p1–p2 and p3–p4 share a point, by the orientation test of Cormen, Leiserson, Rivest
+ * and Stein, Introduction to Algorithms (3rd ed. 2009), §33.1 (SEGMENTS-INTERSECT).
+ */
+function segmentsMeet(p1: readonly number[], p2: readonly number[], p3: readonly number[], p4: readonly number[]): boolean {
+  const d1 = orient(p3[0], p3[1], p4[0], p4[1], p1[0], p1[1]);
+  const d2 = orient(p3[0], p3[1], p4[0], p4[1], p2[0], p2[1]);
+  const d3 = orient(p1[0], p1[1], p2[0], p2[1], p3[0], p3[1]);
+  const d4 = orient(p1[0], p1[1], p2[0], p2[1], p4[0], p4[1]);
+  if (((d1 > 0 && d2 < 0) || (d1 < 0 && d2 > 0)) && ((d3 > 0 && d4 < 0) || (d3 < 0 && d4 > 0))) return true;
+  if (d1 === 0 && onSegment(p3[0], p3[1], p4[0], p4[1], p1[0], p1[1])) return true;
+  if (d2 === 0 && onSegment(p3[0], p3[1], p4[0], p4[1], p2[0], p2[1])) return true;
+  if (d3 === 0 && onSegment(p1[0], p1[1], p2[0], p2[1], p3[0], p3[1])) return true;
+  if (d4 === 0 && onSegment(p1[0], p1[1], p2[0], p2[1], p4[0], p4[1])) return true;
+  return false;
+}
+
+/**
+ * What is wrong with a polygon basin's vertex list, or null: fewer than three distinct vertices, a repeated
+ * vertex, all vertices on one line (zero area), or two edges that cross, touch or fold back on each other.
+ * `index` is the offending vertex (or the first vertex of the offending edge), null for the list as a whole.
+ */
+export function polygonProblem(v: readonly (readonly [number, number])[]): { index: number | null; message: string } | null {
+  const known = polygonChecked.get(v);
+  if (known !== undefined) return known;
+  const r = findPolygonProblem(v);
+  polygonChecked.set(v, r);
+  return r;
+}
+
+/** Results of polygonProblem per vertex list (the schema asks twice about the same list). */
+const polygonChecked = new WeakMap<object, { index: number | null; message: string } | null>();
+
+function findPolygonProblem(v: readonly (readonly [number, number])[]): { index: number | null; message: string } | null {
+  const n = v.length;
+  const seen = new Map<string, number>();
+  let firstRepeat: [number, number] | null = null;
+  for (let i = 0; i < n; i++) {
+    const key = `${v[i][0]},${v[i][1]}`;
+    const j = seen.get(key);
+    if (j === undefined) seen.set(key, i);
+    else if (!firstRepeat) firstRepeat = [j, i];
+  }
+  if (seen.size < 3) return { index: null, message: `has only ${seen.size} distinct ${seen.size === 1 ? "vertex" : "vertices"}; a polygon needs at least 3` };
+  if (firstRepeat) {
+    const [j, i] = firstRepeat;
+    const closing = j === 0 && i === n - 1 ? " (the outline closes by itself; leave the last vertex out)" : "";
+    return { index: i, message: `repeats vertex [${j}] (${v[j][0]}, ${v[j][1]})${closing}` };
+  }
+  // all on one line: every vertex collinear with the first two
+  let collinear = true;
+  for (let i = 2; i < n && collinear; i++) if (orient(v[0][0], v[0][1], v[1][0], v[1][1], v[i][0], v[i][1]) !== 0) collinear = false;
+  if (collinear) return { index: null, message: "has zero area: all its vertices lie on one line" };
+  const next = (i: number) => (i + 1) % n;
+  // bounding box of each edge, to skip the orientation tests for pairs far apart
+  const box = new Float64Array(4 * n);
+  for (let i = 0; i < n; i++) {
+    const a = v[i], b = v[next(i)];
+    box[4 * i] = Math.min(a[0], b[0]); box[4 * i + 1] = Math.max(a[0], b[0]);
+    box[4 * i + 2] = Math.min(a[1], b[1]); box[4 * i + 3] = Math.max(a[1], b[1]);
+  }
+  for (let i = 0; i < n; i++) {
+    const x0 = box[4 * i], x1 = box[4 * i + 1], y0 = box[4 * i + 2], y1 = box[4 * i + 3];
+    for (let j = i + 1; j < n; j++) {
+      if (box[4 * j] > x1 || box[4 * j + 1] < x0 || box[4 * j + 2] > y1 || box[4 * j + 3] < y0) continue;
+      const a = v[i], b = v[next(i)], c = v[j], d = v[next(j)];
+      if (next(i) === j || next(j) === i) {
+        // neighbouring edges share one vertex; they only fail by folding back along each other
+        const shared = next(i) === j ? b : a;
+        const p = next(i) === j ? a : b;
+        const q = next(i) === j ? d : c;
+        if (orient(shared[0], shared[1], p[0], p[1], q[0], q[1]) === 0 &&
+            ((p[0] - shared[0]) * (q[0] - shared[0]) + (p[1] - shared[1]) * (q[1] - shared[1])) > 0) {
+          return { index: i, message: `–[${next(i)}] folds back along [${j}]–[${next(j)}]` };
+        }
+        continue;
+      }
+      if (segmentsMeet(a, b, c, d)) return { index: i, message: `–[${next(i)}] crosses [${j}]–[${next(j)}]` };
+    }
+  }
+  if (polygonArea(v) === 0) return { index: null, message: "has zero area" };
+  return null;
 }

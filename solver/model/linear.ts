@@ -20,7 +20,8 @@
  */
 import type { LinearOperator, OperatorCounters } from "../linalg/types.js";
 import type { Mesh } from "../mesh/types.js";
-import { layerCoupling, verticalModes } from "./modes.js";
+import { deepestColumnSpeed, hexSpectralBound, layerCoupling } from "./modes.js";
+import { estimateSpectralBound } from "../linalg/spectralBound.js";
 import type { ShallowWaterModel, StateLayout } from "./shallowWater.js";
 import { operatorShiftedSolver, type OperatorShiftedSolver, type ShiftedSolverOptions } from "./shiftedSolve.js";
 
@@ -202,15 +203,7 @@ export function restLinearOperator(model: ShallowWaterModel, opts: RestOperatorO
   }
 
   // deepest column and largest |f|, for the analytic bound
-  let deepest = 0;
-  for (let i = 0; i < nc; i++) {
-    let s = 0;
-    for (let k = 0; k < L; k++) s += H[k * nc + i];
-    deepest = Math.max(deepest, s);
-  }
-  const column = [...p.nominalThickness];
-  column[L - 1] = deepest - column.slice(0, L - 1).reduce((a, b) => a + b, 0);
-  const fastestSpeed = verticalModes(p.reducedGravity, column, p.f0).speeds[0];
+  const fastestSpeed = deepestColumnSpeed(p.reducedGravity, p.nominalThickness, p.bottom);
   let maxCoriolis = 0;
   for (let v = 0; v < m.nVertices; v++) maxCoriolis = Math.max(maxCoriolis, Math.abs(p.coriolisVertex[v]));
 
@@ -263,10 +256,10 @@ export function restLinearOperator(model: ShallowWaterModel, opts: RestOperatorO
   const mode = opts.spectralBound ?? "auto";
   let bound: number;
   if (mode === "auto" && isRegularHexMesh(m)) {
-    bound = Math.sqrt(maxCoriolis ** 2 + (6 * fastestSpeed ** 2) / m.spacing ** 2) * (1 + (opts.margin ?? 0.02));
+    bound = hexSpectralBound(maxCoriolis, fastestSpeed, m.spacing, opts.margin ?? 0.02);
   } else {
     const saved = { ...counters };
-    const est = estimateSpectralRadius(interfaceOp, interfaceWeights, { iterations: 80 });
+    const est = estimateSpectralBound(interfaceOp, { maxIterations: 80, tol: 0, margin: 0 }).estimate;
     counters.matvecs = saved.matvecs;
     counters.innerProducts = saved.innerProducts;
     bound = est * (1 + (opts.margin ?? 0.1));
@@ -274,40 +267,4 @@ export function restLinearOperator(model: ShallowWaterModel, opts: RestOperatorO
   op.spectralBound = bound;
   interfaceOp.spectralBound = bound;
   return op;
-}
-
-/**
- * Power iteration on −A² (self-adjoint and positive semi-definite in the weighted inner product when A is
- * skew-adjoint there, reference §4.2): returns √ of the Rayleigh quotient ‖A x‖²_w / ‖x‖²_w after the given
- * iterations, a lower estimate of the spectral radius that converges from below. Start vector from a seeded
- * generator, so the result is reproducible. Allocates its two work vectors per call (construction time only).
- */
-export function estimateSpectralRadius(
-  op: LinearOperator, weights: Float64Array | undefined, o: { iterations?: number; seed?: number } = {},
-): number {
-  const n = op.n;
-  const x = new Float64Array(n), y = new Float64Array(n), z = new Float64Array(n);
-  let s = (o.seed ?? 12345) >>> 0;
-  for (let i = 0; i < n; i++) {
-    s = (Math.imul(s, 1664525) + 1013904223) >>> 0;
-    x[i] = s / 4294967296 - 0.5;
-  }
-  const wdot = (a: Float64Array, b: Float64Array) => {
-    let t = 0;
-    if (weights) for (let i = 0; i < n; i++) t += weights[i] * a[i] * b[i];
-    else for (let i = 0; i < n; i++) t += a[i] * b[i];
-    return t;
-  };
-  let rho2 = 0;
-  const iters = o.iterations ?? 60;
-  for (let it = 0; it < iters; it++) {
-    const nx = Math.sqrt(wdot(x, x));
-    if (!(nx > 0)) return 0;
-    for (let i = 0; i < n; i++) x[i] /= nx;
-    op.apply(y, x);
-    rho2 = wdot(y, y); // ‖A x‖² with ‖x‖ = 1
-    op.apply(z, y);
-    for (let i = 0; i < n; i++) x[i] = -z[i]; // x ← −A² x
-  }
-  return Math.sqrt(rho2);
 }

@@ -94,13 +94,33 @@ export function verticalModes(reducedGravity: ArrayLike<number>, thickness: read
 }
 
 /**
+ * Barotropic gravity-wave speed of the deepest water column [m/s]: the fastest vertical mode of the layer
+ * stack whose upper layers keep their nominal thickness and whose bottom layer reaches the deepest sea floor
+ * (topography makes the speed vary from column to column; the deepest column sets the time-step limits).
+ */
+export function deepestColumnSpeed(reducedGravity: ArrayLike<number>, nominalThickness: readonly number[], bottom: ArrayLike<number>): number {
+  const L = nominalThickness.length;
+  let deepest = nominalThickness.reduce((a, b) => a + b, 0);
+  for (let i = 0; i < bottom.length; i++) deepest = Math.max(deepest, -bottom[i]);
+  const column = [...nominalThickness];
+  column[L - 1] = deepest - column.slice(0, L - 1).reduce((a, b) => a + b, 0);
+  return verticalModes(reducedGravity, column, 0).speeds[0];
+}
+
+/**
+ * Bound of the gravity-wave frequencies of the rotating TRiSK system on the regular hexagonal mesh,
+ * √(f² + 6c²/d²) (ω_max² = 6c²/d² at f = 0, Thuburn, Ringler, Skamarock & Klemp 2009, J. Comput. Phys. 228;
+ * f²α + c²λ ≤ f² + 6c²/d² for any f), with a relative safety margin.
+ */
+export function hexSpectralBound(maxCoriolis: number, speed: number, spacing: number, margin: number): number {
+  return Math.sqrt(maxCoriolis ** 2 + (6 * speed ** 2) / spacing ** 2) * (1 + margin);
+}
+
+/**
  * Largest gravity-wave frequency of TRiSK on the regular hexagonal mesh, ω_max = √6 c/d, for any f
- * (numerics reference §4.2), and the RK4 limit 2√2/ω_max on the imaginary axis (§4.3).
+ * (Thuburn et al. 2009): the RK4 limit is 2√2/ω_max on the imaginary axis.
  */
 export function hexMaxFrequency(speed: number, spacing: number): number {
   return (Math.sqrt(6) * speed) / spacing;
 }
-export const RK4_IMAGINARY_BOUND = 2 * Math.SQRT2;
-export function rk4GravityDtLimit(speed: number, spacing: number): number {
-  return RK4_IMAGINARY_BOUND / hexMaxFrequency(speed, spacing);
-}
+

@@ -26,7 +26,7 @@ import { restLinearOperator, type RestLinearOperator } from "./linear.js";
 import { jacobianOperator } from "./jacobian.js";
 import { modalRestriction, restrictedPhiAction, type ModalRestriction } from "./restriction.js";
 import { edgeThickness, potentialVorticity, pvFlux } from "./terms.js";
-import { hexMaxFrequency, verticalModes } from "./modes.js";
+import { deepestColumnSpeed, hexMaxFrequency, verticalModes } from "./modes.js";
 import { parseLinearName } from "../time/options.js";
 
 /** Default highest φ index of a φ-action when the caller does not say. */
@@ -111,13 +111,6 @@ export function fastSlowWork(model: ShallowWaterModel): FastSlowWork {
   return { tendency, substep: substep / tendency, pass: pass / tendency };
 }
 
-/** Barotropic speed of the deepest column, √(g'_1 H_max) [m/s]. */
-export function deepestBarotropicSpeed(model: ShallowWaterModel): number {
-  const p = model.params;
-  let deepest = p.nominalThickness.reduce((a, b) => a + b, 0);
-  for (let i = 0; i < p.bottom.length; i++) deepest = Math.max(deepest, -p.bottom[i]);
-  return Math.sqrt(p.reducedGravity[0] * deepest);
-}
 
 /** Mutable tallies behind a problem's counters. */
 interface Tally { tendency: number; extraMatvecs: number; operators: Set<OperatorCounters> }
@@ -133,7 +126,7 @@ function buildFastSlow(model: ShallowWaterModel, tally: Tally): FastSlowSplit {
   // a sub-step calls surfaceTendency, pressure and coriolis twice; a pass calls freeze, splitTendency, reconcile
   const wSub = work.substep / 4, wPass = work.pass / 3;
   const modes = verticalModes(p.reducedGravity, p.nominalThickness as number[], p.f0);
-  const speed = deepestBarotropicSpeed(model);
+  const speed = deepestColumnSpeed(p.reducedGravity, p.nominalThickness, p.bottom);
   const c1 = L > 1 ? modes.speeds[1] : 0; // first baroclinic speed of the nominal stack
 
   const hEdge = new Float64Array(L * ne); // frozen ĥ_k

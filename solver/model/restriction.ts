@@ -31,10 +31,11 @@
  */
 import { SolverError } from "../errors.js";
 import type { LinearOperator, OperatorCounters, PhiAction, PhiStats } from "../linalg/types.js";
-import { verticalModes } from "./modes.js";
+import { hexSpectralBound, verticalModes } from "./modes.js";
 import { inverseFactorial } from "../linalg/scalarPhi.js";
 import type { ShallowWaterModel, StateLayout } from "./shallowWater.js";
-import { isRegularHexMesh, restLinearOperator, estimateSpectralRadius, type RestLinearOperator } from "./linear.js";
+import { isRegularHexMesh, restLinearOperator, type RestLinearOperator } from "./linear.js";
+import { estimateSpectralBound } from "../linalg/spectralBound.js";
 import { operatorShiftedSolver, type OperatorShiftedSolver, type ShiftedSolverOptions } from "./shiftedSolve.js";
 
 export interface ModalRestriction {
@@ -376,10 +377,10 @@ export function modalRestriction(model: ShallowWaterModel, nModes: number, rest:
   const fMax = rest.maxCoriolis;
   let bound: number;
   if (isRegularHexMesh(mesh)) {
-    bound = Math.sqrt(fMax * fMax + (6 * speeds[0] * speeds[0]) / (mesh.spacing * mesh.spacing)) * 1.02;
+    bound = hexSpectralBound(fMax, speeds[0], mesh.spacing, 0.02);
   } else {
     const mv = counters.matvecs;
-    bound = estimateSpectralRadius(modalOp, weights, { iterations: 80 }) * 1.1;
+    bound = estimateSpectralBound(modalOp, { maxIterations: 80, tol: 0, margin: 0.1 }).bound;
     counters.matvecs = mv;
   }
   modalOp.spectralBound = bound;

@@ -5,15 +5,15 @@ import type { Mesh } from "../mesh/types.js";
 import { layerCoupling } from "../model/modes.js";
 import { luSolve } from "../linalg/dense.js";
 import { ShallowWaterModel, type ModelParams } from "../model/shallowWater.js";
-import type { InitialSpec, MeshSpec, Scenario } from "./schema.js";
+import { basinShapeOf, type InitialSpec, type MeshSpec, type Scenario } from "./schema.js";
+import { LIMITS } from "./limits.js";
 
 /** Build the mesh a scenario describes. */
 export function buildMesh(spec: MeshSpec): Mesh {
   if (spec.type === "periodic-hex") {
     return periodicHexMesh({ cellsX: spec.cellsX, cellsY: spec.cellsY, spacing: spec.spacing, jitter: spec.jitter, seed: spec.seed });
   }
-  if (spec.shape === "polygon") return basinHexMesh({ shape: "polygon", vertices: spec.vertices! }, spec.spacing);
-  return basinHexMesh({ shape: spec.shape, width: spec.width!, height: spec.height! }, spec.spacing);
+  return basinHexMesh(basinShapeOf(spec), spec.spacing, LIMITS.latticePoints);
 }
 
 /** Extent of the wet cells [m]. */

@@ -2,7 +2,7 @@ import { SolverError } from "../errors.js";
 import { Run } from "../driver/run.js";
 import type { BuiltScenario } from "../scenario/build.js";
 import type { StepperSpec } from "../scenario/schema.js";
-import { defaultLabel, type StudyTracker } from "./common.js";
+import { advanceSteps, defaultLabel, type StudyTracker } from "./common.js";
 import { contentHash } from "./hash.js";
 import { stateErrors, type StateErrors } from "./metrics.js";
 import type { StepperConfig } from "./stability.js";
@@ -10,6 +10,8 @@ import type { StepperConfig } from "./stability.js";
 /** A reference solution at the study's final time, with an estimate of its own error. */
 export interface ReferenceRecord {
   key: string;
+  /** Identity of the code that computed it (package version and a hash of the solver's source), part of the key. */
+  solver: string;
   method: string;
   label: string;
   spec: StepperConfig;
@@ -63,9 +65,23 @@ export function planReference(spec: StepperConfig, requestedDt: number, duration
   return { spec, dt: duration / (2 * half), steps: 2 * half, duration };
 }
 
-export function referenceKey(built: BuiltScenario, plan: ReferencePlan): string {
+/**
+ * Cache key of a reference run: the physics, the stepper, Δt, the number of steps, the initial state and the
+ * identity of the solver code (`solver`, e.g. the package version and a hash of the solver's source), so that a
+ * reference computed by other code is never looked up.
+ */
+export function referenceKey(built: BuiltScenario, plan: ReferencePlan, solver = ""): string {
   const { label: _label, ...spec } = plan.spec;
-  return contentHash("stepwell-reference-v1", physicsContent(built), spec, plan.dt, plan.steps, built.initial);
+  return contentHash("stepwell-reference-v2", solver, physicsContent(built), spec, plan.dt, plan.steps, built.initial);
+}
+
+/**
+ * Checksum of everything a reference record holds (state included), stored with a cached copy and verified when
+ * it is read back, so that a damaged or edited copy is recomputed instead of used.
+ */
+export function referenceChecksum(r: ReferenceRecord): string {
+  const { state, ...meta } = r;
+  return contentHash("stepwell-reference-checksum-v1", meta, state.length, state);
 }
 
 /**
@@ -73,8 +89,8 @@ export function referenceKey(built: BuiltScenario, plan: ReferencePlan): string 
  * method at twice the Δt to estimate the reference's own error (the floor below which sweep errors mean nothing).
  */
 export function referenceRun(built: BuiltScenario, plan: ReferencePlan, cache: ReferenceCache = referenceCache,
-  tracker?: StudyTracker): ReferenceRecord {
-  const key = referenceKey(built, plan);
+  tracker?: StudyTracker, solver = ""): ReferenceRecord {
+  const key = referenceKey(built, plan, solver);
   const hit = cache.get(key);
   if (hit) {
     if (tracker) tracker.done += 2;
@@ -85,7 +101,7 @@ export function referenceRun(built: BuiltScenario, plan: ReferencePlan, cache: R
   const advanceAll = (steps: number, what: string) => {
     const chunk = Math.max(1, Math.ceil(steps / 50));
     while (run.steps < steps) {
-      if (!run.advance(Math.min(chunk, steps - run.steps))) {
+      if (!advanceSteps(run, Math.min(chunk, steps - run.steps), tracker)) {
         const u = run.unstable!;
         throw new SolverError("bad-input", `--reference-dt: the ${what} (${label}, Δt = ${run.dt} s) became unstable at step ${u.step}: ${u.reason}; choose a smaller reference Δt`, "--reference-dt");
       }
@@ -105,7 +121,7 @@ export function referenceRun(built: BuiltScenario, plan: ReferencePlan, cache: R
   const { errors } = stateErrors(built.model, run.state, state, built.model.restState());
   const f = 2 ** order - 1;
   const record: ReferenceRecord = {
-    key, method: plan.spec.method, label, spec: plan.spec, dt: plan.dt, steps: plan.steps, duration: plan.duration,
+    key, solver, method: plan.spec.method, label, spec: plan.spec, dt: plan.dt, steps: plan.steps, duration: plan.duration,
     floor: { ssh: errors.ssh / f, thickness: errors.thickness / f, velocity: errors.velocity / f }, order, state,
   };
   cache.set(key, record);

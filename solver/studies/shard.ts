@@ -37,6 +37,8 @@ export interface PartHeader {
   nItems: number;
   /** The items (indices into the full work list) this part holds, ascending. */
   items: number[];
+  /** Present on a slice that was stopped before it finished (it then holds only the items it finished); `merge` refuses it. */
+  status?: "interrupted";
 }
 
 /** Check a set of parts: same kind, same study, every slice once, every item once. Returns them sorted by slice. */
@@ -45,6 +47,11 @@ export function checkParts<P extends PartHeader>(parts: readonly P[], kind: stri
   parts.forEach((p, i) => {
     if (!p || typeof p !== "object" || p.kind !== kind || !Array.isArray(p.items) || !p.shard) {
       throw new SolverError("bad-input", `PARTS: part ${i + 1} is not a ${kind} partial result (written with --shard)`, "PARTS");
+    }
+  });
+  parts.forEach((p, i) => {
+    if (p.status === "interrupted") {
+      throw new SolverError("bad-input", `PARTS: part ${i + 1} (slice ${p.shard.index}/${p.shard.count}) was interrupted after ${p.items.length} of its work items; run that slice again`, "PARTS");
     }
   });
   const first = parts[0];

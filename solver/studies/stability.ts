@@ -1,10 +1,11 @@
 import { SolverError } from "../errors.js";
+import { checkRunLength, checkStepCount, LIMITS, withLimits } from "../scenario/limits.js";
 import { Run } from "../driver/run.js";
 import type { BuiltScenario } from "../scenario/build.js";
 import type { StepperSpec } from "../scenario/schema.js";
-import { getMethod } from "../time/registry.js";
+import { definitionOf } from "../time/registry.js";
 import { seededRandom } from "../mesh/hexLattice.js";
-import { defaultLabel, StudyTracker, type StudyHooks } from "./common.js";
+import { advanceSteps, defaultLabel, isCancellation, StudyInterrupted, StudyTracker, type StudyHooks } from "./common.js";
 import { contentHash } from "./hash.js";
 import { physicsContent } from "./reference.js";
 import { checkParts, shardItems, type PartHeader, type Shard } from "./shard.js";
@@ -25,6 +26,8 @@ export interface StabilityOptions {
   startDt?: number;
   /** At most this many doublings or halvings while bracketing (default 12). */
   maxBracketSteps?: number;
+  /** Steps of one trial at most (default LIMITS.steps); halving stops before a trial would need more. */
+  maxSteps?: number;
   /**
    * Seeded grid-scale noise added to every layer thickness before the trials, as a fraction of the layer's
    * nominal thickness (default 1e-6; 0 = none). A smooth initial state barely projects on the fastest grid
@@ -72,6 +75,7 @@ export interface ResolvedStabilityOptions {
   startDt?: number;
   maxBracketSteps: number;
   perturbation: number;
+  maxSteps: number;
 }
 
 export function resolveStabilityOptions(run: Run, o: StabilityOptions = {}): ResolvedStabilityOptions {
@@ -84,7 +88,12 @@ export function resolveStabilityOptions(run: Run, o: StabilityOptions = {}): Res
     startDt: o.startDt,
     maxBracketSteps: o.maxBracketSteps ?? 12,
     perturbation: o.perturbation ?? 1e-6,
+    maxSteps: o.maxSteps ?? LIMITS.steps,
   };
+  const limits = withLimits({ steps: r.maxSteps });
+  if (r.duration > limits.duration) checkRunLength(r.duration, 1, limits, "--duration", "--duration");
+  if (!(r.minSteps <= r.maxSteps)) checkStepCount(r.minSteps, limits, "--min-steps");
+  if (r.startDt !== undefined && r.startDt > 0) checkRunLength(r.duration, r.startDt, limits, "--duration", "--start-dt");
   if (!(r.perturbation >= 0 && r.perturbation < 0.1)) throw new SolverError("bad-input", `--perturbation: must lie in [0, 0.1), got ${r.perturbation}`, "--perturbation");
   if (!(r.duration > 0 && Number.isFinite(r.duration))) throw new SolverError("bad-input", `--duration: must be > 0, got ${r.duration}`, "--duration");
   if (!(r.tolerance > 0 && r.tolerance < 1)) throw new SolverError("bad-input", `--tolerance: the relative tolerance of the limit must lie in (0, 1), got ${r.tolerance}`, "--tolerance");
@@ -118,11 +127,12 @@ export class EnergyScale {
     }
   }
 
-  /** S for a trial that ends at time t. */
-  at(t: number): number {
+  /** S for a trial that ends at time t (throws a cancellation if the tracker asks to stop while the base run advances). */
+  at(t: number, tracker?: StudyTracker): number {
     const b = this.base;
     if (b) {
       while (b.time < t * (1 - 1e-12) && !this.baseFailed) {
+        tracker?.checkpoint();
         if (!b.advance(1)) { this.baseFailed = true; break; }
         const e = b.budget().energy;
         if (e > this.maxE) this.maxE = e;
@@ -136,17 +146,17 @@ const pretty = (v: number, d = 3) => (Math.abs(v) >= 1e4 || (v !== 0 && Math.abs
 
 /** One trial: run `spec` at Δt for the simulated length and judge it. The run is reset first. */
 export function stabilityTrial(run: Run, scale: EnergyScale, config: StepperConfig, dt: number, o: ResolvedStabilityOptions,
-  within?: (fraction: number) => void): StabilityTrial {
+  within?: (fraction: number) => void, tracker?: StudyTracker): StabilityTrial {
   run.setStepper({ ...config, dt } as StepperSpec, "--method");
   run.reset();
   const limit = run.rk4DtLimit();
   const steps = Math.max(Math.ceil(o.duration / dt - 1e-9), o.minSteps);
-  const S = scale.at(steps * dt);
+  const S = scale.at(steps * dt, tracker);
   const chunk = Math.max(1, Math.ceil(steps / 20));
   let maxE = run.budget().energy;
   const base = { dt, ratioToRk4: dt / limit };
   while (run.steps < steps) {
-    const ok = run.advance(Math.min(chunk, steps - run.steps));
+    const ok = advanceSteps(run, Math.min(chunk, steps - run.steps), tracker);
     if (!ok) {
       const u = run.unstable!;
       return { ...base, outcome: "unstable", reason: `step ${u.step} (t = ${pretty(u.time)} s): ${u.reason}`, steps: run.steps, simulatedSeconds: run.time, energyGrowth: null };
@@ -181,14 +191,14 @@ export function expectedTrials(o: ResolvedStabilityOptions): number {
  */
 export function stabilitySearch(run: Run, scale: EnergyScale, config: StepperConfig, o: ResolvedStabilityOptions,
   tracker?: StudyTracker): StabilityResult {
-  const entry = getMethod(config.method, "--method");
+  const entry = definitionOf(config, "--method");
   const limit = run.rk4DtLimit();
   const label = config.label ?? defaultLabel(config);
   const trials: StabilityTrial[] = [];
   const trial = (dt: number): boolean => {
     tracker?.checkpoint();
     tracker?.report(`${label} Δt = ${pretty(dt)} s`);
-    const t = stabilityTrial(run, scale, config, dt, o, (f) => tracker?.report(`${label} Δt = ${pretty(dt)} s`, f));
+    const t = stabilityTrial(run, scale, config, dt, o, (f) => tracker?.report(`${label} Δt = ${pretty(dt)} s`, f), tracker);
     trials.push(t);
     if (tracker) tracker.done++;
     return t.outcome === "stable";
@@ -204,7 +214,7 @@ export function stabilitySearch(run: Run, scale: EnergyScale, config: StepperCon
     }
   } else {
     hi = start;
-    for (let k = 0; k < o.maxBracketSteps && lo === 0; k++) {
+    for (let k = 0; k < o.maxBracketSteps && lo === 0 && o.duration / (hi / 2) <= o.maxSteps; k++) {
       const dt = hi / 2;
       if (trial(dt)) lo = dt; else hi = dt;
     }
@@ -242,7 +252,11 @@ export function perturbedScenario(built: BuiltScenario, amplitude: number, seed 
   return { ...built, initial };
 }
 
-/** Stability searches for several steppers on one scenario, sharing the run and the energy scale. */
+/**
+ * Stability searches for several steppers on one scenario, sharing the run and the energy scale. Stopped through
+ * the hooks, it throws `StudyInterrupted` whose `partial` holds the searches that finished (a search cut short
+ * is left out: its bracket is not a result).
+ */
 export function stabilityStudy(original: BuiltScenario, configs: readonly StepperConfig[], options: StabilityOptions = {},
   hooks: StudyHooks = {}, field = "--method"): StabilityResult[] {
   if (!configs.length) throw new SolverError("bad-input", "--method: give at least one method", "--method");
@@ -254,10 +268,15 @@ export function stabilityStudy(original: BuiltScenario, configs: readonly Steppe
   const scale = new EnergyScale(built);
   const tracker = new StudyTracker(hooks, configs.length * expectedTrials(o));
   const out: StabilityResult[] = [];
-  configs.forEach((c, i) => {
-    out.push(stabilitySearch(run, scale, c, o, tracker));
-    tracker.total = Math.max(tracker.done + (configs.length - i - 1) * expectedTrials(o), tracker.done);
-  });
+  try {
+    configs.forEach((c, i) => {
+      out.push(stabilitySearch(run, scale, c, o, tracker));
+      tracker.total = Math.max(tracker.done + (configs.length - i - 1) * expectedTrials(o), tracker.done);
+    });
+  } catch (e) {
+    if (isCancellation(e)) throw new StudyInterrupted(out, out.length, configs.length);
+    throw e;
+  }
   tracker.report("done");
   return out;
 }
@@ -286,8 +305,17 @@ export function runStability(built: BuiltScenario, configs: readonly StepperConf
   if (!o.shard) return stabilityStudy(built, configs, options, o, field);
   const items = shardItems(configs.length, o.shard);
   const study = contentHash("stepwell-stability-v1", physicsContent(built), configs, resolved, built.initial);
-  const results = items.length ? stabilityStudy(built, items.map((k) => configs[k]), options, o, field) : [];
-  return { kind: "stepwell-stability-part", version: 1, study, shard: o.shard, nItems: configs.length, items, results };
+  const header = { kind: "stepwell-stability-part" as const, version: 1 as const, study, shard: o.shard, nItems: configs.length };
+  let results: StabilityResult[];
+  try {
+    results = items.length ? stabilityStudy(built, items.map((k) => configs[k]), options, o, field) : [];
+  } catch (e) {
+    if (!(e instanceof StudyInterrupted)) throw e;
+    const done = e.partial as StabilityResult[];
+    // an interrupted slice records only the items it finished and is marked so that `merge` refuses it
+    throw new StudyInterrupted<StabilityPart>({ ...header, status: "interrupted", items: items.slice(0, done.length), results: done }, done.length, items.length);
+  }
+  return { ...header, items, results };
 }
 
 /** Join stability slices into the unsharded list of results (in the order the steppers were given). */

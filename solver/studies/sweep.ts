@@ -1,10 +1,11 @@
 import { SolverError } from "../errors.js";
+import { checkListLength, checkRunLength, LIMITS, type Limits } from "../scenario/limits.js";
 import { execute } from "../driver/execute.js";
 import { Run } from "../driver/run.js";
 import type { BuiltScenario } from "../scenario/build.js";
 import type { StepperSpec } from "../scenario/schema.js";
-import { getMethod } from "../time/registry.js";
-import { defaultLabel, StudyTracker, type StudyHooks } from "./common.js";
+import { definitionOf } from "../time/registry.js";
+import { defaultLabel, isCancellation, StudyInterrupted, StudyTracker, type StudyHooks } from "./common.js";
 import { canonicalJson, contentHash } from "./hash.js";
 import { ERROR_COMPONENTS, stateErrors, type ErrorComponent, type LayerErrors, type StateErrors } from "./metrics.js";
 import { fitOrder, type OrderFit } from "./orders.js";
@@ -34,6 +35,8 @@ export interface SweepDefinition {
   maxError?: number;
   /** Name of the argument the steppers came from, for error messages (default "--methods"). */
   field?: string;
+  /** Bounds on the study (default LIMITS): steppers, Δt values, steps of every run including the reference. */
+  limits?: Limits;
 }
 
 /** Everything a sweep's rows and fits depend on, JSON-safe; shards carry it so that merge can finish the study. */
@@ -51,6 +54,8 @@ export interface SweepPlan {
   maxError: number;
   nItems: number;
   study: string;
+  /** What the plan changed of what was asked for (a Δt clamped to the duration or rounded to whole steps), one line each. */
+  warnings: string[];
 }
 
 export interface SweepRow {
@@ -60,7 +65,11 @@ export interface SweepRow {
   status: "completed" | "unstable" | "cancelled";
   error: { ssh: number | null; thickness: number | null; velocity: number | null };
   massDrift: number;
-  energyDrift: number;
+  /** Max relative energy drift; null (with energyDriftReason) for a forced or damped run, or one without energy. */
+  energyDrift: number | null;
+  energyDriftReason?: string;
+  /** Energy-budget residual relative to the largest budget term (null for a run without forcing or dissipation: see energyDrift). */
+  energyResidual: number | null;
   wallSeconds: number;
   rhsEvaluations: number;
   matvecs: number;
@@ -105,6 +114,9 @@ export interface WorkPrecision {
 
 export interface SweepResult {
   kind: "stepwell-sweep";
+  status: "completed";
+  /** The plan's warnings (see `SweepPlan.warnings`). */
+  warnings: string[];
   study: string;
   scenario: string;
   duration: number;
@@ -122,6 +134,28 @@ export interface SweepPart extends PartHeader {
   rows: SweepRow[];
 }
 
+/** What a stopped sweep (or slice) had finished: the rows of `items`, in order; no fits (they would rest on part of the rows). */
+export interface InterruptedSweep {
+  kind: "stepwell-sweep" | "stepwell-sweep-part";
+  status: "interrupted";
+  study: string;
+  scenario: string;
+  shard?: Shard;
+  version?: 1;
+  nItems: number;
+  /** The work items finished, in the order they ran. */
+  items: number[];
+  warnings: string[];
+  plan: SweepPlan;
+  /** null if the reference run itself was stopped. */
+  reference: ReferenceSummary | null;
+  rows: SweepRow[];
+}
+
+/** Relative change of Δt beyond which rounding to whole steps is reported (smaller changes are the usual rounding). */
+const ROUNDING_WARNING = 0.01;
+const sig = (v: number) => Number(v.toPrecision(4));
+
 const listField = (d: SweepDefinition) => (d.dts ? "--dts" : "--dt-factors");
 
 /** Resolve a definition on a scenario: labels, the Δt actually used (the duration over a whole number of steps), the reference. */
@@ -136,14 +170,20 @@ export function planSweep(built: BuiltScenario, def: SweepDefinition): SweepPlan
   if (!raw.length || !raw.every((v) => typeof v === "number" && v > 0 && Number.isFinite(v))) {
     throw new SolverError("bad-input", `${field}: must be a comma-separated list of positive numbers`, field);
   }
-  const probe = new Run(built, { method: "rk4", dt: 1 });
-  const limit = probe.rk4DtLimit();
+  const limits = def.limits ?? LIMITS;
+  checkListLength(def.steppers.length, "studyMethods", limits, sf);
+  checkListLength(raw.length, "studyDts", limits, field);
   const duration = def.duration ?? built.scenario.duration;
   if (!(duration > 0 && Number.isFinite(duration))) throw new SolverError("bad-input", `--duration: must be > 0, got ${duration}`, "--duration");
+  const durationField = def.duration !== undefined ? "--duration" : "duration";
+  if (def.dts) for (const d of def.dts) checkRunLength(duration, d, limits, durationField, field);
+  const probe = new Run(built, { method: "rk4", dt: 1 });
+  const limit = probe.rk4DtLimit();
+  if (def.dtFactors) for (const f of def.dtFactors) checkRunLength(duration, f * limit, limits, durationField, field);
   const labels = new Set<string>();
   const steppers = def.steppers.map((s, i) => {
     const f = def.steppers.length > 1 || sf === "--steppers" ? `${sf}[${i}]` : sf;
-    getMethod(s.method, `${f}.method`);
+    definitionOf(s, f);
     probe.setStepper({ ...s, dt: 1 } as StepperSpec, f);
     const label = s.label ?? defaultLabel(s);
     if (labels.has(label)) throw new SolverError("bad-input", `${f}: the label "${label}" is used twice; give each stepper its own label`, f);
@@ -153,17 +193,34 @@ export function planSweep(built: BuiltScenario, def: SweepDefinition): SweepPlan
   });
   const requested = raw.map((v) => (def.dts ? v : v * limit));
   const seen = new Set<number>();
-  const dts = requested.map((r) => {
+  const warnings: string[] = [];
+  const clamped: string[] = [];
+  const rounded: string[] = [];
+  const dts = requested.map((r, i) => {
     const steps = Math.max(1, Math.round(duration / r));
     if (seen.has(steps)) throw new SolverError("bad-input", `${field}: two entries give the same ${steps} steps over ${duration} s; the list needs distinct Δt`, field);
     seen.add(steps);
-    return { requested: r, dt: duration / steps, steps };
+    const dt = duration / steps;
+    const asked = def.dts ? `${sig(r)} s` : `${sig(raw[i])} × RK4 limit = ${sig(r)} s`;
+    if (r > duration) clamped.push(asked);
+    else if (Math.abs(dt - r) > ROUNDING_WARNING * r) rounded.push(`${asked} → ${sig(dt)} s (${steps} steps)`);
+    return { requested: r, dt, steps };
   });
+  if (clamped.length) {
+    warnings.push(`${field}: ${clamped.join(", ")} ${clamped.length > 1 ? "are" : "is"} longer than the duration (${sig(duration)} s); ` +
+      `${clamped.length > 1 ? "each runs" : "it runs"} as one step of ${sig(duration)} s`);
+  }
+  if (rounded.length) warnings.push(`${field}: Δt changed by more than ${ROUNDING_WARNING * 100}% to end exactly at the duration (${sig(duration)} s): ${rounded.join(", ")}`);
   const refSpec: StepperConfig = def.referenceSpec ?? { method: "rk4" };
-  getMethod(refSpec.method, "--reference-method");
+  definitionOf(refSpec, "--reference-method");
   probe.setStepper({ ...refSpec, dt: 1 } as StepperSpec, "--reference-method");
   const minDt = Math.min(...dts.map((d) => d.dt));
-  const reference = planReference(refSpec, def.referenceDt ?? Math.min(minDt / 4, limit / 2), duration);
+  const refDt = def.referenceDt ?? Math.min(minDt / 4, limit / 2);
+  checkRunLength(duration, refDt, limits, durationField, def.referenceDt !== undefined ? "--reference-dt" : `${field} (the reference run at a quarter of the smallest Δt)`);
+  const reference = planReference(refSpec, refDt, duration);
+  if (def.referenceDt !== undefined && Math.abs(reference.dt - def.referenceDt) > ROUNDING_WARNING * def.referenceDt) {
+    warnings.push(`--reference-dt: ${sig(def.referenceDt)} s changed to ${sig(reference.dt)} s (${reference.steps} steps, an even number ending exactly at the duration ${sig(duration)} s)`);
+  }
   const component = def.component ?? "thickness";
   if (!ERROR_COMPONENTS.includes(component)) throw new SolverError("bad-input", `--error: must be one of ${ERROR_COMPONENTS.join(", ")}`, "--error");
   const tolerance = def.tolerance ?? 1e-3;
@@ -175,16 +232,16 @@ export function planSweep(built: BuiltScenario, def: SweepDefinition): SweepPlan
   const nItems = steppers.length * dts.length;
   const body = { scenario: built.scenario.name, duration, rk4DtLimit: limit, steppers, dts, reference, component, tolerance, matvecWeight, floorFactor, maxError, nItems };
   const study = contentHash("stepwell-sweep-v1", physicsContent(built), body, built.initial);
-  return { ...body, study };
+  return { ...body, study, warnings };
 }
 
 const finiteOr = (v: number): number | null => (Number.isFinite(v) ? v : null);
 
 /** Run the work items of a plan (item k = stepper ⌊k / nΔt⌋ at Δt k mod nΔt). Each run starts fresh, so any subset gives the same rows. */
-export function sweepRows(built: BuiltScenario, plan: SweepPlan, ref: ReferenceRecord, items: readonly number[], tracker: StudyTracker): SweepRow[] {
+export function sweepRows(built: BuiltScenario, plan: SweepPlan, ref: ReferenceRecord, items: readonly number[], tracker: StudyTracker,
+  rows: SweepRow[] = []): SweepRow[] {
   const run = new Run(built, { ...plan.steppers[0].spec, dt: plan.dts[0].dt } as StepperSpec);
   const rest = built.model.restState();
-  const rows: SweepRow[] = [];
   for (const k of items) {
     const s = plan.steppers[Math.floor(k / plan.dts.length)];
     const d = plan.dts[k % plan.dts.length];
@@ -193,7 +250,9 @@ export function sweepRows(built: BuiltScenario, plan: SweepPlan, ref: ReferenceR
     tracker.report(item);
     run.setStepper({ ...s.spec, dt: d.dt } as StepperSpec, "--methods");
     run.reset();
-    const r = execute(run, { steps: d.steps, clock: tracker.clock, onProgress: ({ fraction }) => { tracker.report(item, fraction); } });
+    // progress after every step, so that a stop request is seen within one step
+    const r = execute(run, { steps: d.steps, chunk: 1, clock: tracker.clock, onProgress: ({ fraction }) => { tracker.report(item, fraction); return !tracker.stopRequested; } });
+    if (r.status === "cancelled") throw new SolverError("cancelled", "sweep cancelled");
     const ok = r.status === "completed";
     const e = ok ? stateErrors(built.model, run.state, ref.state, rest) : null;
     const cErr = e ? e.errors[plan.component] : NaN;
@@ -202,6 +261,8 @@ export function sweepRows(built: BuiltScenario, plan: SweepPlan, ref: ReferenceR
       label: s.label, method: s.spec.method, dt: d.dt, status: r.status,
       error: { ssh: e ? finiteOr(e.errors.ssh) : null, thickness: e ? finiteOr(e.errors.thickness) : null, velocity: e ? finiteOr(e.errors.velocity) : null },
       massDrift: r.mass.maxRelativeDrift, energyDrift: r.energy.maxRelativeDrift,
+      ...(r.energy.reason ? { energyDriftReason: r.energy.reason } : {}),
+      energyResidual: r.energy.relativeBudgetResidual,
       wallSeconds: r.wallSeconds, rhsEvaluations: r.rhsEvaluations, matvecs: r.matvecs,
       requestedDt: d.requested, dtRatioToRk4: d.dt / plan.rk4DtLimit, steps: r.steps,
       cost: r.rhsEvaluations + plan.matvecWeight * r.matvecs,
@@ -247,7 +308,7 @@ export function finishSweep(plan: SweepPlan, reference: ReferenceSummary, rows: 
     }
   }
   return {
-    kind: "stepwell-sweep", study: plan.study, scenario: plan.scenario, duration: plan.duration, rk4DtLimit: plan.rk4DtLimit,
+    kind: "stepwell-sweep", status: "completed", warnings: [...(plan.warnings ?? [])], study: plan.study, scenario: plan.scenario, duration: plan.duration, rk4DtLimit: plan.rk4DtLimit,
     reference, rows, orders,
     workPrecision: { tolerance: plan.tolerance, component: plan.component, matvecWeight: plan.matvecWeight, rk4AtLimit, best, cheapestByLabel },
   };
@@ -256,17 +317,35 @@ export function finishSweep(plan: SweepPlan, reference: ReferenceSummary, rows: 
 export interface SweepRunOptions extends StudyHooks {
   cache?: ReferenceCache;
   shard?: Shard;
+  /** Identity of the solver code, part of the reference's cache key (see `referenceKey`). */
+  solver?: string;
 }
 
-/** A whole sweep (or one slice of it, as a partial result for `mergeSweepParts`). */
+/**
+ * A whole sweep (or one slice of it, as a partial result for `mergeSweepParts`). The plan's warnings go to
+ * `onWarning` before any work. Stopped through the hooks, it throws `StudyInterrupted<InterruptedSweep>`.
+ */
 export function runSweep(built: BuiltScenario, def: SweepDefinition, o: SweepRunOptions & { shard: Shard }): SweepPart;
 export function runSweep(built: BuiltScenario, def: SweepDefinition, o?: SweepRunOptions): SweepResult;
 export function runSweep(built: BuiltScenario, def: SweepDefinition, o: SweepRunOptions = {}): SweepResult | SweepPart {
   const plan = planSweep(built, def);
   const items = o.shard ? shardItems(plan.nItems, o.shard) : Array.from({ length: plan.nItems }, (_, k) => k);
   const tracker = new StudyTracker(o, items.length + 2);
-  const ref = referenceRun(built, plan.reference, o.cache ?? referenceCache, tracker);
-  const rows = sweepRows(built, plan, ref, items, tracker);
+  for (const w of plan.warnings) tracker.warn(w);
+  const rows: SweepRow[] = [];
+  let ref: ReferenceRecord | null = null;
+  try {
+    ref = referenceRun(built, plan.reference, o.cache ?? referenceCache, tracker, o.solver);
+    sweepRows(built, plan, ref, items, tracker, rows);
+  } catch (e) {
+    if (!isCancellation(e)) throw e;
+    const partial: InterruptedSweep = {
+      kind: o.shard ? "stepwell-sweep-part" : "stepwell-sweep", status: "interrupted", study: plan.study, scenario: plan.scenario,
+      ...(o.shard ? { shard: o.shard, version: 1 as const } : {}), nItems: plan.nItems, items: items.slice(0, rows.length), warnings: plan.warnings, plan,
+      reference: ref ? summarizeReference(ref) : null, rows,
+    };
+    throw new StudyInterrupted(partial, rows.length, items.length);
+  }
   tracker.report("done");
   const reference = summarizeReference(ref);
   if (!o.shard) return finishSweep(plan, reference, rows);

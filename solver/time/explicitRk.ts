@@ -1,7 +1,7 @@
 import { SolverError } from "../errors.js";
 import type { StepperDefinition } from "./interface.js";
 import type { ButcherTableau } from "./tableaux.js";
-import { axpy } from "./types.js";
+import { axpy } from "../linalg/vector.js";
 
 /** Invariants the engine relies on; checked when a stepper is built, never per step. */
 export function checkTableau(t: ButcherTableau, field = "stepper.tableau", tol = 1e-12): void {

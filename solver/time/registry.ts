@@ -87,6 +87,12 @@ export function rk4ImaginaryBound(): number {
   return getMethod("rk4").imaginaryAxisBound!;
 }
 
+/** The definition a spec names: its loaded user module, or the registered method. */
+export function definitionOf(spec: { method?: unknown; module?: unknown }, field = "stepper"): StepperDefinition {
+  if (typeof spec.module === "string") return moduleDefinition(spec.module, `${field}.module`).definition;
+  return getMethod(String(spec.method), `${field}.method`);
+}
+
 export interface CreateStepperOptions {
   /** Field prefix for messages (default "stepper"). */
   field?: string;

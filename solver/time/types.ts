@@ -28,8 +28,3 @@ export interface Stepper {
   /** What `create` returned (built-ins may carry extra read-only fields, e.g. the split-explicit sub-step count). */
   readonly instance: StepperInstance;
 }
-
-/** y += a x (BLAS argument order). */
-export function axpy(a: number, x: Float64Array, y: Float64Array): void {
-  for (let i = 0, n = y.length; i < n; i++) y[i] += a * x[i];
-}

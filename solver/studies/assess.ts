@@ -1,0 +1,148 @@
+/**
+ * `assess`: a stepper's report card in one call, built from the other studies.
+ *   1. observed order: a short sweep on a smooth scenario against a fine RK4 reference (cached), next to the
+ *      declared order;
+ *   2. largest stable Δt on the scenario (the stability search) and its ratio to the RK4 limit;
+ *   3. layer-volume and energy drift over a run at 0.8 of that Δt;
+ *   4. wall time per simulated day at that Δt against RK4 at its limit, measured in the same process, and
+ *      tendency evaluations, matvecs and inner products per step.
+ * Pure: no I/O, a clock and progress callback from the caller.
+ */
+import { SolverError } from "../errors.js";
+import { execute, type RunResult } from "../driver/execute.js";
+import { Run } from "../driver/run.js";
+import type { BuiltScenario } from "../scenario/build.js";
+import type { StepperSpec } from "../scenario/schema.js";
+import { definitionOf } from "../time/registry.js";
+import { StudyTracker, type StudyHooks, type StudyProgress } from "./common.js";
+import { runStability, type StabilityOptions, type StepperConfig } from "./stability.js";
+import { runSweep } from "./sweep.js";
+import type { ReferenceCache } from "./reference.js";
+
+export interface AssessOptions extends StudyHooks {
+  /** A smooth scenario for the order measurement (the CLI uses the built-in ring-wave). */
+  orderScenario: BuiltScenario;
+  /** Multiples of the order scenario's RK4 limit for the order sweep (default 0.4, 0.2, 0.1, 0.05). */
+  orderDtFactors?: readonly number[];
+  /** Length of each order-sweep run [s] (default 1200). */
+  orderDuration?: number;
+  /** Options of the stability search. */
+  stability?: StabilityOptions;
+  /** Length of the conservation and cost runs [s] (default: the scenario's duration). */
+  duration?: number;
+  /** Reference cache of the order sweep, and the solver identity in its keys. */
+  cache?: ReferenceCache;
+  solver?: string;
+}
+
+export interface AssessReport {
+  kind: "stepwell-assess";
+  scenario: string;
+  stepper: { name: string; label: string; declaredOrder: number };
+  order: { observed: number | null; range: [number, number] | null; scenario: string; points: { dt: number; error: number | null; status: string }[]; reason?: string };
+  stability: { maxStableDt: number; ratioToRk4: number; rk4DtLimit: number; bracketed: boolean };
+  conservation: { dt: number; steps: number; status: string; massDrift: number; energyDrift: number | null; energyNote?: string };
+  cost: {
+    dt: number; secondsPerSimDay: number; rk4SecondsPerSimDay: number; rk4Dt: number; speedup: number;
+    rhsPerStep: number; matvecsPerStep: number; innerProductsPerStep: number;
+  };
+  verdicts: { order: string; stability: string; mass: string; energy: string; cost: string };
+}
+
+const sig = (v: number, d = 3) => Number(v.toPrecision(d));
+
+/** Energy drift of a run, or its energy-budget residual when the run is forced or dissipative. */
+function energyFigure(r: RunResult): { value: number | null; note?: string } {
+  const e = r.energy as { maxRelativeDrift: number | null; reason?: string };
+  if (e.maxRelativeDrift !== null && e.maxRelativeDrift !== undefined) return { value: e.maxRelativeDrift };
+  const b = (r as unknown as { energyBudget?: { relativeResidual?: number } }).energyBudget;
+  if (b && typeof b.relativeResidual === "number") return { value: b.relativeResidual, note: "forced or damped run: relative energy-budget residual" };
+  return { value: null, note: e.reason ?? "not defined for this run" };
+}
+
+export function assess(built: BuiltScenario, config: StepperConfig, o: AssessOptions): AssessReport {
+  const def = definitionOf(config, "stepper");
+  const probe = new Run(built, { ...config, dt: 1 } as StepperSpec); // validates options before any work
+  const label = probe.stepper.label;
+  const declaredOrder = def.order;
+  const hooks = o;
+  // progress: 4 phases with nominal weights (order sweep 25%, stability 50%, conservation 15%, RK4 cost 10%)
+  const phase = (start: number, width: number, name: string) => (p: StudyProgress) =>
+    hooks.onProgress?.({ fraction: start + width * p.fraction, done: 0, total: 1, item: `${name}: ${p.item}` });
+  const tracker = new StudyTracker(hooks, 1);
+
+  // 1. order
+  const factors = o.orderDtFactors ?? [0.4, 0.2, 0.1, 0.05];
+  const sweep = runSweep(o.orderScenario, {
+    steppers: [{ ...config, label: def.name }], dtFactors: factors, duration: o.orderDuration ?? 1200, field: "stepper",
+  }, { clock: o.clock, onProgress: phase(0, 0.25, "order"), shouldCancel: o.shouldCancel, cache: o.cache, solver: o.solver });
+  const fit = sweep.orders[def.name];
+  const points = sweep.rows.map((r) => ({ dt: r.dt, error: r.error.thickness, status: r.status }));
+  const observed = fit && fit.order !== null && Number.isFinite(fit.order) ? fit.order : null;
+  const range = fit && fit.range ? (fit.range as [number, number]) : null;
+  tracker.checkpoint();
+
+  // 2. stability
+  const [stab] = runStability(built, [config], o.stability ?? {}, { clock: o.clock, onProgress: phase(0.25, 0.5, "stability"), shouldCancel: o.shouldCancel, field: "stepper" });
+  tracker.checkpoint();
+  if (!(stab.maxStableDt > 0)) {
+    throw new SolverError("bad-input", `stepper: no stable Δt found on ${built.scenario.name} (tried down to ${sig(Math.min(...stab.trials.map((t) => t.dt)))} s)`, "stepper");
+  }
+
+  // 3. conservation and cost at 0.8 of the largest stable Δt
+  const duration = o.duration ?? built.scenario.duration;
+  const dt = 0.8 * stab.maxStableDt;
+  const steps = Math.max(10, Math.round(duration / dt));
+  const run = new Run(built, { ...config, dt } as StepperSpec);
+  const stop = () => o.shouldCancel?.() === true;
+  const r = execute(run, { steps, chunk: 1, clock: o.clock, onProgress: ({ fraction }) => { phase(0.75, 0.15, "conservation")({ fraction, done: 0, total: 1, item: `${def.name} Δt = ${sig(dt)} s` }); return !stop(); } });
+  tracker.checkpoint();
+  const limit = run.rk4DtLimit();
+  const rk4Dt = 0.95 * limit;
+  const rk4Steps = Math.max(10, Math.min(Math.round((r.simulatedSeconds || duration) / rk4Dt), 20000));
+  const rk4 = execute(new Run(built, { method: "rk4", dt: rk4Dt }), { steps: rk4Steps, chunk: 1, clock: o.clock, onProgress: ({ fraction }) => { phase(0.9, 0.1, "RK4 cost")({ fraction, done: 0, total: 1, item: `rk4 Δt = ${sig(rk4Dt)} s` }); return !stop(); } });
+  tracker.checkpoint();
+  hooks.onProgress?.({ fraction: 1, done: 1, total: 1, item: "done" });
+
+  const perDay = (x: RunResult) => (x.simulatedSeconds > 0 ? (x.wallSeconds * 86400) / x.simulatedSeconds : NaN);
+  const spd = perDay(r), rk4Spd = perDay(rk4);
+  const energy = energyFigure(r);
+  const n = Math.max(1, r.steps);
+
+  const verdictOrder = observed === null
+    ? `order could not be fitted on ${o.orderScenario.scenario.name} (errors: ${points.map((p) => (p.error === null ? p.status : sig(p.error, 2))).join(", ")})`
+    : Math.abs(observed - declaredOrder) <= 0.3
+      ? `order ${sig(observed)}, as declared (${declaredOrder})`
+      : observed < declaredOrder
+        ? `order ${sig(observed)}: below the declared ${declaredOrder}`
+        : `order ${sig(observed)}: above the declared ${declaredOrder} on this problem`;
+  const ratio = stab.ratioToRk4;
+  const verdictStab = `largest stable Δt ${sig(stab.maxStableDt)} s = ${sig(ratio)}× the RK4 limit${stab.bracketed ? "" : " (at least: no unstable Δt was found)"}` +
+    (ratio < 0.999 ? "; less stable than RK4" : "");
+  const verdictMass = r.mass.maxRelativeDrift <= 1e-12
+    ? `layer volume kept to round-off (relative drift ${r.mass.maxRelativeDrift.toExponential(1)})`
+    : `mass drift ${r.mass.maxRelativeDrift.toExponential(1)}: this stepper does not conserve layer volume`;
+  const verdictEnergy = energy.value === null
+    ? `energy drift not defined: ${energy.note}`
+    : `${energy.note ? "energy-budget residual" : "energy drift"} ${energy.value.toExponential(1)} over ${r.steps} step${r.steps === 1 ? "" : "s"} at ${sig(dt)} s` +
+      (r.status !== "completed" ? ` (run ${r.status})` : "");
+  const speedup = rk4Spd / spd;
+  const verdictCost = !Number.isFinite(speedup)
+    ? "cost not measured (no clock)"
+    : speedup >= 1
+      ? `${sig(speedup, 2)}× faster than RK4 at its limit per simulated day (${sig(spd)} s against ${sig(rk4Spd)} s)`
+      : `${sig(1 / speedup, 2)}× slower than RK4 at its limit per simulated day (${sig(spd)} s against ${sig(rk4Spd)} s)`;
+
+  return {
+    kind: "stepwell-assess", scenario: built.scenario.name,
+    stepper: { name: def.name, label, declaredOrder },
+    order: { observed, range, scenario: o.orderScenario.scenario.name, points, ...(observed === null ? { reason: "no fit in the asymptotic range" } : {}) },
+    stability: { maxStableDt: stab.maxStableDt, ratioToRk4: ratio, rk4DtLimit: limit, bracketed: stab.bracketed },
+    conservation: { dt, steps: r.steps, status: r.status, massDrift: r.mass.maxRelativeDrift, energyDrift: energy.value, ...(energy.note ? { energyNote: energy.note } : {}) },
+    cost: {
+      dt, secondsPerSimDay: spd, rk4SecondsPerSimDay: rk4Spd, rk4Dt, speedup,
+      rhsPerStep: r.rhsEvaluations / n, matvecsPerStep: r.matvecs / n, innerProductsPerStep: r.innerProducts / n,
+    },
+    verdicts: { order: verdictOrder, stability: verdictStab, mass: verdictMass, energy: verdictEnergy, cost: verdictCost },
+  };
+}
