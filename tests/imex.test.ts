@@ -6,6 +6,8 @@ import { ARS232, ARS443, IMEX_TABLES, TRAPEZOIDAL, checkImexTable, type ImexTabl
 import type { Problem } from "../solver/time/interface";
 import type { ShallowWaterModel } from "../solver/model/shallowWater";
 import { problemFor } from "../solver/model/problem";
+import { luSolve } from "../solver/linalg/dense";
+import { weightedSkewOperator } from "./linalg/fixtures";
 import { createStepper } from "../solver/time/registry";
 
 const threeLayers = [{ thickness: 300, density: 1025 }, { thickness: 700, density: 1026.4 }, { thickness: 3000, density: 1027.6 }];
@@ -173,5 +175,60 @@ describe("IMEX steppers on a small 3-layer periodic mesh", () => {
     // products: 5 per step by the engine, one lift per solve, plus the substitutions and the one factorization
     const expected = 2 * 5 + 8 * (1 + solver.matvecsPerSolve) + solver.probeProducts + solver.matvecsPerFactorization;
     expect(st.stats.matvecs).toBeCloseTo(expected, 9);
+  });
+});
+
+describe("IMEX engine on a linear skew problem F(x) = A x (the slow part vanishes)", () => {
+  /** A Problem whose tendency is A x with A skew-adjoint in weights W, and dense shifted solves. */
+  function linearProblem(n: number, rho: number): { problem: Problem; energy: (x: Float64Array) => number } {
+    const fx = weightedSkewOperator(n, 9, rho, 0);
+    const a = fx.op.matrix, w = fx.weights;
+    const work = new Float64Array(n * n), piv = new Int32Array(n);
+    const counters = { tendencyEvaluations: 0, matvecs: 0, innerProducts: 0 };
+    const part = {
+      name: "rest", skew: true, spectralBound: rho, reformed: false,
+      apply: (out: Float64Array, x: Float64Array) => fx.op.apply(out, x),
+      linearize() {},
+      phi: () => { throw new Error("unused"); },
+      solve(out: Float64Array, b: Float64Array, gamma: number) {
+        for (let i = 0; i < n * n; i++) work[i] = (Math.floor(i / n) === i % n ? 1 : 0) - gamma * a[i];
+        out.set(b);
+        luSolve(work, out, n, 1, piv);
+      },
+    };
+    const problem: Problem = {
+      n, layout: { nLayers: 1, nCells: n, nEdges: 0, thicknessOffset: 0, uOffset: n, n }, counters,
+      newVector: () => new Float64Array(n),
+      tendency: (out, x) => fx.op.apply(out, x),
+      linear: () => part,
+      fastSlow: undefined as never,
+    };
+    return { problem, energy: (x) => x.reduce((s, xi, i) => s + w[i] * xi * xi, 0) };
+  }
+
+  it("imex-trapezoidal is Crank–Nicolson: the weighted energy is conserved to round-off at hρ = 100 (|R(iy)| = 1)", () => {
+    const { problem, energy } = linearProblem(40, 1);
+    const st = createImex(TRAPEZOIDAL, problem, { linear: "rest" }, "stepper");
+    const x = Float64Array.from({ length: 40 }, (_, i) => Math.sin(i + 1));
+    const e0 = energy(x);
+    for (let s = 0; s < 50; s++) st.step(x, 0, 100);
+    expect(Math.abs(energy(x) / e0 - 1)).toBeLessThan(1e-11);
+  });
+
+  it("the ARS methods damp at hρ = 100 (L-stable implicit parts) and never increase the energy", () => {
+    for (const t of [ARS232, ARS443]) {
+      const { problem, energy } = linearProblem(40, 1);
+      const st = createImex(t, problem, { linear: "rest" }, "stepper");
+      const x = Float64Array.from({ length: 40 }, (_, i) => Math.sin(i + 1));
+      let e = energy(x);
+      const e0 = e;
+      for (let s = 0; s < 20; s++) {
+        st.step(x, 0, 100);
+        const e1 = energy(x);
+        expect(e1).toBeLessThanOrEqual(e * (1 + 1e-12));
+        e = e1;
+      }
+      expect(e / e0, t.name).toBeLessThan(0.5);
+    }
   });
 });
