@@ -7,11 +7,11 @@
  * product (the linear wave operator). A diagonal similarity D (I − γK) D⁻¹ has the same LU pivots, and there the
  * symmetric part is I, positive definite; every leading principal submatrix of a matrix with positive definite
  * symmetric part is nonsingular, so LU without pivoting exists (Golub & Van Loan, Matrix Computations, 4th ed.
- * 2013, §4.4.1), with element growth bounded in terms of the skew part (ibid., Theorem 4.4.1). A symmetric
+ * 2013, §4.4), with element growth bounded in terms of the skew part (ibid.). A symmetric
  * permutation keeps that property, so any fill-reducing ordering may be used.
  *
  * Algorithm: elimination tree and row patterns by the up-looking method of Davis (Direct Methods for Sparse
- * Linear Systems, SIAM 2006, §4.1–4.7: etree, ereach, up-looking Cholesky), here with two value sets — the
+ * Linear Systems, SIAM 2006, ch. 4: etree, ereach, up-looking Cholesky), here with two value sets — the
  * strictly lower part L (unit diagonal, stored by columns) and the strictly upper part U (stored by rows, same
  * index pattern) — and the pivots D = diag(U). Ordering: nested dissection with breadth-first level-set
  * separators from a pseudo-peripheral node (George 1973, SIAM J. Numer. Anal. 10, 345–363; George & Liu,

@@ -4,8 +4,8 @@
  * first stage explicit in both (a_00 = 0), so a step starts from the state itself.
  *
  * Coefficients: ARS(2,3,2) and ARS(4,4,3) of Ascher, Ruuth & Spiteri, "Implicit–explicit Runge–Kutta methods
- * for time-dependent partial differential equations", Appl. Numer. Math. 25 (1997) 151–167, §2.5 and §2.8,
- * written from memory of the paper; the order conditions of both tableaux and the coupling conditions of the
+ * for time-dependent partial differential equations", Appl. Numer. Math. 25 (1997) 151–167, written
+ * from memory of the paper; the order conditions of both tableaux and the coupling conditions of the
  * pair (Kennedy & Carpenter, Appl. Numer. Math. 44 (2003) 139–181, §3) are checked in tests/imex.test.ts.
  */
 import { SolverError } from "../errors.js";
