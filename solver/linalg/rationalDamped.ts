@@ -54,10 +54,11 @@ function evenOdd(outE: Float64Array, outO: Float64Array, p: number, xi: number, 
 }
 
 export function rationalDampedPhi(op: LinearOperator, opts: PhiOptions): PhiAction {
+  const pf = opts.field ?? "phi";
   const maybeSolve = op.shiftedSolve?.bind(op);
-  if (!op.skew || !maybeSolve) throw new SolverError("bad-input", "stepper.backend: rational-damped needs a skew operator with shifted solves (linear rest or modes:N)", "stepper.backend");
+  if (!op.skew || !maybeSolve) throw new SolverError("bad-input", `${pf}.backend: rational-damped needs a skew operator with shifted solves (linear rest or modes:N)`, `${pf}.backend`);
   const f = opts.filter;
-  if (!f || !(f.cutoff > 0) || !Number.isFinite(f.cutoff)) throw new SolverError("bad-input", "stepper.filter.cutoff: rational-damped needs a cut-off frequency > 0 [1/s]", "stepper.filter.cutoff");
+  if (!f || !(f.cutoff > 0) || !Number.isFinite(f.cutoff)) throw new SolverError("bad-input", `${pf}.filter.cutoff: rational-damped needs a cut-off frequency > 0 [1/s]`, `${pf}.filter.cutoff`);
   const solve: (y: Float64Array, c: Float64Array, gamma: number) => void = maybeSolve;
   const n = op.n, P = opts.maxPhi, tol = opts.tol, w = op.weights;
   const order = f.order, strength = f.strength;
@@ -107,7 +108,7 @@ export function rationalDampedPhi(op: LinearOperator, opts: PhiOptions): PhiActi
   function apply(out: Float64Array, tau: number, v: readonly Float64Array[]): void {
     const mv0 = op.counters.matvecs;
     ips = 0;
-    if (v.length > P + 1) throw new SolverError("bad-input", `rational-damped: phi index ${v.length - 1} exceeds maxPhi ${P}`, "stepper.maxPhi");
+    if (v.length > P + 1) throw new SolverError("bad-input", `${pf}.maxPhi: rational-damped got phi index ${v.length - 1}, more than maxPhi ${P}`, `${pf}.maxPhi`);
     out.fill(0); oAcc.fill(0);
     let worst = 0, totalSteps = 0;
     stats.happyBreakdown = false;

@@ -123,8 +123,8 @@ describe("rational-damped φ backend (shift-and-invert Lanczos on (I − c²A²)
 
   it("refuses an operator without shifted solves, or a missing cut-off, naming the field", () => {
     const { op } = rotationOperator([1, 2], 1);
-    expect(() => rationalDampedPhi({ ...op, shiftedSolve: undefined }, { tol, maxPhi: 1, filter: { cutoff: 1, order, strength } })).toThrow(/stepper\.backend/);
-    expect(() => rationalDampedPhi(op, { tol, maxPhi: 1 })).toThrow(/stepper\.filter\.cutoff/);
+    expect(() => rationalDampedPhi({ ...op, shiftedSolve: undefined }, { tol, maxPhi: 1, filter: { cutoff: 1, order, strength }, field: "stepper" })).toThrow(/^stepper\.backend: /);
+    expect(() => rationalDampedPhi(op, { tol, maxPhi: 1, field: "stepper" })).toThrow(/^stepper\.filter\.cutoff: /);
   });
 });
 
