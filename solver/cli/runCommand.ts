@@ -102,7 +102,7 @@ export function runCommand(args: ParsedArgs, out: (s: string) => void, err: (s: 
     ["wall time", fmt(result.wallSeconds, "s", 3)],
     ["wall time per simulated day", fmt(result.simulatedSeconds > 0 ? (result.wallSeconds * 86400) / result.simulatedSeconds : NaN, "s", 3)],
     ["tendency evaluations", fmt(result.rhsEvaluations, "", 6)],
-    ["matvecs (per step)", `${result.matvecs} (${fmt(result.matvecsPerStep, "", 3)})`],
+    ["matvecs (per step)", `${fmt(result.matvecs, "", 6)} (${fmt(result.matvecsPerStep, "", 3)})`],
     ["inner products", String(result.innerProducts)],
     ["max relative mass drift", fmt(result.mass.maxRelativeDrift, "", 3)],
     ["energy initial → final", `${fmt(result.energy.initial * run.model.params.rho0, "J")} → ${fmt(result.energy.final * run.model.params.rho0, "J")}`],

@@ -70,8 +70,9 @@ function phiOptions(req: PhiRequest, bound: number | undefined, extraPhi: number
   const f = req.filter && typeof req.filter === "object" && "order" in req.filter ? req.filter : parsePhiFilter(req.filter, `${field}.filter`);
   let filter: PhiFilter | undefined;
   if (f) {
-    if (backend !== "chebyshev") throw new SolverError("bad-input", `${field}.filter: the filter works with backend chebyshev only, not "${backend}"`, `${field}.filter`);
-    filter = { cutoff: f.cutoff ?? bound ?? NaN, order: f.order, strength: f.strength ?? 36 };
+    if (backend !== "chebyshev" && backend !== "rational-damped") throw new SolverError("bad-input", `${field}.filter: the filter works with backends chebyshev and rational-damped only, not "${backend}"`, `${field}.filter`);
+    // chebyshev damps near the spectral bound by default; rational-damped needs the cut-off it keeps accurate
+    filter = { cutoff: f.cutoff ?? (backend === "chebyshev" ? bound ?? NaN : NaN), order: f.order, strength: f.strength ?? 36 };
   }
   return { backend: backend as PhiBackendName, opts: { tol: tolerance, maxPhi: maxPhi + extraPhi, substeps, filter, field }, maxPhi, field };
 }
