@@ -344,7 +344,10 @@ export function useSandbox() {
   const importScenario = useCallback(async (text: string, fileName: string): Promise<boolean> => {
     stop();
     try {
-      adopt(await client().call((r) => r.initFromText(text, viewRef.current), 120_000));
+      // a file exported with stepper code: the code waits in the editor for consent, the solver gets the rest
+      let body = text;
+      try { const raw: unknown = JSON.parse(text); if (raw && typeof raw === "object" && "stepperCode" in raw) body = JSON.stringify(takeLinkCode(raw)); } catch { /* the worker words the syntax error */ }
+      adopt(await client().call((r) => r.initFromText(body, viewRef.current), 120_000));
       return true;
     } catch (e) {
       const f: WorkerFailure = isWorkerFailure(e) ? e : { name: "WorkerError", code: "internal", message: failureMessage(e) };
