@@ -1,6 +1,6 @@
 import { useCallback, useEffect, useMemo, useRef, useState } from "react";
 import { transfer } from "comlink";
-import { failureMessage, isWorkerFailure, SolverClient } from "../workers/client.js";
+import { failureMessage, isTimeoutReason, isWorkerFailure, SolverClient } from "../workers/client.js";
 import type {
   Checkpoint, ChunkReport, InitResult, LoadedModule, MapView, Scenario, Snapshot, StepperSpec, UnstableInfo, WorkerFailure,
 } from "../workers/protocol.js";
@@ -423,6 +423,7 @@ export function useSandbox() {
       void reloadModules().then(() => load(s)).then((fail) => { if (fail) notify("error", "run-error", `Reset failed: ${fail.message}`); });
       return true;
     }
+    if (!isTimeoutReason(reason)) return false; // a crash: the usual restart from the start
     const hung = s.stepper;
     const key = JSON.stringify(hung);
     const cp = checkpointRef.current;
