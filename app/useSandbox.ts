@@ -414,6 +414,7 @@ export function useSandbox() {
   };
 
   recoverRef.current = (reason: string): boolean => {
+    // a watchdog stop (a call that timed out) or a Reset that ended a long step; other deaths restart from the start
     const s = scenarioRef.current;
     if (!s || !builtinsRef.current.length) return false;
     if (resetPending.current) {
@@ -433,7 +434,7 @@ export function useSandbox() {
     const where = cp ? `step ${cp.step}, t = ${formatDays(cp.time)}` : "its start";
     const label = hung.module ? `the stepper from the code panel (${String(hung.module).replace(/^editor:/, "")})` : `${hung.method}`;
     notify("error", "watchdog",
-      `Stopped: one step of ${label} took longer than the ${STEP_TIMEOUT_MS / 1000} s time-out (${reason}). ` +
+      `Stopped: one step of ${label} took longer than the ${STEP_TIMEOUT_MS / 1000} s time-out. ` +
       `The solver worker was ended and a new one started; the run goes on from the last good state (${where}) with ` +
       `${fallback.module ? String(fallback.module).replace(/^editor:/, "") : fallback.method} at Δt = ${fmt(fallback.dt)} s.`);
     void (async () => {

@@ -1,5 +1,4 @@
 import { useCallback, useEffect, useMemo, useRef, useState } from "react";
-import { transfer } from "comlink";
 import { schemeTableau10 } from "d3";
 import { failureMessage, SolverClient } from "../../workers/client.js";
 import type { ChunkReport, FieldKind, MapView, StepperSpec } from "../../workers/protocol.js";
@@ -39,7 +38,6 @@ interface Lane {
   values: Float32Array | null;
   min: number;
   max: number;
-  spare: Float32Array | null;
   marked: number;
   mass0: number[];
   wallMs: number;
@@ -96,13 +94,8 @@ export function CompareView({ sb, onClose }: { sb: Sandbox; onClose: () => void 
   };
   useEffect(() => disposeAll, []);
 
-  const take = (l: Lane): Float32Array | undefined => {
-    const s = l.spare;
-    l.spare = null;
-    return s && s.byteLength > 0 ? transfer(s, [s.buffer]) : undefined;
-  };
   const accept = (l: Lane, rep: ChunkReport) => {
-    if (l.values && l.values !== rep.snapshot.values && l.values.byteLength > 0) l.spare = l.values;
+    // no buffer recycling here: a map may still be about to paint the previous frame
     l.values = rep.snapshot.values;
     l.min = rep.snapshot.min;
     l.max = rep.snapshot.max;
@@ -145,7 +138,7 @@ export function CompareView({ sb, onClose }: { sb: Sandbox; onClose: () => void 
         : same ? { ...setup.stepper.spec, dt } : { method: c.method, dt }) as StepperSpec;
       const lane: Lane = {
         title: `${String.fromCharCode(65 + i)}: ${code ? `${code.name} (your code)` : c.method} at Δt = ${fmt(dt)} s`,
-        spec, status: "starting", message: "starting…", time: 0, steps: 0, values: null, min: 0, max: 0, spare: null, marked: -1,
+        spec, status: "starting", message: "starting…", time: 0, steps: 0, values: null, min: 0, max: 0, marked: -1,
         mass0: [], wallMs: 0, counters: null, residual: NaN, drift: 0, residualSeries: [], driftSeries: [],
         client: new SolverClient({
           callTimeoutMs: STEP_TIMEOUT_MS,
@@ -185,7 +178,7 @@ export function CompareView({ sb, onClose }: { sb: Sandbox; onClose: () => void 
       const T = target.current;
       const reached = await Promise.all(live.map(async (l) => {
         try {
-          const rep = await l.client.call((r) => r.advanceUntil(T, viewRef.current, take(l)));
+          const rep = await l.client.call((r) => r.advanceUntil(T, viewRef.current));
           accept(l, rep);
           return l.status !== "ready" || rep.time + l.spec.dt > T * (1 + 1e-12) + 1e-9;
         } catch (e) {
@@ -229,7 +222,9 @@ export function CompareView({ sb, onClose }: { sb: Sandbox; onClose: () => void 
   const ls = lanes.current;
   const shared = useMemo((): [number, number] => {
     let lo = Infinity, hi = -Infinity;
-    for (const l of ls) if (l.values) { lo = Math.min(lo, l.min); hi = Math.max(hi, l.max); }
+    // the steppers still running set the range (a blown-up state would wash the others out)
+    const live = ls.filter((l) => l.values && l.status !== "failed");
+    for (const l of live.length ? live : ls.filter((x) => x.values)) { lo = Math.min(lo, l.min); hi = Math.max(hi, l.max); }
     return colourDomain(info.scale, lo, hi);
   }, [version, info.scale]);
   const diff = useMemo(() => {

@@ -22,11 +22,12 @@ export function SeriesPlot({ title, testid, days, series, log, unit, height = H 
 }) {
   const geom = useMemo(() => {
     const x = scaleLinear().domain(days.length > 1 ? (extent(days) as [number, number]) : [0, 1]).range([M.l, W - M.r]);
-    const values = series.flatMap((s) => s.y).filter(Number.isFinite).map((v) => (log ? Math.max(Math.abs(v), FLOOR) : v));
+    // on a log axis an exact zero (the start) is left out rather than drawn at an arbitrary floor
+    const values = series.flatMap((s) => s.y).filter((v) => Number.isFinite(v) && (!log || v !== 0)).map((v) => (log ? Math.max(Math.abs(v), FLOOR) : v));
     let [lo, hi] = values.length ? (extent(values) as [number, number]) : [log ? 1e-20 : 0, 1];
     if (log) { lo = Math.max(FLOOR, lo); hi = Math.max(hi, lo * 10); } else if (hi - lo < 1e-300) { lo -= 1; hi += 1; }
     const y = log ? scaleLog().domain([lo, hi]).range([height - M.b, M.t]).nice() : scaleLinear().domain([lo, hi]).range([height - M.b, M.t]).nice();
-    const path = line<number>().defined((v) => Number.isFinite(v)).x((_, j) => x(days[j])).y((v) => y(log ? Math.max(Math.abs(v), FLOOR) : v));
+    const path = line<number>().defined((v) => Number.isFinite(v) && (!log || v !== 0)).x((_, j) => x(days[j])).y((v) => y(log ? Math.max(Math.abs(v), FLOOR) : v));
     const ticks = log ? y.ticks(4).filter((_, i, a) => a.length <= 5 || i % Math.ceil(a.length / 5) === 0) : y.ticks(4);
     return {
       paths: series.map((s) => ({ name: s.name, colour: s.colour, dash: s.dash, d: path(s.y) ?? "" })),
