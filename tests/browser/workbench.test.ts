@@ -169,6 +169,29 @@ describe("stepper code panel", () => {
   });
 });
 
+describe("assess from the page", () => {
+  it("runs the report card in a background worker with progress, can be cancelled, and shows the table", async () => {
+    await loadLink(link(smallScenario()));
+    await setCode(MIDPOINT);
+    await page.click(byId("assess-button"));
+    await page.locator(byId("assess-progress")).waitFor({ timeout: 30_000 });
+    // the page stays usable meanwhile: the run starts and pauses
+    await page.click(byId("run-button"));
+    await expect.poll(() => stepCount(), { timeout: 30_000 }).toBeGreaterThan(0);
+    await pause();
+    await page.click(byId("assess-cancel"));
+    await expect.poll(() => text("stepper-code-message")).toContain("Assess cancelled");
+    expect(await page.locator(byId("assess-progress")).count()).toBe(0);
+    await page.click(byId("assess-button"));
+    await page.locator(byId("assess-table")).waitFor({ timeout: 300_000 });
+    const table = await text("assess-table");
+    // the explicit midpoint rule is second order (Butcher 2016): the observed order is reported next to the declared 2
+    expect(table).toContain("declared 2");
+    expect(table).toMatch(/observed order\s*[\d.]+ on ring-wave/);
+    await page.locator(byId("code-panel")).screenshot({ path: shot("29-assess") });
+  }, 400_000);
+});
+
 describe("code from a link", () => {
   it("shows the code and runs nothing until the user presses Run this code", async () => {
     const code = MIDPOINT.replace("page-midpoint", "linked-midpoint");
