@@ -5,7 +5,7 @@ import { assess } from "../studies/assess.js";
 import type { StepperConfig } from "../studies/stability.js";
 import { SolverError } from "../errors.js";
 import { numberOption, rejectUnknown, stringOption, type ParsedArgs } from "./args.js";
-import { fmt, loadScenarioArg, table, writeJson } from "./io.js";
+import { count, fmt, loadScenarioArg, table, writeJson } from "./io.js";
 import { STEPPER_CLI_OPTIONS } from "./stepperArgs.js";
 import { stepperForCommand } from "./runCommand.js";
 import { progressReporter } from "./studyArgs.js";
@@ -53,7 +53,7 @@ export function assessCommand(args: ParsedArgs, out: (s: string) => void, err: (
     ["observed order", report.order.observed === null ? "n/a" : `${fmt(report.order.observed, "", 3)} on ${report.order.scenario}` +
       (report.order.range ? ` (Δt ${fmt(report.order.range[0], "s", 3)}–${fmt(report.order.range[1], "s", 3)})` : ""), v.order],
     ["largest stable Δt", `${fmt(report.stability.maxStableDt, "s")} (${fmt(report.stability.ratioToRk4, "", 3)}× RK4 limit ${fmt(report.stability.rk4DtLimit, "s")})`, v.stability],
-    ["layer-volume drift", `${fmt(report.conservation.massDrift, "", 2)} over ${report.conservation.steps} steps`, v.mass],
+    ["layer-volume drift", `${fmt(report.conservation.massDrift, "", 2)} over ${count(report.conservation.steps, "step")}`, v.mass],
     ["energy drift", report.conservation.energyDrift === null ? "n/a" : fmt(report.conservation.energyDrift, "", 2), v.energy],
     ["wall time per simulated day", `${fmt(report.cost.secondsPerSimDay, "s", 3)} at Δt ${fmt(report.cost.dt, "s")} (RK4 ${fmt(report.cost.rk4SecondsPerSimDay, "s", 3)})`, v.cost],
     ["work per step", `${fmt(report.cost.rhsPerStep, "", 3)} tendency evaluations, ${fmt(report.cost.matvecsPerStep, "", 3)} matvecs, ${fmt(report.cost.innerProductsPerStep, "", 3)} inner products`, ""],

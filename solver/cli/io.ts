@@ -79,6 +79,12 @@ export function fmt(v: number, unit = "", digits = 4): string {
   return unit ? `${s} ${unit}` : s;
 }
 
+/** "1 step", "3 steps", "1 day", "0.5 days": a count with its noun, plural unless the count is exactly 1. */
+export function count(n: number, noun: string, digits = 4): string {
+  const text = Number.isInteger(n) ? String(n) : fmt(n, "", digits);
+  return `${text} ${n === 1 ? noun : noun + "s"}`;
+}
+
 /** A plain text table with aligned columns. */
 export function table(header: string[], rows: string[][]): string {
   const w = header.map((h, i) => Math.max(h.length, ...rows.map((r) => (r[i] ?? "").length)));

@@ -18,23 +18,23 @@ import { numberList, parseMethodList, progressReporter, steppersFromArgs } from 
 
 export const SWEEP_USAGE =
   "sweep SCENARIO (--methods LIST | --steppers FILE) (--dts d1,d2,… | --dt-factors f1,f2,…) [--reference-dt S] [--reference-method M] " +
-  "[--duration S] [--error ssh|thickness|velocity] [--tolerance E] [--matvec-weight W] [--json FILE] [--csv FILE] [--shard i/n] [--reference-only] [--no-cache] " +
+  "[--duration S] [--error surface|thickness|velocity] [--tolerance E] [--matvec-weight W] [--json FILE] [--csv FILE] [--shard i/n] [--reference-only] [--no-cache] " +
   LIMIT_USAGE;
 
-const CSV_HEADER = ["label", "method", "dt", "dtRatioToRk4", "status", "errorSsh", "errorThickness", "errorVelocity", "massDrift", "energyDrift",
+const CSV_HEADER = ["label", "method", "dt", "dtRatioToRk4", "status", "errorSurface", "errorThickness", "errorVelocity", "massDrift", "energyDrift",
   "energyResidual", "wallSeconds", "rhsEvaluations", "matvecs", "cost", "atReferenceFloor"];
 
 export function sweepCsv(rows: SweepRow[]): string {
   const q = (s: string) => (/[",\n]/.test(s) ? `"${s.replace(/"/g, '""')}"` : s);
   const n = (v: number | null) => (v === null || !Number.isFinite(v) ? "" : String(v));
-  return [CSV_HEADER.join(","), ...rows.map((r) => [q(r.label), q(r.method), n(r.dt), n(r.dtRatioToRk4), r.status, n(r.error.ssh), n(r.error.thickness),
+  return [CSV_HEADER.join(","), ...rows.map((r) => [q(r.label), q(r.method), n(r.dt), n(r.dtRatioToRk4), r.status, n(r.error.surface), n(r.error.thickness),
     n(r.error.velocity), n(r.massDrift), n(r.energyDrift), n(r.energyResidual), n(r.wallSeconds), n(r.rhsEvaluations), n(r.matvecs), n(r.cost), String(r.atReferenceFloor)].join(","))].join("\n") + "\n";
 }
 
 export function printSweep(rows: SweepRow[], out: (s: string) => void, result?: SweepResult): void {
   const e = (v: number | null) => (v === null ? "—" : fmt(v, "", 3));
-  out(table(["stepper", "Δt", "× RK4", "status", "err ssh", "err h", "err u", "mass drift", "energy drift", "energy residual", "wall", "RHS", "matvecs"],
-    rows.map((r) => [r.label, fmt(r.dt, "s"), fmt(r.dtRatioToRk4, "", 3), r.status + (r.atReferenceFloor ? " (floor)" : ""), e(r.error.ssh), e(r.error.thickness),
+  out(table(["stepper", "Δt", "× RK4", "status", "err η", "err h", "err u", "mass drift", "energy drift", "energy residual", "wall", "RHS", "matvecs"],
+    rows.map((r) => [r.label, fmt(r.dt, "s"), fmt(r.dtRatioToRk4, "", 3), r.status + (r.atReferenceFloor ? " (floor)" : ""), e(r.error.surface), e(r.error.thickness),
       e(r.error.velocity), fmt(r.massDrift, "", 2), r.energyDrift === null ? "n/a" : fmt(r.energyDrift, "", 2),
       r.energyResidual === null ? "n/a" : fmt(r.energyResidual, "", 2), fmt(r.wallSeconds, "s", 3), String(r.rhsEvaluations), String(r.matvecs)])));
   const why = rows.find((r) => r.energyDriftReason)?.energyDriftReason;

@@ -6,7 +6,7 @@ import { driftUndefinedReason, type EnergyBudgetSeries, type EnergyBudgetSummary
 import { Run, type UnstableReport } from "./run.js";
 
 export interface ExecuteOptions {
-  /** Number of steps; if absent, `duration` (or the scenario's) decides. */
+  /** Number of steps to take (from the run's current step); if absent, `duration` (or the scenario's) decides. */
   steps?: number;
   /** Simulated seconds to run [s]. */
   duration?: number;
@@ -90,8 +90,11 @@ export class DriftTracker {
 export function execute(run: Run, o: ExecuteOptions = {}): RunResult {
   const dt = run.dt;
   const s = run.built.scenario;
-  const total = o.steps ?? Math.round((o.duration ?? s.duration) / dt);
-  if (!(total >= 1)) throw new SolverError("bad-input", `--steps: the run needs at least one step (duration ${o.duration ?? s.duration} s at dt ${dt} s)`, "--steps");
+  // a run that already took steps (a restart) takes `steps` more; its step count goes on from where it was
+  const start = run.steps;
+  const count = o.steps ?? Math.round((o.duration ?? s.duration) / dt);
+  const total = start + count;
+  if (!(count >= 1)) throw new SolverError("bad-input", `--steps: the run needs at least one step (duration ${o.duration ?? s.duration} s at dt ${dt} s)`, "--steps");
   const clock = o.clock ?? (() => 0);
   const b0 = run.budget();
   const drift = new DriftTracker(b0, run.model);
@@ -105,7 +108,7 @@ export function execute(run: Run, o: ExecuteOptions = {}): RunResult {
   const chunk = Math.max(1, o.chunk ?? sample);
   const st0 = { ...run.stepper.stats };
   const t0 = clock();
-  let done = 0;
+  let done = start;
   let cancelled = false;
   let sinceSample = 0;
   while (done < total) {
@@ -121,7 +124,7 @@ export function execute(run: Run, o: ExecuteOptions = {}): RunResult {
       sinceSample = 0;
     }
     if (!ok) break;
-    if (o.onProgress && o.onProgress({ fraction: done / total, step: done, time: run.time, budget: b }) === false) {
+    if (o.onProgress && o.onProgress({ fraction: (done - start) / count, step: done, time: run.time, budget: b }) === false) {
       cancelled = true;
       break;
     }

@@ -306,9 +306,13 @@ export function parseScenario(raw: unknown, prefix = "", check: ScenarioCheck = 
   const r = scenarioSchemaFor(check.limits ?? LIMITS, check.runLength ?? true).safeParse(raw);
   if (r.success) return r.data;
   const issues = r.error.issues.map((i) => {
-    const field = prefix + fieldPath(i.path);
+    let field = prefix + fieldPath(i.path);
     let msg = i.message;
-    if (i.code === "unrecognized_keys") msg = `unknown field(s) ${i.keys.map((k) => `"${k}"`).join(", ")}`;
+    if (i.code === "unrecognized_keys") {
+      // name the unknown field itself: "physics.colour: unknown field"
+      field = prefix + fieldPath([...i.path, i.keys[0]]);
+      msg = `: unknown field${i.keys.length > 1 ? ` (also ${i.keys.slice(1).map((k) => `"${k}"`).join(", ")})` : ""}`;
+    }
     if (i.code === "invalid_type" && /received undefined/i.test(msg)) msg = "is required";
     // "mesh.width width [m] must be > 0" → "mesh.width [m] must be > 0"
     const last = i.path[i.path.length - 1];

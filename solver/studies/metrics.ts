@@ -3,7 +3,7 @@ import type { ShallowWaterModel } from "../model/shallowWater.js";
 /** Relative errors of a state against a reference, each an area-weighted L2 norm ratio (see `stateErrors`). */
 export interface StateErrors {
   /** Free-surface height η₁ = b + Σ_k h_k. */
-  ssh: number;
+  surface: number;
   /** All layer thicknesses together. */
   thickness: number;
   /** All normal velocities together. */
@@ -16,7 +16,7 @@ export interface LayerErrors {
 }
 
 export type ErrorComponent = keyof StateErrors;
-export const ERROR_COMPONENTS: readonly ErrorComponent[] = ["ssh", "thickness", "velocity"];
+export const ERROR_COMPONENTS: readonly ErrorComponent[] = ["surface", "thickness", "velocity"];
 
 /**
  * Errors of x against the reference xr:
@@ -28,7 +28,7 @@ export function stateErrors(model: ShallowWaterModel, x: Float64Array, xr: Float
   const m = model.mesh;
   const { nLayers: L, nCells: nc, nEdges: ne, uOffset } = model.layout;
   const b = model.params.bottom;
-  let sshD = 0; let sshR = 0;
+  let surfD = 0; let surfR = 0;
   let hD = 0; let hR = 0;
   let uD = 0; let uR = 0;
   const lhD = new Array<number>(L).fill(0); const lhR = new Array<number>(L).fill(0);
@@ -43,8 +43,8 @@ export function stateErrors(model: ShallowWaterModel, x: Float64Array, xr: Float
       const r = xr[q] - rest[q];
       lhD[k] += A * d * d; lhR[k] += A * r * r;
     }
-    sshD += A * (eta - etaR) ** 2;
-    sshR += A * (etaR - eta0) ** 2;
+    surfD += A * (eta - etaR) ** 2;
+    surfR += A * (etaR - eta0) ** 2;
   }
   for (let e = 0; e < ne; e++) {
     const w = 0.5 * m.edgeLength[e] * m.edgeCellDistance[e];
@@ -57,7 +57,7 @@ export function stateErrors(model: ShallowWaterModel, x: Float64Array, xr: Float
   for (let k = 0; k < L; k++) { hD += lhD[k]; hR += lhR[k]; uD += luD[k]; uR += luR[k]; }
   const ratio = (d: number, r: number) => (r > 0 ? Math.sqrt(d / r) : Math.sqrt(d));
   return {
-    errors: { ssh: ratio(sshD, sshR), thickness: ratio(hD, hR), velocity: ratio(uD, uR) },
+    errors: { surface: ratio(surfD, surfR), thickness: ratio(hD, hR), velocity: ratio(uD, uR) },
     layers: { thickness: lhD.map((d, k) => ratio(d, lhR[k])), velocity: luD.map((d, k) => ratio(d, luR[k])) },
   };
 }

@@ -122,7 +122,7 @@ export function referenceRun(built: BuiltScenario, plan: ReferencePlan, cache: R
   const f = 2 ** order - 1;
   const record: ReferenceRecord = {
     key, solver, method: plan.spec.method, label, spec: plan.spec, dt: plan.dt, steps: plan.steps, duration: plan.duration,
-    floor: { ssh: errors.ssh / f, thickness: errors.thickness / f, velocity: errors.velocity / f }, order, state,
+    floor: { surface: errors.surface / f, thickness: errors.thickness / f, velocity: errors.velocity / f }, order, state,
   };
   cache.set(key, record);
   return record;

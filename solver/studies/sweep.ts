@@ -63,7 +63,7 @@ export interface SweepRow {
   method: string;
   dt: number;
   status: "completed" | "unstable" | "cancelled";
-  error: { ssh: number | null; thickness: number | null; velocity: number | null };
+  error: { surface: number | null; thickness: number | null; velocity: number | null };
   massDrift: number;
   /** Max relative energy drift; null (with energyDriftReason) for a forced or damped run, or one without energy. */
   energyDrift: number | null;
@@ -259,7 +259,7 @@ export function sweepRows(built: BuiltScenario, plan: SweepPlan, ref: ReferenceR
     const floor = ref.floor[plan.component];
     rows.push({
       label: s.label, method: s.spec.method, dt: d.dt, status: r.status,
-      error: { ssh: e ? finiteOr(e.errors.ssh) : null, thickness: e ? finiteOr(e.errors.thickness) : null, velocity: e ? finiteOr(e.errors.velocity) : null },
+      error: { surface: e ? finiteOr(e.errors.surface) : null, thickness: e ? finiteOr(e.errors.thickness) : null, velocity: e ? finiteOr(e.errors.velocity) : null },
       massDrift: r.mass.maxRelativeDrift, energyDrift: r.energy.maxRelativeDrift,
       ...(r.energy.reason ? { energyDriftReason: r.energy.reason } : {}),
       energyResidual: r.energy.relativeBudgetResidual,

@@ -6,5 +6,6 @@ export interface BenchSection {
 
 import { demoSection, operatorSection, phiSection } from "./fastSteppers";
 import { scalingSection } from "./scaling";
+import { memorySection } from "./memory";
 
-export const EXTRA_SECTIONS: BenchSection[] = [operatorSection, phiSection, demoSection, scalingSection];
+export const EXTRA_SECTIONS: BenchSection[] = [operatorSection, phiSection, demoSection, scalingSection, memorySection];
