@@ -151,6 +151,7 @@ export function useSandbox() {
     scenarioRef.current = { ...res.scenario, stepper: res.stepper.spec };
     setUnstable(null);
     checkpointRef.current = null;
+    progressSpecs.current = [];
     setScenarioError(null);
     setStepperError(null);
     spareRef.current = null;
@@ -388,6 +389,7 @@ export function useSandbox() {
   const busySince = useRef(0);
   const resetPending = useRef(false);
   const shareCodeRef = useRef<StepperCode | null>(null);
+  const editorCodeRef = useRef<StepperCode | null>(null);
   const [linkCode, setLinkCode] = useState<{ code: StepperCode; spec: StepperSpec | null } | null>(null);
   const recoverRef = useRef<(reason: string) => boolean>(() => false);
 
@@ -441,8 +443,10 @@ export function useSandbox() {
       try {
         await reloadModules();
         const res = await client().call((r) => r.restore(s, fallback, cp, viewRef.current), 120_000);
+        const specs = progressSpecs.current;
         adopt(res);
         checkpointRef.current = cp;
+        progressSpecs.current = specs;
       } catch (e) {
         notify("error", "run-error", `The run could not be restored: ${failureMessage(e)}`);
         await loadDefault();
@@ -457,14 +461,16 @@ export function useSandbox() {
     modulesRef.current.set(key, js);
     return m;
   }, []);
-  const setShareCode = useCallback((c: StepperCode | null) => { shareCodeRef.current = c; }, []);
+  /** The code panel's text, and whether it goes with share links and exports (not while it is the bare template). */
+  const setShareCode = useCallback((c: StepperCode, share: boolean) => { editorCodeRef.current = c; shareCodeRef.current = share ? c : null; }, []);
+  const editorCode = useCallback(() => editorCodeRef.current, []);
   const shareCode = useCallback(() => shareCodeRef.current, []);
   const dropLinkCode = useCallback(() => setLinkCode(null), []);
   const setupRef = useRef<Setup | null>(null);
   setupRef.current = setup;
 
   return {
-    loadModule, linkCode, dropLinkCode, setShareCode, shareCode, stepTimeoutMs: STEP_TIMEOUT_MS,
+    loadModule, linkCode, dropLinkCode, setShareCode, shareCode, editorCode, stepTimeoutMs: STEP_TIMEOUT_MS,
     loading, setup, builtins, report, running, view, notices, unstable, rates, scenarioError, stepperError, shareUrl,
     snapshotVersion, history, getSnapshot, subscribeSnapshot,
     run, pause, toggle, stepOnce, reset, setView, applyStepper, applyScenario, importScenario, currentScenario, share,

@@ -51,7 +51,7 @@ export function CodePanel({ sb }: { sb: Sandbox }) {
   // the code goes with share links and exported scenarios once it is not the untouched template
   const publish = useCallback(() => {
     const c = current();
-    sb.setShareCode(c.source === template() ? null : c);
+    sb.setShareCode(c, c.source !== template());
   }, [sb.setShareCode]);
   useEffect(publish, []);
 

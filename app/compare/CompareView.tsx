@@ -27,6 +27,8 @@ const HISTORY = 2000;
 
 interface Choice { key: string; method: string; dt: string }
 
+interface Frame { values: Float32Array; min: number; max: number; time: number }
+
 interface Lane {
   title: string;
   spec: StepperSpec;
@@ -38,6 +40,10 @@ interface Lane {
   values: Float32Array | null;
   min: number;
   max: number;
+  /** The frame at the last lock-step target this stepper reached (what the maps and the difference show). */
+  shown: Frame | null;
+  /** The frame at the current target, shown once every stepper still running has reached it. */
+  pending: Frame | null;
   marked: number;
   mass0: number[];
   wallMs: number;
@@ -106,6 +112,7 @@ export function CompareView({ sb, onClose }: { sb: Sandbox; onClose: () => void 
     l.residual = rep.energyBudget ? rep.energyBudget.residual : NaN;
     l.drift = laneDrift(l, rep);
     if (rep.unstable) {
+      l.shown = { values: rep.snapshot.values, min: rep.snapshot.min, max: rep.snapshot.max, time: rep.time };
       l.status = "failed";
       l.marked = rep.unstable.cell;
       l.message = `blew up at step ${rep.unstable.step}, t = ${formatDays(rep.unstable.time)}: ${rep.unstable.reason} (layer ${rep.unstable.layer}, marked)`;
@@ -121,9 +128,9 @@ export function CompareView({ sb, onClose }: { sb: Sandbox; onClose: () => void 
     const raw = { ...rest, stepper: { method: "rk4", dt: baseDt } };
     let js: string | null = null;
     if (choices.some((c) => c.method === CODE)) {
-      const code = sb.shareCode();
+      const code = sb.editorCode();
       const t = code ? transpile(code.source, code.language, code.name) : null;
-      if (!code || !t) { setError("The code panel holds no stepper of your own yet (edit the template first)."); return; }
+      if (!code || !t) { setError("The code panel holds no stepper yet."); return; }
       if (!t.ok) { setError(`Your code has a syntax error at line ${t.line}, column ${t.column}: ${t.message}`); return; }
       js = t.code;
     }
@@ -132,13 +139,13 @@ export function CompareView({ sb, onClose }: { sb: Sandbox; onClose: () => void 
     days.current = [];
     const made: Lane[] = choices.map((c, i) => {
       const dt = Number(c.dt) > 0 ? Number(c.dt) : baseDt;
-      const code = c.method === CODE ? sb.shareCode() : null;
+      const code = c.method === CODE ? sb.editorCode() : null;
       const same = c.method === setup.stepper.spec.method && !setup.stepper.spec.module;
       const spec = (code ? { module: moduleKey(code.name), method: "user-module", dt }
         : same ? { ...setup.stepper.spec, dt } : { method: c.method, dt }) as StepperSpec;
       const lane: Lane = {
         title: `${String.fromCharCode(65 + i)}: ${code ? `${code.name} (your code)` : c.method} at Δt = ${fmt(dt)} s`,
-        spec, status: "starting", message: "starting…", time: 0, steps: 0, values: null, min: 0, max: 0, marked: -1,
+        spec, status: "starting", message: "starting…", time: 0, steps: 0, values: null, min: 0, max: 0, shown: null, pending: null, marked: -1,
         mass0: [], wallMs: 0, counters: null, residual: NaN, drift: 0, residualSeries: [], driftSeries: [],
         client: new SolverClient({
           callTimeoutMs: STEP_TIMEOUT_MS,
@@ -159,6 +166,7 @@ export function CompareView({ sb, onClose }: { sb: Sandbox; onClose: () => void 
         const res = await l.client.call((r) => r.init(raw, l.spec, viewRef.current), 120_000);
         l.mass0 = res.report.budget.mass;
         accept(l, res.report);
+        l.shown = { values: res.report.snapshot.values, min: res.report.snapshot.min, max: res.report.snapshot.max, time: 0 };
         l.status = "ready";
         l.message = res.stepper.label;
       } catch (e) {
@@ -180,7 +188,9 @@ export function CompareView({ sb, onClose }: { sb: Sandbox; onClose: () => void 
         try {
           const rep = await l.client.call((r) => r.advanceUntil(T, viewRef.current));
           accept(l, rep);
-          return l.status !== "ready" || rep.time + l.spec.dt > T * (1 + 1e-12) + 1e-9;
+          const there = rep.time + l.spec.dt > T * (1 + 1e-12) + 1e-9;
+          if (there && l.status === "ready") l.pending = { values: rep.snapshot.values, min: rep.snapshot.min, max: rep.snapshot.max, time: rep.time };
+          return l.status !== "ready" || there;
         } catch (e) {
           if (l.status === "ready") { l.status = "failed"; l.message = `stopped: ${failureMessage(e)}`; }
           return true;
@@ -188,6 +198,7 @@ export function CompareView({ sb, onClose }: { sb: Sandbox; onClose: () => void 
       }));
       if (id !== loopId.current) return;
       if (reached.every(Boolean)) {
+        for (const l of lanes.current) if (l.status === "ready" && l.pending) { l.shown = l.pending; l.pending = null; }
         if (T > 0) {
           days.current.push(T / 86400);
           for (const l of lanes.current) {
@@ -223,18 +234,19 @@ export function CompareView({ sb, onClose }: { sb: Sandbox; onClose: () => void 
   const shared = useMemo((): [number, number] => {
     let lo = Infinity, hi = -Infinity;
     // the steppers still running set the range (a blown-up state would wash the others out)
-    const live = ls.filter((l) => l.values && l.status !== "failed");
-    for (const l of live.length ? live : ls.filter((x) => x.values)) { lo = Math.min(lo, l.min); hi = Math.max(hi, l.max); }
+    const live = ls.filter((l) => l.shown && l.status !== "failed");
+    for (const l of live.length ? live : ls.filter((x) => x.shown)) { lo = Math.min(lo, l.shown!.min); hi = Math.max(hi, l.shown!.max); }
     return colourDomain(info.scale, lo, hi);
   }, [version, info.scale]);
   const diff = useMemo(() => {
     const [ia, ib] = pairAB;
     const a = ls[ia], b = ls[ib];
-    if (!a?.values || !b?.values || a.values.length !== b.values.length) return null;
-    const out = new Float32Array(a.values.length);
+    const av = a?.shown, bv = b?.shown;
+    if (!av || !bv || av.values.length !== bv.values.length) return null;
+    const out = new Float32Array(av.values.length);
     let lim = 0;
-    for (let i = 0; i < out.length; i++) { out[i] = a.values[i] - b.values[i]; lim = Math.max(lim, Math.abs(out[i])); }
-    return { values: out, lim: lim || 1e-12, a, b };
+    for (let i = 0; i < out.length; i++) { out[i] = av.values[i] - bv.values[i]; lim = Math.max(lim, Math.abs(out[i])); }
+    return { values: out, lim: lim || 1e-12, ta: av.time, tb: bv.time };
   }, [version, pairAB]);
   const residualSeries = useMemo(() => ls.map((l, i) => ({ name: l.title, colour: schemeTableau10[i], y: [...l.residualSeries] })), [version]);
   const driftSeries = useMemo(() => ls.map((l, i) => ({ name: l.title, colour: schemeTableau10[i], y: [...l.driftSeries] })), [version]);
@@ -277,9 +289,9 @@ export function CompareView({ sb, onClose }: { sb: Sandbox; onClose: () => void 
         {error && <p className="notice error" data-testid="compare-error">{error}</p>}
         <div className="compare-maps">
           {ls.map((l, i) => (
-            <figure key={i} className={`compare-lane ${l.status}`} data-testid={`compare-lane-${i}`} data-status={l.status} data-steps={l.steps}>
-              <figcaption><b>{l.title}</b><br /><span className="hint">{formatDays(l.time)} · {l.steps} steps · {l.message}</span></figcaption>
-              <CompareMap outlines={setup.outlines} raster={raster} width={frame.width} height={frame.height} values={l.values}
+            <figure key={i} className={`compare-lane ${l.status}`} data-testid={`compare-lane-${i}`} data-status={l.status} data-steps={l.steps} data-time={l.shown?.time ?? 0}>
+              <figcaption><b>{l.title}</b><br /><span className="hint">map at {formatDays(l.shown?.time ?? 0)} · now {formatDays(l.time)}, {l.steps} steps · {l.message}</span></figcaption>
+              <CompareMap outlines={setup.outlines} raster={raster} width={frame.width} height={frame.height} values={l.shown?.values ?? null}
                 domain={shared} scale={info.scale} marked={l.marked} version={version} testid={`compare-map-${i}`} />
             </figure>
           ))}
@@ -298,7 +310,7 @@ export function CompareView({ sb, onClose }: { sb: Sandbox; onClose: () => void 
                 <select data-testid="diff-b" value={pairAB[1]} onChange={(e) => setPairAB([pairAB[0], Number(e.target.value)])}>
                   {ls.map((_, i) => <option key={i} value={i}>{String.fromCharCode(65 + i)}</option>)}
                 </select>
-                {diff && <span className="hint"> at t = {formatDays(diff.a.time)} and {formatDays(diff.b.time)}; largest |A − B| {fmt(diff.lim)} {info.unit}</span>}
+                {diff && <span className="hint"> at t = {formatDays(diff.ta)} and {formatDays(diff.tb)}; largest |A − B| {fmt(diff.lim)} {info.unit}</span>}
               </figcaption>
               <div className="compare-diff-body">
                 <CompareMap outlines={setup.outlines} raster={raster} width={frame.width} height={frame.height} values={diff?.values ?? null}

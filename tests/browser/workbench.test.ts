@@ -237,6 +237,14 @@ describe("side by side", () => {
     const s0 = Number(await page.locator(byId("compare-lane-0")).getAttribute("data-steps"));
     await expect.poll(async () => Number(await page.locator(byId("compare-lane-0")).getAttribute("data-steps")), { timeout: 30_000 }).toBeGreaterThan(s0 + 10);
     expect(await page.locator(byId("compare-lane-1")).getAttribute("data-status")).toBe("ready");
+    // lock-step: the maps of A (Δt 20 s) and B (Δt 15 s) show the same target time, B to within one of its steps
+    await page.click(byId("compare-pause"));
+    await page.waitForTimeout(500);
+    const times = await Promise.all([0, 1].map(async (i) => Number(await page.locator(byId(`compare-lane-${i}`)).getAttribute("data-time"))));
+    expect(times[0]).toBeGreaterThan(0);
+    expect(times[0] - times[1]).toBeGreaterThanOrEqual(0);
+    expect(times[0] - times[1]).toBeLessThan(15);
+    await page.click(byId("compare-run"));
     expect(await page.locator(byId("difference-map")).getAttribute("data-ready")).toBe("yes");
     // lock-step: A (Δt 20 s) and B (Δt 15 s) are within one step of each other in simulated time
     const diffCaption = await text("difference-map");
@@ -245,6 +253,7 @@ describe("side by side", () => {
     await page.waitForTimeout(1000);
     await page.locator(byId("compare-view")).screenshot({ path: shot("25-compare") });
     await page.click(byId("compare-pause"));
+    expect(errors.filter((e) => !/Failed to load resource/.test(e))).toEqual([]);
     await page.click(byId("compare-close"));
     await expect.poll(() => page.locator(byId("compare-view")).count()).toBe(0);
   });
@@ -311,18 +320,41 @@ describe("energy budget card and a busy worker", () => {
   it("Pause and Reset answer while split-explicit runs with the largest sub-step count on a big mesh", async () => {
     const big = { ...smallScenario({ method: "split-explicit", dt: 600, substeps: 20000 }, 128), name: "busy-16k", mesh: { type: "periodic-hex", cellsX: 128, cellsY: 128, spacing: 10000 } };
     await loadLink(link(big), "busy-16k");
+    // in the page: the time from a click to the first change of the page that answers it
+    await page.evaluate(() => {
+      const w = window as unknown as { __clickAt: number; __answerAt: number; __answered: () => boolean };
+      w.__clickAt = 0; w.__answerAt = 0; w.__answered = () => false;
+      const check = () => { if (w.__clickAt && !w.__answerAt && w.__answered()) w.__answerAt = performance.now(); };
+      document.addEventListener("click", () => { w.__clickAt = performance.now(); w.__answerAt = 0; }, true);
+      new MutationObserver(check).observe(document.body, { subtree: true, childList: true, characterData: true });
+    });
+    const answered = async () => page.evaluate(() => { const w = window as unknown as { __clickAt: number; __answerAt: number }; return w.__answerAt ? w.__answerAt - w.__clickAt : null; });
     await page.click(byId("run-button"));
     await page.waitForTimeout(1500);
-    const t0 = Date.now();
+    await page.evaluate(() => { (window as unknown as { __answered: () => boolean }).__answered = () => document.querySelector('[data-testid="run-button"]')?.textContent === "Run"; });
     await page.click(byId("run-button"));
-    await expect.poll(() => text("run-button"), { timeout: 2000, interval: 20 }).toBe("Run");
-    perf.pauseWhileBusyMs = Date.now() - t0;
+    await expect.poll(() => text("run-button"), { timeout: 5000, interval: 20 }).toBe("Run");
+    perf.pauseWhileBusyMs = await answered();
+    await page.evaluate(() => {
+      (window as unknown as { __answered: () => boolean }).__answered = () => !!document.querySelector('[data-testid="watchdog"]') ||
+        document.querySelector('[data-testid="sim-time"]')?.textContent === "0.00 h";
+    });
     const t1 = Date.now();
     await page.click(byId("reset-button"));
-    await expect.poll(() => text("sim-time"), { timeout: 30_000, interval: 20 }).toBe("0.00 h");
-    perf.resetWhileBusyMs = Date.now() - t1;
-    perf.watchdogDuringBusyRun = (await page.locator(byId("watchdog")).count()) > 0 ? await text("watchdog") : null;
-    console.log("busy-worker figures:", JSON.stringify({ pause: perf.pauseWhileBusyMs, reset: perf.resetWhileBusyMs, watchdog: perf.watchdogDuringBusyRun }));
+    // the page answers at once (a notice, or the reset itself when no step was in progress), the new worker then loads
+    await expect.poll(answered, { timeout: 30_000, interval: 20 }).not.toBeNull();
+    perf.resetAnsweredMs = await answered();
+    await expect.poll(() => text("sim-time"), { timeout: 60_000, interval: 20 }).toBe("0.00 h");
+    perf.resetDoneMs = Date.now() - t1;
+    perf.resetNotice = (await page.locator(byId("watchdog")).count()) > 0 ? (await text("watchdog")).replace(/×$/, "") : null;
+    // run again: one step of 20 000 sub-steps on this mesh either finishes or is stopped by the 5 s time-out
+    await expect.poll(() => text("scenario-name"), { timeout: 60_000 }).toContain("busy-16k");
+    await page.click(byId("run-button"));
+    const t2 = Date.now();
+    await expect.poll(async () => (await stepCount()) > 0 || /took longer than the 5 s time-out/.test(await page.locator(byId("watchdog")).count() ? await text("watchdog") : ""), { timeout: 60_000 }).toBe(true);
+    perf.busyRunOutcome = (await stepCount()) > 0 ? `a step finished after ${Date.now() - t2} ms` : `stopped by the time-out after ${Date.now() - t2} ms`;
+    await pause();
+    console.log("busy-worker figures:", JSON.stringify({ pause: perf.pauseWhileBusyMs, resetAnswered: perf.resetAnsweredMs, resetDone: perf.resetDoneMs, notice: perf.resetNotice, run: perf.busyRunOutcome }));
     await page.screenshot({ path: shot("28-busy-worker") });
     expect(errors.filter((e) => !/Failed to load resource/.test(e))).toEqual([]);
   });
