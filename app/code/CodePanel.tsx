@@ -32,6 +32,7 @@ export function CodePanel({ sb }: { sb: Sandbox }) {
   const [language, setLanguage] = useState<CodeLanguage>(initial.current.language);
   const [message, setMessage] = useState<Message>(null);
   const [dtText, setDtText] = useState("");
+  const [optionsText, setOptionsText] = useState("");
   const [busy, setBusy] = useState(false);
   const [assessing, setAssessing] = useState<{ fraction: number; item: string } | null>(null);
   const [card, setCard] = useState<AssessCard | null>(null);
@@ -74,7 +75,8 @@ export function CodePanel({ sb }: { sb: Sandbox }) {
     return hit ?? { text: msg.replace(/\(at blob:[^)]*\)/, "(at a place the browser did not report)"), line: 0, column: 0 };
   };
 
-  const apply = useCallback(async (code: StepperCode, dtOverride?: number, options: Record<string, unknown> = {}) => {
+  const apply = useCallback(async (code: StepperCode, dtOverride?: number, linkOptions: Record<string, unknown> = {}) => {
+    let options = linkOptions;
     setBusy(true);
     editor.current?.mark(null);
     try {
@@ -93,6 +95,16 @@ export function CodePanel({ sb }: { sb: Sandbox }) {
       }
       applied.current = { origin: loaded.origin, t, name: loaded.name };
       const dt = dtOverride ?? (Number(dtText) > 0 ? Number(dtText) : sb.setup?.stepper.spec.dt ?? 60);
+      if (!dtOverride && optionsText.trim()) {
+        try {
+          const o: unknown = JSON.parse(optionsText);
+          if (!o || typeof o !== "object" || Array.isArray(o)) throw new Error("give an object, e.g. {\"alpha\": 0.6}");
+          options = { ...(o as Record<string, unknown>), ...options };
+        } catch (e) {
+          show(`Options: ${failureMessage(e)}`);
+          return;
+        }
+      }
       const spec = { ...options, module: key, method: "user-module", dt } as unknown as StepperSpec;
       const res = await sb.applyStepper(spec);
       if (!res) return; // the stepper error effect below shows it
@@ -101,7 +113,7 @@ export function CodePanel({ sb }: { sb: Sandbox }) {
     } finally {
       setBusy(false);
     }
-  }, [sb, dtText]);
+  }, [sb, dtText, optionsText]);
 
   // a throwing create (stepper error) or step (run error), or a watchdog stop, shown here with the user's line
   useEffect(() => {
@@ -218,6 +230,9 @@ export function CodePanel({ sb }: { sb: Sandbox }) {
         </label>
         <label>Δt{" "}
           <input data-testid="code-dt" size={7} placeholder={String(sb.setup?.stepper.spec.dt ?? "")} value={dtText} onChange={(e) => setDtText(e.target.value)} /> s
+        </label>
+        <label title="The module's declared options as JSON; left out: their defaults">Options{" "}
+          <input data-testid="code-options" size={16} placeholder='{"alpha": 0.6}' value={optionsText} onChange={(e) => setOptionsText(e.target.value)} />
         </label>
         <button className="primary" data-testid="stepper-code-apply" disabled={busy || !sb.setup || !!link} onClick={() => void apply(current())}>Apply</button>
         {assessing

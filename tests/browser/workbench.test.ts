@@ -100,6 +100,21 @@ describe("stepper code panel", () => {
     await page.locator(byId("code-panel")).screenshot({ path: shot("20-code-panel") });
   });
 
+  it("the template's declared option bounds are enforced in the page, as on the command line", async () => {
+    await page.selectOption(byId("code-example"), "template");
+    await expect.poll(() => page.locator(`${byId("stepper-code")} .cm-content`).innerText()).toContain("starter stepper module");
+    await page.fill(byId("code-options"), '{"alpha": 5}');
+    await page.click(byId("stepper-code-apply"));
+    // the template declares alpha in [0.1, 1] (stepperTemplate in solver/time/template.ts)
+    await expect.poll(() => text("stepper-code-message"), { timeout: 30_000 }).toMatch(/alpha.*1/);
+    expect(await text("run-button")).toBe("Run");
+    await page.fill(byId("code-options"), '{"alpha": 1}');
+    await page.click(byId("stepper-code-apply"));
+    await expect.poll(() => text("stepper-code-message"), { timeout: 30_000 }).toContain("Applied \"my-stepper\"");
+    await pause();
+    await page.fill(byId("code-options"), "");
+  });
+
   it("a syntax error is shown with its line and column, and nothing is loaded", async () => {
     const bad = MIDPOINT.replace("const k = problem.newVector(), y = problem.newVector();", "const k = problem.newVector(, y = problem.newVector();");
     await setCode(bad);
