@@ -287,9 +287,12 @@ export function useSandbox() {
   const stepOnce = useCallback(async () => {
     if (runningRef.current || !scenarioRef.current) return;
     try {
+      busySince.current = performance.now();
       acceptReport(await client().call((r) => r.advance(1, viewRef.current, takeSpare())));
     } catch (e) {
       handleFailure(e, "The step failed");
+    } finally {
+      busySince.current = 0;
     }
   }, []);
 
