@@ -19,6 +19,9 @@ const template = () => stepperTemplate(TEMPLATE_NAME, "stepwell/solver/api");
 const ASSESS_DURATION = 6 * 3600;
 const ASSESS_STABILITY_DURATION = 2 * 3600;
 
+/** A Blob URL as the browser writes it (blob:<origin>/<uuid>). */
+const BLOB_URL = /blob:https?:\/\/[^/\s]+\/[0-9a-f-]+/g;
+
 type Message = { kind: "error" | "ok" | "info"; text: string } | null;
 
 /**
@@ -89,8 +92,8 @@ export function CodePanel({ sb }: { sb: Sandbox }) {
         loaded = await sb.loadModule(key, t.code);
       } catch (e) {
         const msg = failureMessage(e);
-        const m = /:(\d+):(\d+)\)?\s*$/.exec(msg);
-        show(`The module could not be loaded: ${msg}`, m ? t.toSource(Number(m[1]), Number(m[2])) : undefined);
+        const m = /blob:[^\s()]+:(\d+):(\d+)/.exec(msg);
+        show(`The module could not be loaded: ${msg.replace(BLOB_URL, "your code")}`, m ? t.toSource(Number(m[1]), Number(m[2])) : undefined);
         return;
       }
       applied.current = { origin: loaded.origin, t, name: loaded.name };

@@ -124,6 +124,11 @@ describe("stepper code panel", () => {
     expect(await stepCount()).toBe(steps);
     expect(await page.locator(`${byId("stepper-code")} .cm-lintRange-error`).count()).toBeGreaterThan(0);
     await page.locator(byId("code-panel")).screenshot({ path: shot("21-code-syntax-error") });
+    // a wrong shape: no name, and create is not a function
+    await setCode("export default { order: 2, description: \"no name\", create: 5 };");
+    await page.click(byId("stepper-code-apply"));
+    await expect.poll(() => text("stepper-code-message"), { timeout: 30_000 }).toMatch(/could not be loaded: .*your code.*name/);
+    expect(await stepCount()).toBe(steps);
   });
 
   it("a step that throws is reported at its line in the editor, and TypeScript types are stripped", async () => {
