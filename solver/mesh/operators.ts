@@ -1,7 +1,7 @@
 import type { Mesh } from "./types.js";
 
 /**
- * The TRiSK linear operators of numerics reference §3.4–3.5, one layer at a time.
+ * The TRiSK linear operators of Thuburn et al. 2009, one layer at a time.
  * Each writes into `out` (length nCells, nEdges or nVertices) and allocates nothing.
  * `off` / `outOff` / `inOff` select a layer inside a layer-major buffer.
  */

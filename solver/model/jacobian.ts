@@ -1,5 +1,5 @@
 /**
- * Jacobian-vector product J(x̄) v of the full TRiSK tendency F (numerics reference §3.6–3.7, §6.5), by exact
+ * Jacobian-vector product J(x̄) v of the full TRiSK tendency F (Ringler et al. 2010; Hochbruck & Ostermann 2010), by exact
  * linearization of every term about the state x̄ (no finite-difference step to choose):
  *
  *   δĥ_e = ½(δh_c1 + δh_c2),  δF = δĥ ū + ĥ̄ δu,  δ(dh/dt) = −D δF

@@ -1,5 +1,5 @@
 /**
- * The rest-state linearization L of the multi-layer TRiSK model (numerics reference §2.1, §3.7):
+ * The rest-state linearization L of the multi-layer TRiSK model (Gill 1982, §6.2; Ringler et al. 2010):
  *
  *   du_{k,e}/dt = ½ Σ_{e'} W_{e,e'} (l_{e'}/d_e) Ĥ_{k,e'} u_{k,e'} (q̄_{k,e} + q̄_{k,e'}) − (G Σ_j 𝒢_kj h'_j)_e
  *   dh'_{k,i}/dt = −(D(Ĥ_k u_k))_i
@@ -57,7 +57,7 @@ export interface RestLinearOperator extends LinearOperator {
 export interface RestOperatorOptions {
   /**
    * How to obtain `spectralBound`: "auto" (default) uses √(f_max² + 6 c0²/d²) on a regular hexagonal mesh
-   * (reference §4.2: ω_max² = 6 c²/d² exactly at f = 0, and f²α + c²λ ≤ f² + 6c²/d² for any f) and a
+   * (Thuburn et al. 2009: ω_max² = 6 c²/d² exactly at f = 0, and f²α + c²λ ≤ f² + 6c²/d² for any f) and a
    * power-iteration estimate on irregular meshes; "power" always estimates.
    */
   spectralBound?: "auto" | "power";

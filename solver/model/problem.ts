@@ -73,7 +73,7 @@ function phiOptions(req: PhiRequest, bound: number | undefined, extraPhi: number
     if (backend !== "chebyshev") throw new SolverError("bad-input", `${field}.filter: the filter works with backend chebyshev only, not "${backend}"`, `${field}.filter`);
     filter = { cutoff: f.cutoff ?? bound ?? NaN, order: f.order, strength: f.strength ?? 36 };
   }
-  return { backend: backend as PhiBackendName, opts: { tol: tolerance, maxPhi: maxPhi + extraPhi, substeps, filter }, maxPhi, field };
+  return { backend: backend as PhiBackendName, opts: { tol: tolerance, maxPhi: maxPhi + extraPhi, substeps, filter, field }, maxPhi, field };
 }
 
 /** Work of the fast/slow split's kernels, in full tendency evaluations (a count of stencil terms, not a timing). */

@@ -1,6 +1,6 @@
 /**
  * Vertical-mode restriction R (layers → m modes) and prolongation P (modes → layers), the restricted
- * (modal) operator L̂ = R L P and the φ-functions of the restricted linear part (numerics reference §2.4).
+ * (modal) operator L̂ = R L P and the φ-functions of the restricted linear part (Gill 1982, §6.11).
  *
  * Structures: at every cell i the eigenvectors S_i of 𝒢 H_i (H_i = resting thicknesses of the column,
  * normalised S_iᵀ H_i S_i = H_tot,i I), and at every edge S_e from the edge thicknesses Ĥ_e. With a flat
@@ -398,7 +398,7 @@ export function restrictedPhiAction(r: ModalRestriction, modalPhi: PhiAction, ma
     name: `${modalPhi.name} on ${r.modes} mode${r.modes === 1 ? "" : "s"}`,
     stats,
     apply(out, tau, v) {
-      if (v.length > maxPhi + 1) throw new SolverError("bad-input", `phi index ${v.length - 1} exceeds maxPhi ${maxPhi}`, "stepper.maxPhi");
+      if (v.length > maxPhi + 1) throw new SolverError("bad-input", `phi index ${v.length - 1} exceeds maxPhi ${maxPhi}`, "phi.apply");
       out.fill(0);
       w[0].fill(0);
       for (let k = 0; k <= maxPhi; k++) {

@@ -93,7 +93,7 @@ export class ShallowWaterModel {
   }
 
   /**
-   * out = F(x): the full tendency of thickness and velocity (reference §3.7), by four fused passes over all
+   * out = F(x): the full tendency of thickness and velocity (Ringler et al. 2010), by four fused passes over all
    * layers (vertices, edges, cells, edges; see terms.ts) and the optional forcing and dissipation terms.
    */
   tendency(out: Float64Array, x: Float64Array, _t: number): void {

@@ -2,7 +2,7 @@ import type { Mesh } from "../mesh/types.js";
 import { divergence } from "../mesh/operators.js";
 
 /**
- * One function per term of the TRiSK multi-layer equations (numerics reference §3.6–3.7), for one layer.
+ * One function per term of the TRiSK multi-layer equations (Ringler et al. 2010), for one layer.
  * `hOff` / `uOff` locate the layer inside layer-major buffers (h[k·nCells + i], u[k·nEdges + e]).
  * Every function writes or adds into arrays it is given and allocates nothing.
  */
@@ -50,7 +50,7 @@ export function kineticEnergy(out: Float64Array, m: Mesh, u: Float64Array, uOff:
 }
 
 /**
- * Interface heights and Montgomery potential for all layers (reference §1.2):
+ * Interface heights and Montgomery potential for all layers (Vallis 2017, Atmospheric and Oceanic Fluid Dynamics, §3.2 (from memory)):
  * η_k = b + Σ_{j≥k} h_j, M_k = Σ_{j≤k} g'_j η_j  [m], [m²/s²].
  */
 export function montgomeryPotential(
