@@ -433,7 +433,8 @@ export function useSandbox() {
     const hung = s.stepper;
     const key = JSON.stringify(hung);
     const cp = checkpointRef.current;
-    const earlier = [...progressSpecs.current].reverse().find((x) => JSON.stringify(x) !== key);
+    // the stepper that made the last good state, else the last other one that made progress, else RK4 at half its limit
+    const earlier = cp && JSON.stringify(cp.spec) !== key ? cp.spec : [...progressSpecs.current].reverse().find((x) => JSON.stringify(x) !== key);
     const rk4Limit = setupRef.current?.description.rk4DtLimit ?? hung.dt;
     const fallback: StepperSpec = earlier ?? ({ method: "rk4", dt: Number((0.5 * rk4Limit).toPrecision(3)) } as StepperSpec);
     const where = cp ? `step ${cp.step}, t = ${formatDays(cp.time)}` : "its start";

@@ -169,6 +169,7 @@ describe("stepper code panel", () => {
     await page.click(byId("stepper-code-apply"));
     await expect.poll(() => text("watchdog"), { timeout: 40_000 }).toContain("took longer than the 5 s time-out");
     const said = await text("watchdog");
+    console.log("watchdog notice:", said);
     expect(said).toContain("last good state");
     expect(said).toContain("page-endless");
     await expect.poll(() => text("stepper-label"), { timeout: 30_000 }).toContain("page-midpoint");
