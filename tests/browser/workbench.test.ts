@@ -190,6 +190,16 @@ describe("stepper code panel", () => {
   });
 });
 
+describe("code kept between visits", () => {
+  it("the editor's code is stored per stepper name and comes back after a reload", async () => {
+    await setCode(MIDPOINT.replace("page-midpoint", "kept-between-visits"));
+    await expect.poll(() => page.evaluate(() => localStorage.getItem("stepwell.code.kept-between-visits")), { timeout: 10_000 }).toContain("kept-between-visits");
+    await page.reload();
+    await page.waitForSelector('[data-testid="app"][data-ready="yes"]', { timeout: 60_000 });
+    await expect.poll(() => page.locator(`${byId("stepper-code")} .cm-content`).innerText()).toContain("kept-between-visits");
+  });
+});
+
 describe("assess from the page", () => {
   it("runs the report card in a background worker with progress, can be cancelled, and shows the table", async () => {
     await loadLink(link(smallScenario()));
