@@ -4,7 +4,7 @@
  * and the page staying responsive while a worker is busy. Vite dev server + Debian's Chromium (harness.ts).
  * Responsiveness and frame figures are recorded in test-output/workbench-perf.json, never asserted as speed.
  */
-import { mkdirSync, writeFileSync } from "node:fs";
+import { mkdirSync, readFileSync, writeFileSync } from "node:fs";
 import { cpus, loadavg } from "node:os";
 import path from "node:path";
 import { afterAll, beforeAll, describe, expect, it } from "vitest";
@@ -247,6 +247,33 @@ describe("code from a link", () => {
     const decoded = decodeSetup(new URL(url).hash);
     expect(decoded.kind).toBe("ok");
     expect((decoded as { scenario: { stepperCode: { source: string } } }).scenario.stepperCode.source).toContain("linked-midpoint");
+  });
+});
+
+describe("code in an exported scenario file", () => {
+  it("export writes the code with the scenario; importing the file shows it and waits for consent", async () => {
+    await loadLink(link(smallScenario()));
+    const named = MIDPOINT.replace("page-midpoint", "exported-midpoint");
+    await setCode(named);
+    await page.click(byId("stepper-code-apply"));
+    await expect.poll(() => text("stepper-label"), { timeout: 30_000 }).toContain("exported-midpoint");
+    await pause();
+    await page.click(byId("tab-scenario"));
+    const [download] = await Promise.all([page.waitForEvent("download"), page.click(byId("scenario-export"))]);
+    const file = await download.path();
+    const saved = JSON.parse(readFileSync(file, "utf8")) as { stepper: { module: string }; stepperCode: { source: string } };
+    expect(saved.stepper.module).toBe("editor:exported-midpoint");
+    expect(saved.stepperCode.source).toContain("exported-midpoint");
+    await setCode(MIDPOINT);
+    await page.setInputFiles(byId("scenario-import"), file);
+    await page.locator(byId("consent-run-code")).waitFor({ timeout: 60_000 });
+    await expect.poll(() => page.locator(`${byId("stepper-code")} .cm-content`).innerText()).toContain("exported-midpoint");
+    expect(await stepCount()).toBe(0);
+    expect(await text("stepper-label")).not.toContain("exported-midpoint");
+    await page.click(byId("consent-run-code"));
+    await expect.poll(() => text("stepper-label"), { timeout: 30_000 }).toContain("exported-midpoint");
+    await pause();
+    await page.click(byId("tab-stepper"));
   });
 });
 
