@@ -158,8 +158,12 @@ describe("stepper code panel", () => {
 
   it("a stepper that never returns is stopped after the visible time-out; the run goes on from the last good state", async () => {
     expect(await text("step-timeout")).toContain("5 s");
-    // first a good stepper makes progress (and the worker sends a checkpoint)
-    await setCode(MIDPOINT);
+    // first a good stepper makes progress (and the worker sends a checkpoint): Kutta's third-order method, stable
+    // on the imaginary axis for |ωΔt| ≤ √3 (Hairer, Nørsett & Wanner 1993), at Δt = 10 s (about 0.35 of the RK4 limit)
+    await page.click(byId("reset-button"));
+    await expect.poll(() => stepCount(), { timeout: 30_000 }).toBe(0);
+    await setCode(readFileSync(path.join(ROOT, "public", "steppers", "kutta3.ts"), "utf8"));
+    await page.fill(byId("code-dt"), "10");
     await page.click(byId("stepper-code-apply"));
     await expect.poll(() => stepCount(), { timeout: 30_000 }).toBeGreaterThan(5);
     await pause();
@@ -172,7 +176,7 @@ describe("stepper code panel", () => {
     console.log("watchdog notice:", said);
     expect(said).toContain("last good state");
     expect(said).toContain("page-endless");
-    await expect.poll(() => text("stepper-label"), { timeout: 30_000 }).toContain("page-midpoint");
+    await expect.poll(() => text("stepper-label"), { timeout: 30_000 }).toContain("kutta3");
     // the last good state came back: not reset to zero, at most the steps of the last second lost
     const back = await stepCount();
     expect(back).toBeGreaterThan(0);
@@ -187,6 +191,7 @@ describe("stepper code panel", () => {
     perf.pauseAfterWatchdogMs = Date.now() - t0;
     await page.click(byId("reset-button"));
     await expect.poll(() => stepCount(), { timeout: 10_000 }).toBe(0);
+    await page.fill(byId("code-dt"), "");
   });
 });
 
