@@ -9,6 +9,7 @@ import { taylorPhi } from "./taylor.js";
 import { chebyshevPhi } from "./chebyshev.js";
 import { substepPhi } from "./substep.js";
 import { rationalPhi } from "./rational.js";
+import { rationalDampedPhi } from "./rationalDamped.js";
 import { estimateSpectralBound } from "./spectralBound.js";
 
 export interface PhiBackendInfo {
@@ -26,7 +27,7 @@ export const phiBackends: readonly PhiBackendInfo[] = [
 ];
 
 function isBackend(name: string): name is PhiBackendName {
-  return phiBackends.some((b) => b.name === name);
+  return name === "rational-damped" || phiBackends.some((b) => b.name === name);
 }
 
 /** Build a φ-action; throws SolverError("bad-input") naming the offending field for bad options. */
@@ -49,7 +50,7 @@ export function createPhiAction(backend: PhiBackendName, op: LinearOperator, opt
   }
   if (opts.filter) {
     const f = opts.filter;
-    if (backend !== "chebyshev") throw badInput(`${pf}.filter`, `the filter is supported by the chebyshev backend only, not "${backend}"`);
+    if (backend !== "chebyshev" && backend !== "rational-damped") throw badInput(`${pf}.filter`, `the filter is supported by the chebyshev and rational-damped backends only, not "${backend}"`);
     if (!(f.cutoff > 0 && Number.isFinite(f.cutoff))) throw badInput(`${pf}.filter.cutoff`, `cutoff must be > 0 1/s, got ${f.cutoff}`);
     if (!(f.order > 0 && Number.isFinite(f.order))) throw badInput(`${pf}.filter.order`, `order must be > 0, got ${f.order}`);
     if (!(f.strength >= 0 && Number.isFinite(f.strength))) throw badInput(`${pf}.filter.strength`, `strength must be ≥ 0, got ${f.strength}`);
@@ -71,6 +72,9 @@ export function createPhiAction(backend: PhiBackendName, op: LinearOperator, opt
     case "rational":
       if (!hasBound || !op.skew) throw badInput(`${pf}.backend`, "rational needs an operator with skew = true and a spectralBound");
       return rationalPhi(op, opts);
+    case "rational-damped":
+      // not yet in `phiBackends` (the list the steppers' options offer): reachable by name from createPhiAction
+      return rationalDampedPhi(op, opts);
     case "dense":
       if (op.n > 2000) throw badInput(`${pf}.backend`, `dense backend is for small operators, n = ${op.n}`);
       return densePhi(op, opts);

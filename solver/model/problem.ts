@@ -323,6 +323,7 @@ function buildProblem(model: ShallowWaterModel): ModelProblem {
     return {
       name: "rest", skew: true, spectralBound: op.spectralBound, reformed: false,
       apply: (out, x) => op.apply(out, x),
+      solve: (out, b, gamma) => op.solve(out, b, gamma),
       linearize() {},
       phi(req = {}) {
         const { backend, opts, maxPhi } = phiOptions(req, op.spectralBound, 0);
@@ -336,6 +337,7 @@ function buildProblem(model: ShallowWaterModel): ModelProblem {
     return {
       name: `modes:${modes}`, skew: true, spectralBound: r.operator.spectralBound ?? getRest().spectralBound, reformed: false,
       apply: (out, x) => r.restricted.apply(out, x),
+      solve: (out, b, gamma) => r.solve(out, b, gamma),
       linearize() {},
       phi(req = {}) {
         const { backend, opts, maxPhi } = phiOptions(req, r.operator.spectralBound, 1);
