@@ -184,7 +184,7 @@ describe("IMEX engine on a linear skew problem F(x) = A x (the slow part vanishe
     const fx = weightedSkewOperator(n, 9, rho, 0);
     const a = fx.op.matrix, w = fx.weights;
     const work = new Float64Array(n * n), piv = new Int32Array(n);
-    const counters = { tendencyEvaluations: 0, matvecs: 0, innerProducts: 0 };
+    const counters = { tendencyEvaluations: 0, matvecs: 0, innerProducts: 0, phiActions: 0 };
     const part = {
       name: "rest", skew: true, spectralBound: rho, reformed: false,
       apply: (out: Float64Array, x: Float64Array) => fx.op.apply(out, x),

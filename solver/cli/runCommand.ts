@@ -104,6 +104,7 @@ export function runCommand(args: ParsedArgs, out: (s: string) => void, err: (s: 
     ["tendency evaluations", fmt(result.rhsEvaluations, "", 6)],
     ["matvecs (per step)", `${fmt(result.matvecs, "", 6)} (${fmt(result.matvecsPerStep, "", 3)})`],
     ["inner products", String(result.innerProducts)],
+    ["φ-actions per step", fmt(result.phiActionsPerStep, "", 3)],
     ["max relative mass drift", fmt(result.mass.maxRelativeDrift, "", 3)],
     ["energy initial → final", `${fmt(result.energy.initial * run.model.params.rho0, "J")} → ${fmt(result.energy.final * run.model.params.rho0, "J")}`],
     ["max relative energy drift", result.energy.maxRelativeDrift === null ? "n/a (see below)" : fmt(result.energy.maxRelativeDrift, "", 3)],
