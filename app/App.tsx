@@ -7,6 +7,9 @@ import { RunControls } from "./panels/RunControls.js";
 import { ScenarioPanel } from "./panels/ScenarioPanel.js";
 import { StepperPanel } from "./panels/StepperPanel.js";
 import { useSandbox } from "./useSandbox.js";
+import { CodePanel } from "./code/CodePanel.js";
+import { withCode } from "./code/userCode.js";
+import { CompareView } from "./compare/CompareView.js";
 // studies, exports and view tools (one block, kept apart)
 import { StudiesPanel } from "./studies/StudiesPanel.js";
 import "./studies/studies.css";
@@ -30,6 +33,7 @@ export function App() {
   const sb = useSandbox();
   const [tab, setTab] = useState<Tab>("stepper");
   const [logScale, setLogScale] = useState(true);
+  const [compareOpen, setCompareOpen] = useState(false);
   // view tools: colour scale fixed or following, pause-and-inspect, run-view exports, shortcut list
   const vt = useViewTools(sb, sb.setup?.fields ?? NO_FIELDS);
 
@@ -47,7 +51,7 @@ export function App() {
   const exportScenario = useCallback(() => {
     const s = sb.currentScenario();
     if (!s) return;
-    const blob = new Blob([JSON.stringify(s, null, 2)], { type: "application/json" });
+    const blob = new Blob([JSON.stringify(withCode(s, sb.shareCode()), null, 2)], { type: "application/json" });
     const a = document.createElement("a");
     a.href = URL.createObjectURL(blob);
     a.download = `${s.name}.json`;
@@ -64,6 +68,7 @@ export function App() {
         <RunControls running={sb.running} ready={!!s && !sb.loading} time={sb.report?.time ?? 0} steps={sb.report?.step ?? 0}
           rates={sb.rates} label={s?.stepper.label ?? ""} onToggle={sb.toggle} onStep={() => void sb.stepOnce()} onReset={() => void sb.reset()} />
         <button data-testid="share-button" disabled={!s} onClick={sb.share}>Share link</button>
+        <button data-testid="open-compare" disabled={!s || sb.loading} onClick={() => { sb.pause(); setCompareOpen(true); }}>Side by side</button>
       </header>
       {sb.shareUrl && (
         <div className="share-row" data-testid="share-row">
@@ -112,6 +117,8 @@ export function App() {
           </div>
         </main>
       )}
+      {s && <CodePanel sb={sb} />}
+      {s && compareOpen && <CompareView sb={sb} onClose={() => setCompareOpen(false)} />}
       {/* studies: stability search, convergence sweep and work-precision, in a pool of workers */}
       {s && <StudiesPanel scenario={sb.currentScenario} scenarioName={s.scenario.name} />}
     </div>

@@ -99,7 +99,7 @@ describe("studies in the page", () => {
     expect(await text("study-progress-text")).toMatch(/^100% · 2 of 2 runs · elapsed [\d.]+ s · left 0 s/);
     const plot = page.locator(byId("stability-trials"));
     expect(Number(await plot.getAttribute("data-points"))).toBeGreaterThan(8);
-    await page.locator(byId("studies-panel")).screenshot({ path: shot("20-stability-study") });
+    await page.locator(byId("studies-panel")).screenshot({ path: shot("30-stability-study") });
 
     const svg = await downloaded("stability-trials-svg");
     expect(svg.name).toBe("stability-trials.svg");
@@ -141,7 +141,7 @@ describe("studies in the page", () => {
     }
     expect(await page.locator(`${byId("sweep-error-dt")} [data-guide]`).count()).toBe(4);
     expect(await text("sweep-error-cost")).toContain("RK4 at its limit");
-    await page.locator(byId("studies-panel")).screenshot({ path: shot("21-sweep-study") });
+    await page.locator(byId("studies-panel")).screenshot({ path: shot("31-sweep-study") });
 
     const json = JSON.parse((await downloaded("sweep-rows-json")).body.toString("utf8"));
     const direct = runSweep(buildScenario(parseScenario(tiny)), { steppers: [{ method: "rk4" }, { method: "ssprk3" }], dtFactors: [0.5, 0.25, 0.125], duration: 1800, field: "steppers" },
@@ -172,7 +172,7 @@ describe("studies in the page", () => {
     await page.click(byId("study-cancel"));
     await expect.poll(() => page.locator(byId("study-status")).getAttribute("data-state"), { timeout: 10_000 }).toBe("cancelled");
     expect(await text("study-outcome")).toMatch(/^Cancelled after [\d.]+ s: \d+ of 10 runs had finished/);
-    await page.locator(byId("studies-panel")).screenshot({ path: shot("22-study-cancelled") });
+    await page.locator(byId("studies-panel")).screenshot({ path: shot("32-study-cancelled") });
     // the pool starts fresh workers for the next study
     await page.fill(byId("study-dt-factors"), "0.5,0.25");
     await page.fill(byId("study-duration"), "600");
@@ -212,7 +212,7 @@ describe("run view: pointer values, colour scale, inspector, exports, shortcuts"
     expect(await page.inputValue(byId("colour-hi"))).toBe(hi);
     await page.fill(byId("colour-hi"), String(Number(hi) * 2));
     await expect.poll(() => page.locator(`${byId("colour-bar")} svg`).getAttribute("aria-label")).toContain(String(Number(hi) * 2));
-    await page.locator(byId("field-map")).screenshot({ path: shot("23-colour-fixed") });
+    await page.locator(byId("field-map")).screenshot({ path: shot("33-colour-fixed") });
     await page.click(byId("scenario-name")); // out of the number field: keys typed there are the field's
     await page.keyboard.press("f");
     expect(await text("colour-mode")).toBe("follows the field");
@@ -237,7 +237,7 @@ describe("run view: pointer values, colour scale, inspector, exports, shortcuts"
     const num = async (id: string) => Number((await text(id)).replace(/^.*?layer \d|^Free-surface height/, "").replace(/ m$/, ""));
     const h = (await num("inspect-thickness-0")) + (await num("inspect-thickness-1"));
     expect(h - 4000).toBeCloseTo(await num("inspect-surface"), 2); // 8 significant digits shown
-    await page.screenshot({ path: shot("24-inspect") });
+    await page.screenshot({ path: shot("34-inspect") });
     await page.keyboard.press("Escape");
     await expect.poll(() => page.locator(byId("inspector")).count()).toBe(0);
   });
@@ -250,7 +250,7 @@ describe("run view: pointer values, colour scale, inspector, exports, shortcuts"
     expect(await text("shortcut-hint")).toContain("?");
     await page.keyboard.press("?");
     await page.locator(byId("shortcut-list")).waitFor();
-    await page.locator(byId("view-tools")).screenshot({ path: shot("25-view-tools") });
+    await page.locator(byId("view-tools")).screenshot({ path: shot("35-view-tools") });
   });
 
   it("exports the map as PNG at its canvas size and the plots beside it as SVG", async () => {
@@ -303,7 +303,7 @@ describe("a run started from a stored state", () => {
     // the map is the stored state: the range the worker computes equals the one computed here (4 digits shown)
     expect(await shown()).toEqual([Number(range.max.toPrecision(4)), Number(range.min.toPrecision(4))]);
     expect(await text("field-range")).not.toBe(before);
-    await page.screenshot({ path: shot("26-started-from-state") });
+    await page.screenshot({ path: shot("36-started-from-state") });
     await page.click(byId("run-button"));
     await expect.poll(async () => Number(await text("step-count")), { timeout: 30_000 }).toBeGreaterThan(3);
     await page.click(byId("run-button"));
