@@ -79,7 +79,8 @@ export function useViewTools(sb: Sandbox, fields: readonly FieldInfo[]) {
 export type ViewToolsState = ReturnType<typeof useViewTools>;
 
 /** Plots beside the map that can be exported (found by their test ids; the set depends on the scenario). */
-const PLOT_IDS = ["energy-plot", "mass-plot", "budget-plot", "budget-residual-plot"];
+const PLOT_IDS = ["budget-terms-plot", "energy-plot", "mass-plot"];
+const PLOT_NAMES: Record<string, string> = { "budget-terms-plot": "budget", "energy-plot": "energy residual", "mass-plot": "volume drift" };
 
 function plotSvg(id: string): SVGSVGElement | null {
   const el = document.querySelector(`[data-testid="${id}"]`);
@@ -147,14 +148,14 @@ export function ViewTools({ vt, view, running, sb }: { vt: ViewToolsState; view:
           </button>
           <button data-testid="export-netcdf" onClick={() => void saveNetcdf()} title="the current state as a one-record run file (UGRID, CF), readable by stepwell run --restart">NetCDF snapshot</button>
           {plots.map((id) => (
-            <button key={id} data-testid={`export-${id}-svg`} onClick={() => { const s = plotSvg(id); if (s) exportSvg(s, id); }}>{id.replace(/-plot$/, "")} SVG</button>
+            <button key={id} data-testid={`export-${id}-svg`} onClick={() => { const s = plotSvg(id); if (s) exportSvg(s, id); }}>{PLOT_NAMES[id] ?? id} SVG</button>
           ))}
         </span>
       </div>
       <div className="view-tools">
-        <label title="a Stepwell NetCDF run file of this scenario's mesh (stepwell run --netcdf, or the NetCDF snapshot above); its last record becomes the start">
-          Start from a stored state (.nc){" "}
-          <input type="file" accept=".nc,application/x-netcdf" data-testid="start-state-input" onChange={(e) => { void startFromFile(e.target.files?.[0]); e.target.value = ""; }} />
+        <label title="a Stepwell NetCDF run file of this mesh (stepwell run --netcdf, or the NetCDF snapshot above; its last record) or a spun-up state file (stepwell-state-1 JSON); it becomes the start">
+          Start from a stored state (.nc, .json){" "}
+          <input type="file" accept=".nc,.json,application/x-netcdf,application/json" data-testid="start-state-input" onChange={(e) => { void startFromFile(e.target.files?.[0]); e.target.value = ""; }} />
         </label>
         {sb.startInfo && (
           <span data-testid="start-state-info">
