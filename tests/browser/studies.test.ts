@@ -43,6 +43,12 @@ const tiny = {
   stepper: { method: "rk4", dt: 60 }, duration: 3600,
 };
 const text = async (id: string) => (await page.locator(byId(id)).textContent()) ?? "";
+/** The map's box in the viewport (scrolled into view first: the study panel below may have been in view). */
+async function mapBox() {
+  const c = page.locator(byId("map-canvas"));
+  await c.scrollIntoViewIfNeeded();
+  return (await c.boundingBox())!;
+}
 
 async function loadLink(s: unknown, name: string) {
   await page.evaluate((h) => { window.location.hash = h; }, `#${encodeSetup(s)}`);
@@ -185,7 +191,7 @@ describe("studies in the page", () => {
 describe("run view: pointer values, colour scale, inspector, exports, shortcuts", () => {
   it("shows the cell value under the pointer with units and the position in km", async () => {
     await loadLink({ ...tiny, name: "tiny-view", duration: 86400 }, "tiny-view");
-    const box = (await page.locator(byId("map-canvas")).boundingBox())!;
+    const box = await mapBox();
     await page.mouse.move(box.x + box.width * 0.5, box.y + box.height * 0.5);
     const hover = await page.locator(byId("map-hover")).innerText();
     expect(hover).toMatch(/^-?[\d.e+-]+ m$/m);
@@ -227,7 +233,7 @@ describe("run view: pointer values, colour scale, inspector, exports, shortcuts"
     await page.keyboard.press("i");
     await expect.poll(() => text("run-button")).toBe("Run");
     await expect.poll(() => text("inspector")).toContain("Click a cell");
-    const box = (await page.locator(byId("map-canvas")).boundingBox())!;
+    const box = await mapBox();
     await page.mouse.click(box.x + box.width * 0.5, box.y + box.height * 0.5);
     await expect.poll(() => text("inspector-where"), { timeout: 10_000 }).toMatch(/^cell \d+ at x [\d.]+ km, y [\d.]+ km · step \d+/);
     expect(await text("inspect-surface")).toMatch(/Free-surface height-?[\d.e+-]+ m$/);
