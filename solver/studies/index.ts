@@ -7,3 +7,4 @@ export * from "./reference.js";
 export * from "./shard.js";
 export * from "./stability.js";
 export * from "./sweep.js";
+export * from "./statistics.js";
