@@ -9,6 +9,11 @@ import { surfaceHeight } from "../solver/diagnostics/fields";
 import { buildScenario } from "../solver/scenario/build";
 import { parseScenario } from "../solver/scenario/schema";
 import { LIMITS } from "../solver/scenario/limits";
+import { layerMass } from "../solver/diagnostics/budget";
+import { decodeState, encodeState } from "../solver/io/stateFile";
+import { Run } from "../solver/driver/run";
+import { existsSync, readdirSync } from "node:fs";
+import { builtinScenario } from "../solver/scenario/builtins";
 import { MemoryReferenceCache } from "../solver/studies/reference";
 import {
   defaultSampleInterval, memberInitialState, noiseFloor, planStatistics, restStatistics, runStatistics, StatisticsAccumulator, statisticErrors,
@@ -282,4 +287,47 @@ describe("statistics command", () => {
     expect(() => planStatistics(built, { steppers: [{ method: "rk4" }], dts: [60], spinUp: 600, window: 1200, sampleEvery: 600, ensemble: 65 })).toThrow(/--ensemble: 65 ensemble members/);
     expect(() => planStatistics(built, { steppers: [{ method: "rk4" }], dts: [1e-3], spinUp: 600, window: 1200, sampleEvery: 600 })).toThrow(/more than the limit of 1000000 steps/);
   });
+});
+
+describe("spun-up state file (stepwell-state-1)", () => {
+  it("round trip: thickness and velocity to single precision of the anomaly, layer volumes to round-off", () => {
+    const run = new Run(built);
+    run.advance(40);
+    const f = encodeState(built.model, run.state, { scenario: tiny.name, time: run.time, step: run.steps, method: "rk4", dt: run.dt });
+    const text = JSON.stringify(f);
+    const back = decodeState(built.model, JSON.parse(text));
+    expect(back.time).toBe(run.time);
+    const { nLayers: L, uOffset, n } = built.model.layout;
+    const rest = built.model.restState();
+    let worstH = 0;
+    let worstU = 0;
+    let maxAnom = 0;
+    let maxU = 0;
+    for (let q = 0; q < L * nc; q++) { worstH = Math.max(worstH, Math.abs(back.state[q] - run.state[q])); maxAnom = Math.max(maxAnom, Math.abs(run.state[q] - rest[q])); }
+    for (let q = uOffset; q < n; q++) { worstU = Math.max(worstU, Math.abs(back.state[q] - run.state[q])); maxU = Math.max(maxU, Math.abs(run.state[q])); }
+    // float32 keeps 24 significant bits: relative rounding ≤ 2^-24 ≈ 6e-8 (IEEE 754 binary32); the volume fix adds a uniform shift of the same size
+    expect(worstH).toBeLessThan(2 * 2 ** -24 * maxAnom + 1e-12);
+    expect(worstH).toBeGreaterThan(0);
+    expect(worstU).toBeLessThanOrEqual(2 ** -24 * maxU);
+    const v0 = layerMass(built.model, run.state);
+    const v1 = layerMass(built.model, back.state);
+    for (let k = 0; k < L; k++) expect(Math.abs(v1[k] - v0[k]) / v0[k]).toBeLessThan(1e-14);
+  });
+
+  it("refuses a file of another mesh, naming the field", () => {
+    const f = encodeState(built.model, built.initial, { scenario: tiny.name, time: 0, step: 0, method: "rk4", dt: 60 });
+    expect(() => decodeState(built.model, { ...f, nCells: 10 })).toThrow(/^state\.nCells: the file holds 2 layers, 10 cells/);
+    expect(() => decodeState(built.model, { ...f, format: "x" })).toThrow(/^state\.format: must be "stepwell-state-1"/);
+  });
+
+  const states = existsSync("public/states") ? readdirSync("public/states").filter((f) => f.endsWith(".json")) : [];
+  for (const file of states) {
+    it(`public/states/${file} opens on its built-in scenario`, () => {
+      const raw = JSON.parse(readFileSync(join("public/states", file), "utf8"));
+      const b = buildScenario(parseScenario(builtinScenario(raw.scenario), "", { runLength: false }));
+      const s = decodeState(b.model, raw);
+      expect(s.time).toBeGreaterThan(0);
+      expect(readFileSync(join("public/states", file)).length).toBeLessThan(200_000);
+    });
+  }
 });
