@@ -644,6 +644,8 @@ export function referenceMembers(built: BuiltScenario, plan: StatisticsPlan, cac
     const initial = memberInitialState(built.initial, L * nc, m, plan.ensemble.perturbation, plan.ensemble.seed);
     run ??= new Run({ ...built, initial }, { ...r.spec, dt: r.dt } as StepperSpec);
     acc ??= new StatisticsAccumulator(built.model);
+    // a fresh stepper for every member: nothing a stepper carries between steps passes from one member to the next
+    run.setStepper({ ...r.spec, dt: r.dt } as StepperSpec, "--reference-method");
     run.reset();
     run.state.set(initial);
     run.lastGood.set(initial);
