@@ -75,6 +75,7 @@ type JobMessage =
   | { progress: StudyProgress }
   | { result: unknown }
   | { interrupted: unknown }
+  | { warning: string }
   | { error: { message: string; code?: SolverErrorCode; field?: string } };
 
 const PROGRESS_INTERVAL_MS = 100;
@@ -107,7 +108,7 @@ function tsxLoader(): string | null {
  * worker; the outcomes then hold what each had finished.
  */
 export async function runTasks<R, P>(args: ParsedArgs, tasks: readonly WorkerTask[], ctx: CliContext,
-  onProgress?: (p: { fraction: number; done: number; item: string }) => void): Promise<TaskOutcome<R, P>[]> {
+  onProgress?: (p: { fraction: number; done: number; item: string }) => void, onWarning?: (message: string) => void): Promise<TaskOutcome<R, P>[]> {
   const flag = ctx.stopFlag ?? new Int32Array(new SharedArrayBuffer(4));
   // a caller without a shared flag (tests, an embedding program) is polled and its answer copied into ours
   const poll = ctx.stopFlag ? null : setInterval(() => { if (ctx.stopReason() !== null) Atomics.store(flag, 0, 1); }, STOP_POLL_MS);
@@ -141,7 +142,8 @@ export async function runTasks<R, P>(args: ParsedArgs, tasks: readonly WorkerTas
               fraction: tasks.reduce((s, t, j) => s + t.weight * fractions[j], 0) / totalWeight,
               done: tasks.reduce((s, t, j) => s + Math.floor(t.weight * fractions[j] + 1e-9), 0), item: p.item,
             });
-          } else if ("result" in m) { outcomes[i] = { result: m.result as R }; fractions[i] = 1; settle(); }
+          } else if ("warning" in m) onWarning?.(m.warning);
+          else if ("result" in m) { outcomes[i] = { result: m.result as R }; fractions[i] = 1; settle(); }
           else if ("interrupted" in m) { outcomes[i] = { interrupted: m.interrupted as P }; settle(); }
           else if ("error" in m) {
             const e = m.error;
@@ -169,6 +171,7 @@ export async function jobWorkerMain(): Promise<void> {
   const hooks: StudyHooks = {
     clock: () => performance.now() / 1000,
     shouldCancel: () => Atomics.load(input.flag, 0) !== 0,
+    onWarning: (warning) => post({ warning }),
     onProgress: (p) => {
       const now = performance.now();
       if (now - last < PROGRESS_INTERVAL_MS && p.fraction < 1) return;

@@ -88,7 +88,8 @@ export function sweepSlice(args: ParsedArgs, shard: Shard, payload: unknown, hoo
   const def = sweepDefinition(args, numberOption(args, "duration", { positive: true }));
   const cache = new MemoryReferenceCache(1);
   cache.set(reference.key, reference);
-  return runSweep(buildScenario(scenario), def, { ...hooks, shard, cache, solver });
+  // the plan's warnings were given once by the caller
+  return runSweep(buildScenario(scenario), def, { ...hooks, onWarning: undefined, shard, cache, solver });
 }
 
 /**
