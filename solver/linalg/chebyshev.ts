@@ -1,5 +1,5 @@
 /**
- * Chebyshev backend for an operator with spectrum in i[−ρ, ρ] (numerics reference §7.3, §7.6).
+ * Chebyshev backend for an operator with spectrum in i[−ρ, ρ] (Tal-Ezer & Kosloff 1984; an exponential filter; common practice, no source).
  *
  * With X = A/(iρ) the real polynomials P_j(A) = i^j T_j(X) satisfy P_0 = I, P_1 = A/ρ,
  * P_{j+1} = (2/ρ) A P_j + P_{j−1}, so everything runs in real arithmetic. A function g on the spectrum,
@@ -59,7 +59,7 @@ function besselJInto(buf: Float64Array, x: number, start: number): void {
   for (let k = 0; k <= start; k++) buf[k] *= s;
 }
 
-/** σ at angular frequency ω: exp(−κ (|ω|/ω_c)^order) (numerics reference §7.6); 1 without a filter. */
+/** σ at angular frequency ω: exp(−κ (|ω|/ω_c)^order) (an exponential filter; common practice, no source); 1 without a filter. */
 export function filterValue(f: PhiFilter | undefined, omega: number): number {
   if (!f) return 1;
   return Math.exp(-f.strength * Math.pow(Math.abs(omega) / f.cutoff, f.order));

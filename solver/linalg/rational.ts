@@ -1,5 +1,5 @@
 /**
- * Rational (contour-integral) backend for skew operators (numerics reference §7.4):
+ * Rational (contour-integral) backend for skew operators (Trefethen, Weideman & Schmelzer 2006):
  *   Σ_k g_k(B) v_k = (1/2πi) ∮_Γ (zI − B)⁻¹ Σ_k g_k(z) v_k dz,   B = τA,  g_k(z) = τ^k φ_k(z),
  * with the trapezoid rule on an ellipse Γ: z(θ) = a cos θ + i b sin θ, a = R sinh η, b = R cosh η,
  * whose foci ±iR (R = τρ) are the ends of the spectral segment (the idea of evaluating matrix functions

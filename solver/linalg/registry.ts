@@ -1,5 +1,5 @@
 /**
- * The φ-backend registry: one factory per name, option checks at the boundary (numerics reference §7).
+ * The φ-backend registry: one factory per name, option checks at the boundary (Hochbruck & Lubich 1997; Al-Mohy & Higham 2011; Tal-Ezer & Kosloff 1984).
  */
 import { SolverError, badInput } from "../errors.js";
 import type { LinearOperator, PhiAction, PhiBackendName, PhiOptions } from "./types.js";

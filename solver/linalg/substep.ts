@@ -1,7 +1,7 @@
 /**
- * Sub-stepping backend, the split-explicit analogue (numerics reference §7.5): integrate
+ * Sub-stepping backend, the split-explicit analogue (common practice, no source): integrate
  *   y' = A y + Σ_{k=1}^{p} t^{k−1}/(k−1)! v_k,  y(0) = v_0,  over [0, τ],
- * whose solution is y(τ) = Σ_k τ^k φ_k(τA) v_k (numerics reference §6.1), with S classical RK4 steps
+ * whose solution is y(τ) = Σ_k τ^k φ_k(τA) v_k (Hochbruck & Ostermann 2010), with S classical RK4 steps
  * (Kutta 1901). Without a given `substeps` count, S makes h = τ/S satisfy hρ ≤ 1 and
  * τρ (hρ)^4/120 ≤ tol/2: the RK4 stability function differs from e^z by z^5/120 + O(z^6) (Taylor
  * expansion of R(z) = 1 + z + z²/2 + z³/6 + z⁴/24; common practice, no source), and that phase/amplitude

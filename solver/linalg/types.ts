@@ -1,5 +1,5 @@
 /**
- * Generic linear operators and matrix-function actions (numerics reference §6–7).
+ * Generic linear operators and matrix-function actions (Hochbruck & Ostermann 2010, Acta Numerica 19).
  * Everything here is matrix-free and allocation-free per call: factories allocate their work arrays once.
  */
 
@@ -42,7 +42,7 @@ export interface PhiStats {
 }
 
 /**
- * out = Σ_{k=0}^{p} τ^k φ_k(τ A) v[k], with φ_0 = exp (numerics reference §6.2).
+ * out = Σ_{k=0}^{p} τ^k φ_k(τ A) v[k], with φ_0 = exp (Al-Mohy & Higham 2011).
  * Steppers call it in increment form (v[0] = 0, tendencies in v[1..]), so mass stays exact.
  * `out` must not alias any v[k].
  */
@@ -52,7 +52,7 @@ export interface PhiAction {
   apply(out: Float64Array, tau: number, v: readonly Float64Array[]): void;
 }
 
-/** Optional damping of the highest resolved frequencies (numerics reference §7.6); off by default. */
+/** Optional damping of the highest resolved frequencies (an exponential filter; common practice, no source); off by default. */
 export interface PhiFilter {
   /** Cut-off angular frequency ω_c [1/s]; frequencies above it are damped. */
   cutoff: number;

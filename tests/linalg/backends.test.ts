@@ -51,7 +51,7 @@ describe("every backend reproduces Σ τ^k φ_k(τA) v_k on a weighted-skew 30×
 });
 
 describe("mass-like invariant: ℓᵀA = 0 and ℓᵀv_k = 0 imply ℓᵀ out = 0", () => {
-  // ℓᵀ φ_k(τA) = ℓᵀ/k!, so ℓᵀ out = Σ τ^k ℓᵀv_k / k! (series definition, numerics reference §6.1, §6.6)
+  // ℓᵀ φ_k(τA) = ℓᵀ/k!, so ℓᵀ out = Σ τ^k ℓᵀv_k / k! (series definition, Hochbruck & Ostermann 2010)
   const l = fx.leftNull;
   const project = (x: Float64Array) => {
     let a = 0, b = 0;
