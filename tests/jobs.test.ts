@@ -99,19 +99,20 @@ describe("--jobs", () => {
     const common = ["sweep", scenario, "--methods", "rk4,ssprk3", "--dt-factors", "0.4,0.2,0.1,0.05", "--duration", "1200"];
     const full = join(dir, "stop-full.json");
     expect((await cli([...common, "--jobs", "1", "--json", full])).code).toBe(0);
-    // ask to stop once the progress shows three rows done (the reference counts 2 units: "5/10 runs")
+    // ask to stop once the progress shows a row done (the reference counts 2 units: "3/10 runs"); the runs of
+    // most steps go first, so most of the work is still to do
     let stop = false;
     const ctx: CliContext = { stopReason: () => (stop ? "SIGINT" : null) };
     const part = join(dir, "stop-part.json");
     const r = await cli([...common, "--jobs", "2", "--json", part], ctx, (line) => {
       const m = /sweep (\d+)\/(\d+) runs/.exec(line);
-      if (m && Number(m[1]) >= 5) stop = true;
+      if (m && Number(m[1]) >= 3) stop = true;
     });
     expect(r.code, r.err).toBe(130);
     expect(r.err).toMatch(/interrupted \(SIGINT\) with \d+ of 8 runs finished/);
     const p = readJson(part);
     expect(p.status).toBe("interrupted");
-    expect(p.rows.length).toBeGreaterThanOrEqual(3);
+    expect(p.rows.length).toBeGreaterThanOrEqual(1);
     expect(p.rows.length).toBeLessThan(8);
     const f = readJson(full);
     p.items.forEach((k: number, j: number) => { expect(maskWall(p.rows[j])).toEqual(maskWall(f.rows[k])); });

@@ -66,9 +66,9 @@ export async function assessCommand(args: ParsedArgs, out: (s: string) => void, 
       // parts 1 and 2 side by side (weights: the order sweep a quarter of the work, the stability search half),
       // then the conservation and cost runs here, alone
       checkAssess(built, config);
-      const tasks = [1, 2].map((index) => ({ module: import.meta.url, fn: "assessPart", shard: { index, count: 2 }, payload: solver, weight: index }));
+      const tasks = [1, 2].map((index) => ({ module: import.meta.url, fn: "assessPart", shard: { index, count: 2 }, payload: solver }));
       const outcomes = await runTasks<SweepResult | StabilityResult, unknown>(args, tasks, ctx,
-        (p) => o.onProgress?.({ fraction: 0.75 * p.fraction, done: 0, total: 1, item: p.item }), warn);
+        ([a, b], item) => o.onProgress?.({ fraction: 0.25 * (a?.fraction ?? 0) + 0.5 * (b?.fraction ?? 0), done: 0, total: 1, item }), warn);
       const [order, stab] = outcomes;
       if (!("result" in order) || !("result" in stab)) throw new SolverError("cancelled", "assess cancelled");
       if (ctx.stopReason() !== null) throw new SolverError("cancelled", "assess cancelled");

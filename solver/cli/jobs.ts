@@ -55,9 +55,6 @@ export interface WorkerTask {
   shard: Shard;
   /** Structured-cloneable input of the slice (e.g. a reference run computed once by the caller). */
   payload?: unknown;
-  /** Work items of this task (its progress weight; progress counts them as done), and progress units of its prerequisite to leave out. */
-  weight: number;
-  prerequisiteUnits?: number;
 }
 
 /** How one task ended: its result, or what it had finished when a stop request came. */
@@ -103,18 +100,17 @@ function tsxLoader(): string | null {
 }
 
 /**
- * Run the tasks, one worker thread each, and return their outcomes in task order. `onProgress` gets the progress
- * of the whole set (fraction weighted by each task's `weight`, runs counted over all). A stop request stops every
+ * Run the tasks, one worker thread each, and return their outcomes in task order. `onProgress` gets the latest
+ * progress of every task (the caller knows how they add up to the whole study). A stop request stops every
  * worker; the outcomes then hold what each had finished.
  */
 export async function runTasks<R, P>(args: ParsedArgs, tasks: readonly WorkerTask[], ctx: CliContext,
-  onProgress?: (p: { fraction: number; done: number; item: string }) => void, onWarning?: (message: string) => void): Promise<TaskOutcome<R, P>[]> {
+  onProgress?: (latest: readonly (StudyProgress | undefined)[], item: string) => void, onWarning?: (message: string) => void): Promise<TaskOutcome<R, P>[]> {
   const flag = ctx.stopFlag ?? new Int32Array(new SharedArrayBuffer(4));
   // a caller without a shared flag (tests, an embedding program) is polled and its answer copied into ours
   const poll = ctx.stopFlag ? null : setInterval(() => { if (ctx.stopReason() !== null) Atomics.store(flag, 0, 1); }, STOP_POLL_MS);
   const tsxApi = tsxLoader();
-  const fractions = tasks.map(() => 0);
-  const totalWeight = tasks.reduce((s, t) => s + t.weight, 0) || 1;
+  const latest: (StudyProgress | undefined)[] = tasks.map(() => undefined);
   const workers: Worker[] = [];
   const outcomes: TaskOutcome<R, P>[] = new Array(tasks.length);
   try {
@@ -134,16 +130,10 @@ export async function runTasks<R, P>(args: ParsedArgs, tasks: readonly WorkerTas
         const settle = () => { if (!settled) { settled = true; if (--open === 0) resolve(); } };
         w.on("message", (m: JobMessage) => {
           if ("progress" in m) {
-            const p = m.progress;
-            const pre = task.prerequisiteUnits ?? 0;
-            const f = p.total > pre ? Math.max(0, (p.fraction * p.total - pre) / (p.total - pre)) : p.fraction;
-            fractions[i] = Math.min(1, f);
-            onProgress?.({
-              fraction: tasks.reduce((s, t, j) => s + t.weight * fractions[j], 0) / totalWeight,
-              done: tasks.reduce((s, t, j) => s + Math.floor(t.weight * fractions[j] + 1e-9), 0), item: p.item,
-            });
+            latest[i] = m.progress;
+            onProgress?.(latest, m.progress.item);
           } else if ("warning" in m) onWarning?.(m.warning);
-          else if ("result" in m) { outcomes[i] = { result: m.result as R }; fractions[i] = 1; settle(); }
+          else if ("result" in m) { outcomes[i] = { result: m.result as R }; settle(); }
           else if ("interrupted" in m) { outcomes[i] = { interrupted: m.interrupted as P }; settle(); }
           else if ("error" in m) {
             const e = m.error;

@@ -66,10 +66,14 @@ async function parallelStability(args: ParsedArgs, configs: readonly StepperConf
   const n = Math.min(jobs, configs.length);
   const tasks = Array.from({ length: n }, (_, i) => {
     const shard = { index: i + 1, count: n };
-    return { module: import.meta.url, fn: "stabilitySlice", shard, weight: shardItems(configs.length, shard).length };
+    return { module: import.meta.url, fn: "stabilitySlice", shard };
   });
-  const outcomes = await runTasks<StabilityPart, StabilityPart | null>(args, tasks, ctx,
-    (p) => onProgress({ fraction: p.fraction, done: p.done, total: configs.length, item: p.item }));
+  const sizes = tasks.map((t) => shardItems(configs.length, t.shard).length);
+  const outcomes = await runTasks<StabilityPart, StabilityPart | null>(args, tasks, ctx, (latest, item) => {
+    // a worker's fraction is of its own steppers; the searches done are counted whole
+    const done = latest.reduce((s, p, i) => s + (p ? p.fraction * sizes[i] : 0), 0);
+    onProgress({ fraction: done / configs.length, done: latest.reduce((s, p, i) => s + (p ? Math.floor(p.fraction * sizes[i] + 1e-9) : 0), 0), total: configs.length, item });
+  });
   const parts = outcomes.flatMap((o) => ("result" in o ? [o.result] : []));
   if (parts.length === n) return mergeStabilityParts(parts);
   const byItem = new Map<number, StabilityResult>();

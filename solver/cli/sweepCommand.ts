@@ -4,9 +4,9 @@ import { LIMIT_OPTIONS, LIMIT_USAGE, limitsFromArgs } from "./limitArgs.js";
 import { buildScenario } from "../scenario/build.js";
 import { parseScenario } from "../scenario/schema.js";
 import type { ErrorComponent } from "../studies/metrics.js";
-import { MemoryReferenceCache, referenceRun, type ReferenceCache, type ReferenceRecord } from "../studies/reference.js";
-import { parseShard, shardItems, type Shard } from "../studies/shard.js";
-import { mergeSweepParts, planSweep, runSweep, summarizeReference, type InterruptedSweep, type SweepDefinition, type SweepPart, type SweepResult, type SweepRow } from "../studies/sweep.js";
+import { referenceRun, type ReferenceCache, type ReferenceRecord } from "../studies/reference.js";
+import { parseShard, type Shard } from "../studies/shard.js";
+import { mergeSweepParts, planSweep, runSweep, summarizeReference, sweepRows, type InterruptedSweep, type SweepDefinition, type SweepPart, type SweepResult, type SweepRow } from "../studies/sweep.js";
 import { isCancellation, StudyInterrupted, StudyTracker, type StudyHooks } from "../studies/common.js";
 import type { BuiltScenario } from "../scenario/build.js";
 import { jobsForShard, runTasks } from "./jobs.js";
@@ -81,21 +81,51 @@ export function sweepDefinition(args: ParsedArgs, duration: number | undefined):
   return { limits, steppers, field, dts, dtFactors, duration, referenceSpec, referenceDt: numberOption(args, "reference-dt", { positive: true }), component, tolerance, matvecWeight };
 }
 
-/** One slice of a sweep in a worker thread (`--jobs`): the same arguments, the reference run computed once by the caller. */
+/** What a sweep's worker gets: the reference run (computed once by the caller) and the shared queue of work items. */
+interface SweepSlicePayload {
+  reference: ReferenceRecord;
+  /** The work items, most time steps first; `next[0]` is the position of the next one to take (shared by all workers). */
+  order: number[];
+  next: Int32Array;
+}
+
+/**
+ * One worker's share of a sweep (`--jobs`): it takes the next item of the shared queue until none are left
+ * (largest first, so that the long runs start early and the short ones fill in: the workers end close together),
+ * and returns its rows as a partial result for `mergeSweepParts`, which puts every row in its place.
+ */
 export function sweepSlice(args: ParsedArgs, shard: Shard, payload: unknown, hooks: StudyHooks): SweepPart {
-  const { reference, solver } = payload as { reference: ReferenceRecord; solver: string };
+  const { reference, order, next } = payload as SweepSlicePayload;
   const scenario = parseScenario(loadScenarioArg(args.positional[0]), "", { limits: limitsFromArgs(args), runLength: false });
-  const def = sweepDefinition(args, numberOption(args, "duration", { positive: true }));
-  const cache = new MemoryReferenceCache(1);
-  cache.set(reference.key, reference);
-  // the plan's warnings were given once by the caller
-  return runSweep(buildScenario(scenario), def, { ...hooks, onWarning: undefined, shard, cache, solver });
+  const built = buildScenario(scenario);
+  const plan = planSweep(built, sweepDefinition(args, numberOption(args, "duration", { positive: true })));
+  const taken: number[] = [];
+  function* queue(): Generator<number> {
+    for (;;) {
+      const j = Atomics.add(next, 0, 1);
+      if (j >= order.length) return;
+      taken.push(order[j]);
+      yield order[j];
+    }
+  }
+  const rows: SweepRow[] = [];
+  try {
+    sweepRows(built, plan, reference, queue(), new StudyTracker(hooks, plan.nItems), rows);
+  } catch (e) {
+    if (!isCancellation(e)) throw e;
+    throw new StudyInterrupted({ items: taken.slice(0, rows.length), rows }, rows.length, plan.nItems);
+  }
+  const ascending = taken.map((_, j) => j).sort((a, b) => taken[a] - taken[b]);
+  return {
+    kind: "stepwell-sweep-part", version: 1, study: plan.study, shard, nItems: plan.nItems, items: ascending.map((j) => taken[j]),
+    plan, reference: summarizeReference(reference), rows: ascending.map((j) => rows[j]),
+  };
 }
 
 /**
  * The sweep in `jobs` worker threads: the reference run first, here (the one prerequisite of every row; cached as
- * usual), then slice i of n in worker i, joined by `mergeSweepParts` — exactly the one-thread result but for the
- * rows' wall times. Stopped, it throws `StudyInterrupted` with the rows every worker finished, in item order.
+ * usual), then the rows from a shared queue, joined by `mergeSweepParts` — exactly the one-thread result but for
+ * the rows' wall times. Stopped, it throws `StudyInterrupted` with the rows every worker finished, in item order.
  */
 async function parallelSweep(args: ParsedArgs, built: BuiltScenario, def: SweepDefinition, jobs: number, cache: ReferenceCache, solver: string,
   hooks: StudyHooks & { onProgress: NonNullable<StudyHooks["onProgress"]> }, ctx: CliContext): Promise<SweepResult> {
@@ -113,13 +143,17 @@ async function parallelSweep(args: ParsedArgs, built: BuiltScenario, def: SweepD
     if (isCancellation(e)) throw stopped([], [], null);
     throw e;
   }
+  // most steps first (the cost of a run grows with its steps); ties in item order
+  const steps = (k: number) => plan.dts[k % plan.dts.length].steps;
+  const order = Array.from({ length: plan.nItems }, (_, k) => k).sort((a, b) => steps(b) - steps(a) || a - b);
+  const payload: SweepSlicePayload = { reference: ref, order, next: new Int32Array(new SharedArrayBuffer(4)) };
   const n = Math.min(jobs, plan.nItems);
-  const tasks = Array.from({ length: n }, (_, i) => {
-    const shard = { index: i + 1, count: n };
-    return { module: import.meta.url, fn: "sweepSlice", shard, payload: { reference: ref, solver }, weight: shardItems(plan.nItems, shard).length, prerequisiteUnits: 2 };
+  const tasks = Array.from({ length: n }, (_, i) => ({ module: import.meta.url, fn: "sweepSlice", shard: { index: i + 1, count: n }, payload }));
+  const outcomes = await runTasks<SweepPart, { items: number[]; rows: SweepRow[] } | null>(args, tasks, ctx, (latest, item) => {
+    // each worker's progress is its own rows (and the one in progress) over all rows of the study
+    const rows = latest.reduce((s, p) => s + (p ? p.fraction : 0), 0);
+    hooks.onProgress({ fraction: Math.min(1, (2 + plan.nItems * rows) / total), done: 2 + latest.reduce((s, p) => s + (p ? p.done : 0), 0), total, item });
   });
-  const outcomes = await runTasks<SweepPart, InterruptedSweep | null>(args, tasks, ctx,
-    (p) => hooks.onProgress({ fraction: (2 + plan.nItems * p.fraction) / total, done: 2 + p.done, total, item: p.item }));
   const parts = outcomes.flatMap((o) => ("result" in o ? [o.result] : []));
   if (parts.length === n) return mergeSweepParts(parts);
   const byItem = new Map<number, SweepRow>();
