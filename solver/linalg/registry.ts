@@ -9,6 +9,7 @@ import { taylorPhi } from "./taylor.js";
 import { chebyshevPhi } from "./chebyshev.js";
 import { substepPhi } from "./substep.js";
 import { rationalPhi } from "./rational.js";
+import { rationalDampedPhi } from "./rationalDamped.js";
 import { estimateSpectralBound } from "./spectralBound.js";
 
 export interface PhiBackendInfo {
@@ -22,6 +23,7 @@ export const phiBackends: readonly PhiBackendInfo[] = [
   { name: "chebyshev", description: "Chebyshev/Bessel expansion for spectra in i[-rho, rho]; needs spectralBound; supports the filter" },
   { name: "substep", description: "RK4 sub-steps of the polynomial-forced linear ODE (split-explicit analogue); no inner products" },
   { name: "rational", description: "elliptic-contour quadrature with GMRES shifted solves; skew operators, small problems only" },
+  { name: "rational-damped", description: "non-resolving: waves below filter.cutoff kept to the tolerance, faster ones damped, by Lanczos on (I − c²A²)⁻¹ with two cached sparse factorizations; cost does not grow with hρ; needs a fixed skew linear part and filter { cutoff }" },
   { name: "dense", description: "augmented-matrix exponential of the assembled matrix (Al-Mohy & Higham 2011, Thm 2.1); tests only" },
 ];
 
@@ -49,7 +51,7 @@ export function createPhiAction(backend: PhiBackendName, op: LinearOperator, opt
   }
   if (opts.filter) {
     const f = opts.filter;
-    if (backend !== "chebyshev") throw badInput(`${pf}.filter`, `the filter is supported by the chebyshev backend only, not "${backend}"`);
+    if (backend !== "chebyshev" && backend !== "rational-damped") throw badInput(`${pf}.filter`, `the filter is supported by the chebyshev and rational-damped backends only, not "${backend}"`);
     if (!(f.cutoff > 0 && Number.isFinite(f.cutoff))) throw badInput(`${pf}.filter.cutoff`, `cutoff must be > 0 1/s, got ${f.cutoff}`);
     if (!(f.order > 0 && Number.isFinite(f.order))) throw badInput(`${pf}.filter.order`, `order must be > 0, got ${f.order}`);
     if (!(f.strength >= 0 && Number.isFinite(f.strength))) throw badInput(`${pf}.filter.strength`, `strength must be ≥ 0, got ${f.strength}`);
@@ -71,6 +73,8 @@ export function createPhiAction(backend: PhiBackendName, op: LinearOperator, opt
     case "rational":
       if (!hasBound || !op.skew) throw badInput(`${pf}.backend`, "rational needs an operator with skew = true and a spectralBound");
       return rationalPhi(op, opts);
+    case "rational-damped":
+      return rationalDampedPhi(op, opts);
     case "dense":
       if (op.n > 2000) throw badInput(`${pf}.backend`, `dense backend is for small operators, n = ${op.n}`);
       return densePhi(op, opts);

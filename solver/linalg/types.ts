@@ -26,6 +26,11 @@ export interface LinearOperator {
   /** True when the spectrum is known to lie on the imaginary axis (Chebyshev and rational backends need it). */
   readonly skew?: boolean;
   readonly counters: OperatorCounters;
+  /**
+   * y = (I − γA)⁻¹ c for any real γ (y and c may alias), when the operator offers shifted solves (a sparse
+   * factorization per γ, computed once). Used by the rational-damped backend.
+   */
+  shiftedSolve?(y: Float64Array, c: Float64Array, gamma: number): void;
 }
 
 export interface PhiStats {
@@ -62,7 +67,7 @@ export interface PhiFilter {
   strength: number;
 }
 
-export type PhiBackendName = "krylov" | "taylor" | "chebyshev" | "substep" | "rational" | "dense";
+export type PhiBackendName = "krylov" | "taylor" | "chebyshev" | "substep" | "rational" | "rational-damped" | "dense";
 
 export interface PhiOptions {
   /** Relative tolerance of the action. */

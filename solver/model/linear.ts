@@ -24,6 +24,7 @@ import { deepestColumnSpeed, hexSpectralBound, layerCoupling } from "./modes.js"
 import { estimateSpectralBound } from "../linalg/spectralBound.js";
 import { KernelMemoryBuilder, padStencil } from "../kernels/wasm.js";
 import type { ShallowWaterModel, StateLayout } from "./shallowWater.js";
+import { operatorShiftedSolver, type OperatorShiftedSolver, type ShiftedSolverOptions } from "./shiftedSolve.js";
 
 export interface RestLinearOperator extends LinearOperator {
   readonly layout: StateLayout;
@@ -53,6 +54,14 @@ export interface RestLinearOperator extends LinearOperator {
   energyDot(a: Float64Array, b: Float64Array): number;
   /** Multiply-adds of one `apply` (a deterministic cost measure). */
   readonly multiplyAddsPerMatvec: number;
+  /**
+   * out = (I − γL)⁻¹ b (layer variables; out and b may alias): a sparse LU of I − γ·interfaceForm, computed once
+   * per γ and cached (shiftedSolve.ts), then the thickness part is set to b_h + γ (L out)_h — a layer
+   * divergence, so each layer's volume is that of b to round-off. Costs one product with L besides the substitutions.
+   */
+  solve(out: Float64Array, b: Float64Array, gamma: number): void;
+  /** The sparse solver behind `solve` (built on first use; its `stats` give the cost in products with L). */
+  shiftedSolver(options?: ShiftedSolverOptions): OperatorShiftedSolver;
 }
 
 export interface RestOperatorOptions {
@@ -225,7 +234,8 @@ export function restLinearOperator(model: ShallowWaterModel, opts: RestOperatorO
   let maxCoriolis = 0;
   for (let v = 0; v < m.nVertices; v++) maxCoriolis = Math.max(maxCoriolis, Math.abs(p.coriolisVertex[v]));
 
-  const tmpA = new Float64Array(n), tmpB = new Float64Array(n);
+  const tmpA = new Float64Array(n), tmpB = new Float64Array(n), solveTmp = new Float64Array(n);
+  let solver: OperatorShiftedSolver | undefined;
   const interfaceOp: { -readonly [K in keyof LinearOperator]: LinearOperator[K] } = {
     n, weights: interfaceWeights, skew: true, counters,
     apply(out, y) {
@@ -233,6 +243,9 @@ export function restLinearOperator(model: ShallowWaterModel, opts: RestOperatorO
       applyL(tmpB, tmpA);
       toInterface(out, tmpB);
       counters.matvecs++;
+    },
+    shiftedSolve(y, c, gamma) {
+      op.shiftedSolver().solve(y, c, gamma);
     },
   };
   const op: RestLinearOperator & { spectralBound: number } = {
@@ -245,6 +258,19 @@ export function restLinearOperator(model: ShallowWaterModel, opts: RestOperatorO
       counters.matvecs++;
     },
     toInterface, fromInterface,
+    shiftedSolver(options) {
+      solver ??= operatorShiftedSolver(interfaceOp, m, L, op.multiplyAddsPerMatvec, options);
+      return solver;
+    },
+    solve(out, b, gamma) {
+      const s = op.shiftedSolver();
+      toInterface(solveTmp, b);
+      s.solve(solveTmp, solveTmp, gamma);
+      fromInterface(out, solveTmp);
+      applyLayers(solveTmp, out);
+      counters.matvecs++;
+      for (let q = 0; q < uOffset; q++) out[q] = b[q] + gamma * solveTmp[q];
+    },
     energyDot(a, b) {
       toInterface(tmpA, a);
       toInterface(tmpB, b);

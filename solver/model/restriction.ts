@@ -38,6 +38,7 @@ import type { Mesh } from "../mesh/types.js";
 import type { ShallowWaterModel, StateLayout } from "./shallowWater.js";
 import { isRegularHexMesh, restLinearOperator, type RestLinearOperator } from "./linear.js";
 import { estimateSpectralBound } from "../linalg/spectralBound.js";
+import { operatorShiftedSolver, type OperatorShiftedSolver, type ShiftedSolverOptions } from "./shiftedSolve.js";
 
 export interface ModalRestriction {
   /** Number of kept modes m (1 = barotropic only). */
@@ -71,6 +72,14 @@ export interface ModalRestriction {
    * otherwise m×m blocks [slot·m² + a·m + b].
    */
   readonly coefficients: { readonly diagonal: boolean; readonly coriolis: Float64Array; readonly gradient: Float64Array; readonly divergence: Float64Array };
+  /**
+   * out = (I − γM)⁻¹ b for the restricted part M = Π̃ L Π on layer vectors (out and b may alias). Since
+   * R Π̃ L P = L̂, y = R out solves (I − γL̂) y = R b (a sparse LU of the modal system, once per γ, cached) and
+   * out = b + γ Π̃ L P y: the thickness correction is a layer divergence, so layer volumes are those of b.
+   */
+  solve(out: Float64Array, b: Float64Array, gamma: number): void;
+  /** The sparse solver of the modal system behind `solve` (built on first use; `stats` in products with L̂). */
+  shiftedSolver(options?: ShiftedSolverOptions): OperatorShiftedSolver;
 }
 
 export function modalRestriction(model: ShallowWaterModel, nModes: number, rest: RestLinearOperator = restLinearOperator(model)): ModalRestriction {
@@ -367,6 +376,9 @@ export function modalRestriction(model: ShallowWaterModel, nModes: number, rest:
       applyThickness(out, y);
       applyVelocity(out, y);
     },
+    shiftedSolve(y, c, gamma) {
+      shiftedSolver().solve(y, c, gamma);
+    },
   };
   const restrictTmp = new Float64Array(nModal);
   const restrictedOp: { -readonly [K in keyof LinearOperator]: LinearOperator[K] } = {
@@ -390,10 +402,24 @@ export function modalRestriction(model: ShallowWaterModel, nModes: number, rest:
   modalOp.spectralBound = bound;
   restrictedOp.spectralBound = bound;
 
+  const multiplyAddsPerMatvec = (diagonal ? m : mm) * (nnzT + 2 * ne + nnzC);
+  let solver: OperatorShiftedSolver | undefined;
+  const solveModal = new Float64Array(nModal), solveLift = new Float64Array(n);
+  function shiftedSolver(options?: ShiftedSolverOptions): OperatorShiftedSolver {
+    solver ??= operatorShiftedSolver(modalOp, mesh, m, multiplyAddsPerMatvec, options);
+    return solver;
+  }
   return {
     modes: m, layout, modalLayout, flat, speeds, rest,
     restrict, prolong, project, operator: modalOp, liftApply, restricted: restrictedOp,
-    multiplyAddsPerMatvec: (flat ? m : mm) * (nnzT + 2 * ne + nnzC),
+    multiplyAddsPerMatvec, shiftedSolver,
+    solve(out, b, gamma) {
+      const s = shiftedSolver();
+      restrict(solveModal, b);
+      s.solve(solveModal, solveModal, gamma);
+      liftApply(solveLift, solveModal);
+      for (let q = 0; q < n; q++) out[q] = b[q] + gamma * solveLift[q];
+    },
     coefficients: diagonal
       ? { diagonal, coriolis: corDiag, gradient: gradDiag, divergence: divDiag }
       : { diagonal, coriolis: corBlk, gradient: gradBlk, divergence: divBlk },
