@@ -7,6 +7,9 @@ import { RunControls } from "./panels/RunControls.js";
 import { ScenarioPanel } from "./panels/ScenarioPanel.js";
 import { StepperPanel } from "./panels/StepperPanel.js";
 import { useSandbox } from "./useSandbox.js";
+import { CodePanel } from "./code/CodePanel.js";
+import { withCode } from "./code/userCode.js";
+import { CompareView } from "./compare/CompareView.js";
 
 type Tab = "stepper" | "scenario" | "modes";
 const TABS: { id: Tab; label: string }[] = [
@@ -24,6 +27,7 @@ export function App() {
   const sb = useSandbox();
   const [tab, setTab] = useState<Tab>("stepper");
   const [logScale, setLogScale] = useState(true);
+  const [compareOpen, setCompareOpen] = useState(false);
 
   // keyboard: space runs/pauses, s steps (not while typing in a field)
   useEffect(() => {
@@ -39,7 +43,7 @@ export function App() {
   const exportScenario = useCallback(() => {
     const s = sb.currentScenario();
     if (!s) return;
-    const blob = new Blob([JSON.stringify(s, null, 2)], { type: "application/json" });
+    const blob = new Blob([JSON.stringify(withCode(s, sb.shareCode()), null, 2)], { type: "application/json" });
     const a = document.createElement("a");
     a.href = URL.createObjectURL(blob);
     a.download = `${s.name}.json`;
@@ -56,6 +60,7 @@ export function App() {
         <RunControls running={sb.running} ready={!!s && !sb.loading} time={sb.report?.time ?? 0} steps={sb.report?.step ?? 0}
           rates={sb.rates} label={s?.stepper.label ?? ""} onToggle={sb.toggle} onStep={() => void sb.stepOnce()} onReset={() => void sb.reset()} />
         <button data-testid="share-button" disabled={!s} onClick={sb.share}>Share link</button>
+        <button data-testid="open-compare" disabled={!s || sb.loading} onClick={() => { sb.pause(); setCompareOpen(true); }}>Side by side</button>
       </header>
       {sb.shareUrl && (
         <div className="share-row" data-testid="share-row">
@@ -102,6 +107,8 @@ export function App() {
           </div>
         </main>
       )}
+      {s && <CodePanel sb={sb} />}
+      {s && compareOpen && <CompareView sb={sb} onClose={() => setCompareOpen(false)} />}
     </div>
   );
 }

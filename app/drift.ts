@@ -1,3 +1,5 @@
+import type { EnergyBudgetTerms } from "../solver/diagnostics/energyBudget.js";
+
 /** Drift series for the plots, derived from the raw budget samples the worker reports every chunk. */
 export interface BudgetSample {
   /** Simulated time [s]. */
@@ -6,6 +8,8 @@ export interface BudgetSample {
   energy: number;
   /** Volume of each layer [m³]. */
   mass: number[];
+  /** The energy budget since the start of the run, when the worker tracks it. */
+  energyBudget?: EnergyBudgetTerms | null;
 }
 
 export interface DriftSeries {

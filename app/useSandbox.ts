@@ -1,9 +1,11 @@
 import { useCallback, useEffect, useMemo, useRef, useState } from "react";
 import { transfer } from "comlink";
-import { failureMessage, isWorkerFailure, SolverClient } from "../workers/client.js";
+import { failureMessage, isTimeoutReason, isWorkerFailure, SolverClient } from "../workers/client.js";
 import type {
-  ChunkReport, InitResult, MapView, Scenario, Snapshot, StepperSpec, UnstableInfo, WorkerFailure,
+  Checkpoint, ChunkReport, InitResult, LoadedModule, MapView, Scenario, Snapshot, StepperSpec, UnstableInfo, WorkerFailure,
 } from "../workers/protocol.js";
+import { splitScenarioCode, withCode, type StepperCode } from "./code/userCode.js";
+import { fmt, formatDays } from "./format.js";
 import { thin, type BudgetSample } from "./drift.js";
 import { mapPerf } from "./perf.js";
 import { decodeSetup, encodeSetup } from "./share.js";
@@ -19,6 +21,14 @@ const CHUNK_TARGET_MS = 30;
 const HISTORY_LIMIT = 3000;
 /** While running, panels (text, plots) refresh at most this often [ms]; the map redraws on every snapshot. */
 const PANEL_REFRESH_MS = 200;
+/**
+ * Longest one call to the solver may take [ms] — one step, or building a stepper. The worker answers every
+ * ≤ 50 ms slice, so only a single step (or a stepper's create) that runs longer trips it: the worker is then
+ * ended and a new one continues from the last good state. Shown in the page.
+ */
+export const STEP_TIMEOUT_MS = 5000;
+/** Reset waits this long for a step in progress before it ends the worker instead [ms]. */
+const RESET_PATIENCE_MS = 150;
 
 export interface Notice {
   id: number;
@@ -114,7 +124,8 @@ export function useSandbox() {
 
   const acceptReport = (rep: ChunkReport, fresh = false) => {
     pendingReport.current = rep;
-    const sample: BudgetSample = { time: rep.time, energy: rep.budget.energy, mass: rep.budget.mass };
+    const sample: BudgetSample = { time: rep.time, energy: rep.budget.energy, mass: rep.budget.mass, energyBudget: rep.energyBudget };
+    noteProgress(rep);
     if (fresh) historyRef.current = [sample];
     else if (rep.chunkSteps > 0) historyRef.current = thin([...historyRef.current, sample], HISTORY_LIMIT);
     const c = rep.counters;
@@ -139,6 +150,8 @@ export function useSandbox() {
     setSetup(rest);
     scenarioRef.current = { ...res.scenario, stepper: res.stepper.spec };
     setUnstable(null);
+    checkpointRef.current = null;
+    progressSpecs.current = [];
     setScenarioError(null);
     setStepperError(null);
     spareRef.current = null;
@@ -156,7 +169,7 @@ export function useSandbox() {
 
   const handleFailure = (e: unknown, what: string) => {
     stop();
-    if (isWorkerFailure(e) && e.code === "worker-died") return; // the restart notice says it
+    if (isWorkerFailure(e) && (e.code === "worker-died" || e.code === "timeout")) return; // the restart notice says it
     notify("error", "run-error", `${what}: ${failureMessage(e)}`);
   };
 
@@ -182,7 +195,7 @@ export function useSandbox() {
     setLoading(true);
     const decoded = decodeSetup(window.location.hash);
     if (decoded.kind === "ok") {
-      const fail = await load(decoded.scenario);
+      const fail = await load(takeLinkCode(decoded.scenario));
       if (!fail) { setLoading(false); return; }
       notify("warning", "link-error", `The shared link could not be used: ${fail.message}. The default scenario was loaded instead.`);
     } else if (decoded.kind === "broken") {
@@ -196,7 +209,7 @@ export function useSandbox() {
     /** Fetch the built-ins, then load the link in the address bar or the default scenario. */
     const boot = async () => {
       try {
-        builtinsRef.current = await c.call((r) => r.builtins());
+        builtinsRef.current = await c.call((r) => r.builtins(), 120_000);
         setBuiltins(builtinsRef.current);
         await startFromLocation();
       } catch (e) {
@@ -205,12 +218,14 @@ export function useSandbox() {
       }
     };
     const c = new SolverClient({
+      callTimeoutMs: STEP_TIMEOUT_MS,
       onRestart: (reason, gaveUp) => {
         stop();
         if (gaveUp) {
           notify("error", "worker-restarted", `The solver worker keeps stopping (${reason}); it was not started again. Reload the page to try once more.`);
           return;
         }
+        if (recoverRef.current(reason)) return; // a watchdog stop or a reset during a long step: handled there
         notify("error", "worker-restarted", `The solver worker stopped (${reason}). A new one was started and the run was set back to its start.`);
         const s = scenarioRef.current;
         void (async () => {
@@ -241,8 +256,11 @@ export function useSandbox() {
       let rep: ChunkReport;
       try {
         const n = stepsPerChunk.current;
+        busySince.current = performance.now();
         rep = await client().call((r) => r.advance(n, viewRef.current, takeSpare()));
+        busySince.current = 0;
       } catch (e) {
+        busySince.current = 0;
         handleFailure(e, "The run stopped");
         return;
       }
@@ -269,14 +287,24 @@ export function useSandbox() {
   const stepOnce = useCallback(async () => {
     if (runningRef.current || !scenarioRef.current) return;
     try {
+      busySince.current = performance.now();
       acceptReport(await client().call((r) => r.advance(1, viewRef.current, takeSpare())));
     } catch (e) {
       handleFailure(e, "The step failed");
+    } finally {
+      busySince.current = 0;
     }
   }, []);
 
   const reset = useCallback(async () => {
     stop();
+    if (busySince.current && performance.now() - busySince.current > RESET_PATIENCE_MS) {
+      // one long step is still computing: end that worker rather than wait for it, and start again from the start
+      resetPending.current = true;
+      client().restart("Reset was pressed while a step was still computing");
+      return;
+    }
+    checkpointRef.current = null;
     try {
       acceptReport(await client().call((r) => r.reset(viewRef.current)), true);
       setUnstable(null);
@@ -320,7 +348,10 @@ export function useSandbox() {
   const importScenario = useCallback(async (text: string, fileName: string): Promise<boolean> => {
     stop();
     try {
-      adopt(await client().call((r) => r.initFromText(text, viewRef.current), 120_000));
+      // a file exported with stepper code: the code waits in the editor for consent, the solver gets the rest
+      let body = text;
+      try { const raw: unknown = JSON.parse(text); if (raw && typeof raw === "object" && "stepperCode" in raw) body = JSON.stringify(takeLinkCode(raw)); } catch { /* the worker words the syntax error */ }
+      adopt(await client().call((r) => r.initFromText(body, viewRef.current), 120_000));
       return true;
     } catch (e) {
       const f: WorkerFailure = isWorkerFailure(e) ? e : { name: "WorkerError", code: "internal", message: failureMessage(e) };
@@ -334,7 +365,7 @@ export function useSandbox() {
   const share = useCallback(() => {
     const s = scenarioRef.current;
     if (!s) return "";
-    const hash = `#${encodeSetup(s)}`;
+    const hash = `#${encodeSetup(withCode(s, shareCodeRef.current))}`;
     lastSharedHash.current = hash;
     const url = `${window.location.origin}${window.location.pathname}${hash}`;
     window.history.replaceState(null, "", url);
@@ -351,7 +382,99 @@ export function useSandbox() {
   }, []);
   const history = useMemo(() => historyRef.current, [historyVersion]);
 
+  // ---- User code, checkpoints and the watchdog's recovery (stepper code panel; never-block rule) ----
+  /** Code of the editor modules loaded so far (key → JavaScript), loaded again into a restarted worker. */
+  const modulesRef = useRef(new Map<string, string>());
+  /** The last good state the worker sent (null: the scenario's start). */
+  const checkpointRef = useRef<Checkpoint | null>(null);
+  /** Stepper specs that made progress, most recent last: the watchdog falls back to one that is not the stopped one. */
+  const progressSpecs = useRef<StepperSpec[]>([]);
+  const busySince = useRef(0);
+  const resetPending = useRef(false);
+  const shareCodeRef = useRef<StepperCode | null>(null);
+  const editorCodeRef = useRef<StepperCode | null>(null);
+  const [linkCode, setLinkCode] = useState<{ code: StepperCode; spec: StepperSpec | null } | null>(null);
+  const recoverRef = useRef<(reason: string) => boolean>(() => false);
+
+  function noteProgress(rep: ChunkReport) {
+    if (rep.checkpoint) checkpointRef.current = rep.checkpoint;
+    const spec = scenarioRef.current?.stepper;
+    if (!spec || rep.chunkSteps <= 0) return;
+    const list = progressSpecs.current;
+    const key = JSON.stringify(spec);
+    if (!list.length || JSON.stringify(list[list.length - 1]) !== key) {
+      progressSpecs.current = [...list.filter((x) => JSON.stringify(x) !== key), spec].slice(-8);
+    }
+  }
+
+  /** A scenario from a link: the code it carries waits for consent; the solver gets the scenario without it. */
+  function takeLinkCode(raw: unknown): unknown {
+    const { scenario, code, spec } = splitScenarioCode(raw);
+    setLinkCode(code ? { code, spec } : null);
+    return scenario;
+  }
+
+  const reloadModules = async () => {
+    for (const [key, js] of modulesRef.current) await client().call((r) => r.loadModule(key, js), 120_000).catch(() => undefined);
+  };
+
+  recoverRef.current = (reason: string): boolean => {
+    // a watchdog stop (a call that timed out) or a Reset that ended a long step; other deaths restart from the start
+    const s = scenarioRef.current;
+    if (!s || !builtinsRef.current.length) return false;
+    if (resetPending.current) {
+      resetPending.current = false;
+      checkpointRef.current = null;
+      notify("info", "watchdog", "Reset: the step that was computing was abandoned (its worker was ended) and the run was set back to its start.");
+      void reloadModules().then(() => load(s)).then((fail) => { if (fail) notify("error", "run-error", `Reset failed: ${fail.message}`); });
+      return true;
+    }
+    if (!isTimeoutReason(reason)) return false; // a crash: the usual restart from the start
+    const hung = s.stepper;
+    const key = JSON.stringify(hung);
+    const cp = checkpointRef.current;
+    // the stepper that made the last good state, else the last other one that made progress, else RK4 at half its limit
+    const earlier = cp && JSON.stringify(cp.spec) !== key ? cp.spec : [...progressSpecs.current].reverse().find((x) => JSON.stringify(x) !== key);
+    const rk4Limit = setupRef.current?.description.rk4DtLimit ?? hung.dt;
+    const fallback: StepperSpec = earlier ?? ({ method: "rk4", dt: Number((0.5 * rk4Limit).toPrecision(3)) } as StepperSpec);
+    const where = cp ? `step ${cp.step}, t = ${formatDays(cp.time)}` : "its start";
+    const label = hung.module ? `the stepper from the code panel (${String(hung.module).replace(/^editor:/, "")})` : `${hung.method}`;
+    notify("error", "watchdog",
+      `Stopped: one step of ${label} took longer than the ${STEP_TIMEOUT_MS / 1000} s time-out. ` +
+      `The solver worker was ended and a new one started; the run goes on from the last good state (${where}) with ` +
+      `${fallback.module ? String(fallback.module).replace(/^editor:/, "") : fallback.method} at Δt = ${fmt(fallback.dt)} s.`);
+    void (async () => {
+      try {
+        await reloadModules();
+        const res = await client().call((r) => r.restore(s, fallback, cp, viewRef.current), 120_000);
+        const specs = progressSpecs.current;
+        adopt(res);
+        checkpointRef.current = cp;
+        progressSpecs.current = specs;
+      } catch (e) {
+        notify("error", "run-error", `The run could not be restored: ${failureMessage(e)}`);
+        await loadDefault();
+      }
+    })();
+    return true;
+  };
+
+  /** Load an editor module's JavaScript into the solver worker (checked there; kept for restarts). */
+  const loadModule = useCallback(async (key: string, js: string): Promise<LoadedModule> => {
+    const m = await client().call((r) => r.loadModule(key, js));
+    modulesRef.current.set(key, js);
+    return m;
+  }, []);
+  /** The code panel's text, and whether it goes with share links and exports (not while it is the bare template). */
+  const setShareCode = useCallback((c: StepperCode, share: boolean) => { editorCodeRef.current = c; shareCodeRef.current = share ? c : null; }, []);
+  const editorCode = useCallback(() => editorCodeRef.current, []);
+  const shareCode = useCallback(() => shareCodeRef.current, []);
+  const dropLinkCode = useCallback(() => setLinkCode(null), []);
+  const setupRef = useRef<Setup | null>(null);
+  setupRef.current = setup;
+
   return {
+    loadModule, linkCode, dropLinkCode, setShareCode, shareCode, editorCode, stepTimeoutMs: STEP_TIMEOUT_MS,
     loading, setup, builtins, report, running, view, notices, unstable, rates, scenarioError, stepperError, shareUrl,
     snapshotVersion, history, getSnapshot, subscribeSnapshot,
     run, pause, toggle, stepOnce, reset, setView, applyStepper, applyScenario, importScenario, currentScenario, share,

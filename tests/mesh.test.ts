@@ -22,7 +22,7 @@ describe("periodic hexagonal mesh geometry", () => {
       expect(m.nEdges).toBe(3 * m.nCells);
       expect(m.nVertices).toBe(2 * m.nCells);
     });
-    it(`${name}: cell, dual-triangle and rhombus areas each sum to the domain area (numerics reference §3.2, T1)`, () => {
+    it(`${name}: cell, dual-triangle and rhombus areas each sum to the domain area (Thuburn et al. 2009)`, () => {
       const area = m.width * m.height;
       expect(Math.abs(sum(m.cellArea) - area) / area).toBeLessThan(1e-12);
       expect(Math.abs(sum(m.vertexArea) - area) / area).toBeLessThan(1e-12);
@@ -131,7 +131,7 @@ function checkBasin(m: Mesh): void {
   for (let e = 0; e < m.nEdges; e++) interiorEdges += m.edgeOpen[e];
   let interiorVertices = 0;
   for (let v = 0; v < m.nVertices; v++) interiorVertices += m.vertexInterior[v];
-  // Euler relation for a simply connected planar region (numerics reference §3.4)
+  // Euler relation for a simply connected planar region (Thuburn et al. 2009)
   expect(interiorEdges).toBe(m.nCells - 1 + interiorVertices);
   // each open edge appears in exactly two cells with opposite orientation, each coastline edge in one
   const seen = new Float64Array(m.nEdges);

@@ -104,7 +104,7 @@ describe("conservation", () => {
     });
   }
 
-  it("wind stress does work Σ l d τ_e u_e / ρ0 on the top layer and nothing else (energy budget, numerics reference §1.4)", () => {
+  it("wind stress does work Σ l d τ_e u_e / ρ0 on the top layer and nothing else (energy budget, Ringler et al. 2010)", () => {
     const run = createRun(scenario({
       mesh: { type: "basin-hex", shape: "rectangle", width: 300000, height: 240000, spacing: 20000 },
       layers: threeLayers, physics: { f0: 1e-4, beta: 2e-11, wind: { type: "zonal-cosine", amplitude: 0.15 } },
@@ -121,7 +121,7 @@ describe("conservation", () => {
     expect(Math.abs(rate - work) / scale).toBeLessThan(1e-13);
   });
 
-  it("the vector Laplacian dissipates: Σ l d u ∇²u = −Σ A δ² − Σ A_v ζ² (numerics reference §3.7)", async () => {
+  it("the vector Laplacian dissipates: Σ l d u ∇²u = −Σ A δ² − Σ A_v ζ² (Ringler et al. 2010)", async () => {
     const { vectorLaplacian } = await import("../solver/model/terms");
     const { divergence, curl } = await import("../solver/mesh/operators");
     const run = createRun(scenario({ mesh: { type: "periodic-hex", cellsX: 12, cellsY: 12, spacing: 20000, jitter: 0.08, seed: 2 } }));
@@ -143,7 +143,7 @@ describe("conservation", () => {
     expect(Math.abs(lhs - rhs) / Math.abs(rhs)).toBeLessThan(1e-12);
   });
 
-  it("the energy tendency is negative with drag and viscosity (dissipation identity, numerics reference §3.7)", () => {
+  it("the energy tendency is negative with drag and viscosity (dissipation identity, Ringler et al. 2010)", () => {
     const run = createRun(scenario({ layers: threeLayers, physics: { f0: 1e-4, bottomDrag: 1e-5, viscosity: 1000 } }));
     perturb(run, 3, 5, 0.3);
     const { rate, scale } = energyTendency(run.model, run.state);
@@ -229,7 +229,7 @@ describe("balance and waves", () => {
     return { omega: (lo + hi) / 2, k, c };
   }
 
-  it("long gravity waves travel at √(gH) (Gill 1982, Atmosphere–Ocean Dynamics §5; TRiSK dispersion error (kd)²/32, numerics §4.2)", () => {
+  it("long gravity waves travel at √(gH) (Gill 1982, Atmosphere–Ocean Dynamics §5; TRiSK dispersion error (kd)²/32, Thuburn et al. 2009)", () => {
     const { omega, k, c } = measuredFrequency(0);
     const d = 20000;
     expect(Math.abs(omega / k - c) / c).toBeLessThan(2 * ((k * d) ** 2) / 32 + 1e-4);
@@ -247,7 +247,7 @@ describe("balance and waves", () => {
 });
 
 describe("vertical modes", () => {
-  // Worked two-layer example: H1 = 500 m, H2 = 3500 m, g' = 0.02 m/s² (numerics reference §2.3)
+  // Worked two-layer example: H1 = 500 m, H2 = 3500 m, g' = 0.02 m/s² (Gill 1982, §6.2)
   const g = 9.81;
   const gp = 0.02;
   const H1 = 500;
@@ -260,7 +260,7 @@ describe("vertical modes", () => {
     const c1 = Math.sqrt(0.5 * (tr - Math.sqrt(tr * tr - 4 * det)));
     expect(Math.abs(modes.speeds[0] - c0) / c0).toBeLessThan(1e-12);
     expect(Math.abs(modes.speeds[1] - c1) / c1).toBeLessThan(1e-12);
-    expect(modes.speeds[0]).toBeCloseTo(198.245, 2); // numerics reference §2.3 worked value
+    expect(modes.speeds[0]).toBeCloseTo(198.245, 2); // Gill 1982, §6.2 worked value
     expect(modes.speeds[1]).toBeCloseTo(2.9557, 3);
   });
   it("and Gill's weak-stratification approximations c0² ≈ g(H1+H2), c1² ≈ g'H1H2/(H1+H2) to 0.1% (Gill 1982, §6.2)", () => {
@@ -268,7 +268,7 @@ describe("vertical modes", () => {
     expect(Math.abs(modes.speeds[1] - Math.sqrt((gp * H1 * H2) / (H1 + H2))) / modes.speeds[1]).toBeLessThan(1e-3);
     expect(modes.rossbyRadii[1]).toBeCloseTo(modes.speeds[1] / 1e-4, 6);
   });
-  it("mode structures are orthonormal in the thickness-weighted product, SᵀHS = H_tot I (numerics reference §2.2)", () => {
+  it("mode structures are orthonormal in the thickness-weighted product, SᵀHS = H_tot I (Gill 1982, §6.2)", () => {
     const m3 = verticalModes([9.81, 0.014, 0.011], [300, 700, 3000], 1e-4);
     const S = m3.structure;
     for (let a = 0; a < 3; a++) {
@@ -305,7 +305,7 @@ describe("explicit Runge–Kutta steppers", () => {
     });
   }
 
-  it("RK4's stability limit matches the 2√2 imaginary-axis bound with ω_max = √6 c/d of the hexagonal mesh (numerics reference §4.2–4.3)", () => {
+  it("RK4's stability limit matches the 2√2 imaginary-axis bound with ω_max = √6 c/d of the hexagonal mesh (Thuburn et al. 2009)", () => {
     // λ_max of the discrete Laplacian on the regular hexagonal lattice is 6/d² at the K point (three-colouring
     // pattern, needs cellsX divisible by 3), so ω_max = √(6 g H)/d; RK4 is stable on the imaginary axis for |z| ≤ 2√2.
     const H = 100;

@@ -59,7 +59,8 @@ function shorten(argv: string[]): string[] {
   const a = [...argv];
   const d = a.indexOf("--duration");
   if (d >= 0 && Number(a[d + 1]) > MAX_DURATION) a[d + 1] = String(MAX_DURATION);
-  if (a[0] === "run" && !a.includes("--steps")) {
+  // runs that write or read NetCDF are documented short already (and a restart needs its output times)
+  if (a[0] === "run" && !a.includes("--steps") && !a.includes("--netcdf") && !a.includes("--restart")) {
     if (d >= 0) a.splice(d, 2);
     a.push("--steps", "5");
   }

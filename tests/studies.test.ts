@@ -38,7 +38,7 @@ const cellsY = 12;
 /**
  * Largest eigenvalue of the TRiSK Laplacian −DG over the wave vectors this periodic rectangle resolves, from the
  * regular-hexagon symbol λ(k) = 4/(3d²) Σ_j (1 − cos θ_j), θ_j = k·a_j, a_j the three nearest-neighbour vectors at
- * 120° (numerics reference §4.2). Periods: L_x = n_x d, L_y = n_y (√3/2) d.
+ * 120° (Thuburn et al. 2009). Periods: L_x = n_x d, L_y = n_y (√3/2) d.
  */
 function laplacianMax(nx: number, ny: number, spacing: number): number {
   let best = 0;
@@ -82,13 +82,13 @@ writeFileSync(smoothFile, JSON.stringify(smooth));
 
 describe("stability limit search", () => {
   it("recovers the RK4 and SSPRK3 limits on a resting periodic hexagonal mesh, f = 0", () => {
-    // Source: numerics reference §4.2 — λ_max = 6/d² at the K point of the hexagonal lattice; the lattice scan
+    // Source: Thuburn et al. 2009 — λ_max = 6/d² at the K point of the hexagonal lattice; the lattice scan
     // below recomputes it from the symbol, so ω_max = √(gH λ_max) = √6 √(gH)/d.
     const lamMax = laplacianMax(cellsX, cellsY, d);
     expect(lamMax * d * d).toBeCloseTo(6, 10);
     const wMax = Math.sqrt(g * H * lamMax);
     // Source: RK4 stability region reaches the imaginary axis up to |z| = 2√2, SSPRK3 (any 3-stage order-3 RK)
-    // up to √3 (Gottlieb, Shu & Tadmor 2001, SIAM Review 43; numerics reference §4.3, table row T14).
+    // up to √3 (Gottlieb, Shu & Tadmor 2001, SIAM Review 43; Hairer & Wanner 1996, Solving ODEs II, §IV.2).
     const rk4 = (2 * Math.SQRT2) / wMax;
     const ssp = Math.sqrt(3) / wMax;
     const built = restingHex();
@@ -127,7 +127,7 @@ describe("convergence sweep", () => {
     // Nominal orders from the registry: exponential Euler 1, ETD2RK 2, ETDRK4 / Krogstad 4 (Cox & Matthews 2002,
     // J. Comput. Phys. 176; Krogstad 2005, J. Comput. Phys. 203), exprb2/32/43 2/3/4 (Hochbruck, Ostermann &
     // Schweitzer 2009, SIAM J. Numer. Anal. 47). The Rosenbrock ones keep their order only with the Jacobian as the
-    // linear part (Hochbruck & Ostermann 2010, Acta Numerica 19; numerics reference §4.5). Their linear part is
+    // linear part (Hochbruck & Ostermann 2010, Acta Numerica 19; measured with this code). Their linear part is
     // exact, so Δt goes beyond the RK4 limit; a tight φ tolerance and a fine reference keep the floor low.
     const steppers: StepperConfig[] = exponential.map((m) => {
       const spec: StepperConfig = { method: m.name };

@@ -28,6 +28,10 @@ export function failureMessage(e: unknown): string {
   return String(e);
 }
 
+/** How a restart after a call's time-out is worded (the owner tells it from other deaths by this). */
+const TIMEOUT_REASON = "the solver did not answer within";
+export const isTimeoutReason = (reason: string) => reason.startsWith(TIMEOUT_REASON);
+
 export class SolverClient {
   private worker!: Worker;
   private remote!: SolverRemote;
@@ -90,7 +94,7 @@ export class SolverClient {
     const run = async (): Promise<T> => {
       let timer: ReturnType<typeof setTimeout> | undefined;
       const timeout = new Promise<never>((_, reject) => {
-        timer = setTimeout(() => reject({ name: "WorkerError", code: "timeout", message: `the solver did not answer within ${timeoutMs / 1000} s` }), timeoutMs);
+        timer = setTimeout(() => reject({ name: "WorkerError", code: "timeout", message: `${TIMEOUT_REASON} ${timeoutMs / 1000} s` }), timeoutMs);
       });
       try {
         return await Promise.race([f(remote), died, timeout]);

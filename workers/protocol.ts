@@ -86,6 +86,32 @@ export interface ChunkReport {
    */
   energyBudget: EnergyBudgetSummary | null;
   energyDrift: { value: number | null; reason?: string };
+  /**
+   * A copy of the state after this chunk, sent at most about once a second and after every change of stepper,
+   * so that the page can restart a stopped worker from it (see `Checkpoint`).
+   */
+  checkpoint?: Checkpoint;
+}
+
+/** The last good state the page keeps, to restart a worker that had to be stopped. */
+export interface Checkpoint {
+  state: Float64Array;
+  time: number;
+  step: number;
+  spec: StepperSpec;
+  /** What a stepper that carries values between steps returned from `saveState`. */
+  stepperState?: Float64Array;
+}
+
+/** A user module loaded from the page's editor. */
+export interface LoadedModule {
+  key: string;
+  name: string;
+  order: number;
+  description: string;
+  /** The Blob URL the code was imported from (faults are located in it). */
+  origin: string;
+  choices: OptionDescription[];
 }
 
 export interface StepperInfo {

@@ -10,8 +10,9 @@ import { driftUndefinedReason, type EnergyBudgetSummary } from "../solver/diagno
 import { parseScenarioText, type StepperSpec } from "../solver/scenario/schema.js";
 import { BUILTIN_SCENARIOS } from "../solver/scenario/builtins.js";
 import { listMethods } from "../solver/time/registry.js";
-import { optionChoices } from "../solver/time/optionChoices.js";
-import type { ChunkReport, InitResult, MapView, MethodSummary, Snapshot, StepperInfo, WorkerFailure } from "./protocol.js";
+import { describeOptions, optionChoices } from "../solver/time/optionChoices.js";
+import { registerModule } from "../solver/time/userModules.js";
+import type { Checkpoint, ChunkReport, InitResult, LoadedModule, MapView, MethodSummary, Snapshot, StepperInfo, StepperSpec as Spec, WorkerFailure } from "./protocol.js";
 
 let run: Run | undefined;
 let work: FieldWork | undefined;
@@ -71,7 +72,37 @@ function energyDrift(r: Run, eb: EnergyBudgetSummary | null, energy: number): Ch
   return reason ? { value: null, reason } : { value: (energy - e0) / e0 };
 }
 
-const moved = (rep: ChunkReport) => transfer(rep, [rep.snapshot.values.buffer]);
+const moved = (rep: ChunkReport) => {
+  const c = rep.checkpoint;
+  const buffers: ArrayBuffer[] = [rep.snapshot.values.buffer as ArrayBuffer];
+  if (c) { buffers.push(c.state.buffer as ArrayBuffer); if (c.stepperState) buffers.push(c.stepperState.buffer as ArrayBuffer); }
+  return transfer(rep, buffers);
+};
+
+// ---- Time slices and checkpoints: the worker never holds a message longer than one slice plus one step ----
+/** Longest a call computes before it answers, whatever it was asked for [ms] (one step is never cut short). */
+const SLICE_MS = 50;
+/** A checkpoint goes with a report at most this often while running [ms], and always after a change of stepper. */
+const CHECKPOINT_MS = 1000;
+let lastCheckpoint = -Infinity;
+
+function takeCheckpoint(r: Run): Checkpoint {
+  lastCheckpoint = performance.now();
+  const saved = r.stepper.instance.saveState?.();
+  return { state: Float64Array.from(r.state), time: r.time, step: r.steps, spec: { ...r.spec }, stepperState: saved ? Float64Array.from(saved) : undefined };
+}
+
+/** Steps while `more()` and the slice lasts; the report carries a checkpoint when one is due. */
+function sliced(r: Run, view: MapView, more: () => boolean, recycled?: Float32Array): ChunkReport {
+  const t0 = performance.now();
+  const s0 = r.steps;
+  const b0 = r.energyBudget?.seconds ?? 0;
+  while (more() && r.advance(1) && performance.now() - t0 < SLICE_MS) { /* one step at a time */ }
+  const rep = report(r, view, r.steps - s0, performance.now() - t0, recycled);
+  rep.budgetMs = 1000 * ((r.energyBudget?.seconds ?? 0) - b0);
+  if (performance.now() - lastCheckpoint >= CHECKPOINT_MS) rep.checkpoint = takeCheckpoint(r);
+  return moved(rep);
+}
 
 function stepperInfo(r: Run): StepperInfo {
   return { spec: { ...r.spec }, label: r.stepper.label, note: r.stepper.note };
@@ -91,6 +122,7 @@ function start(raw: unknown, stepper: StepperSpec | undefined, view: MapView): I
   const tracker = next.trackEnergyBudget();
   if (tracker) tracker.clock = () => performance.now() / 1000;
   work = fieldWork(next.model);
+  lastCheckpoint = -Infinity;
   const outlines = cellOutlines(next.mesh);
   const result: InitResult = {
     description: next.describe(), scenario: next.built.scenario, stepper: stepperInfo(next),
@@ -110,13 +142,49 @@ const api = {
   /** Advance up to n steps (stops early on a blow-up); refills `recycled` with the map field if it fits. */
   advance: guarded((n: number, view: MapView, recycled?: Float32Array): ChunkReport => {
     const r = current();
-    const t0 = performance.now();
-    const s0 = r.steps;
-    const b0 = r.energyBudget?.seconds ?? 0;
-    r.advance(Math.max(0, Math.floor(n)));
-    const rep = report(r, view, r.steps - s0, performance.now() - t0, recycled);
-    rep.budgetMs = 1000 * ((r.energyBudget?.seconds ?? 0) - b0);
-    return moved(rep);
+    const end = r.steps + Math.max(0, Math.floor(n));
+    return sliced(r, view, () => r.steps < end, recycled);
+  }),
+  /**
+   * Advance towards simulated time `tEnd` (the compare view's lock-step): whole steps while one more does not pass
+   * tEnd, within one time slice; the report says how far it got.
+   */
+  advanceUntil: guarded((tEnd: number, view: MapView, recycled?: Float32Array): ChunkReport => {
+    const r = current();
+    return sliced(r, view, () => r.time + r.dt <= tEnd * (1 + 1e-12) + 1e-9, recycled);
+  }),
+  /** Import a user module's JavaScript through a Blob URL, check its default export and register it under `key`. */
+  loadModule: async (key: string, code: string): Promise<LoadedModule> => {
+    const url = URL.createObjectURL(new Blob([code], { type: "text/javascript" }));
+    try {
+      const mod = (await import(/* @vite-ignore */ url)) as { default?: unknown };
+      const def = registerModule(key, mod.default, url);
+      return { key, name: def.name, order: def.order, description: def.description, origin: url, choices: describeOptions(def, run?.model.params.nLayers ?? 1) };
+    } catch (e) {
+      throw failure(e);
+    }
+  },
+  /** Rebuild a run and put a checkpoint's state, time and step count back (a restarted worker). */
+  restore: guarded((raw: unknown, spec: Spec, cp: Checkpoint | null, view: MapView): InitResult => {
+    const res = start(raw, spec, view);
+    const r = current();
+    if (cp && cp.state.length === r.state.length) {
+      r.state.set(cp.state);
+      r.lastGood.set(cp.state);
+      r.time = cp.time;
+      r.steps = cp.step;
+      if (cp.stepperState && cp.spec && JSON.stringify(cp.spec) === JSON.stringify(r.spec)) r.stepper.instance.loadState?.(cp.stepperState);
+      r.trackEnergyBudget();
+      const tracker = r.energyBudget;
+      if (tracker) tracker.clock = () => performance.now() / 1000;
+      res.report = report(r, view, 0, 0);
+    }
+    return res;
+  }),
+  /** A checkpoint now (e.g. before trying a new stepper). */
+  checkpoint: guarded((): Checkpoint => {
+    const c = takeCheckpoint(current());
+    return transfer(c, c.stepperState ? [c.state.buffer as ArrayBuffer, c.stepperState.buffer as ArrayBuffer] : [c.state.buffer as ArrayBuffer]);
   }),
   /** The map field of the current state, e.g. after the user picks another field while paused. */
   snapshot: guarded((view: MapView, recycled?: Float32Array): Snapshot => {
@@ -127,6 +195,7 @@ const api = {
   setStepper: guarded((spec: StepperSpec): StepperInfo & { rk4DtLimit: number; courant: ChunkReport["courant"] } => {
     const r = current();
     r.setStepper(spec);
+    lastCheckpoint = -Infinity; // the next report carries a checkpoint with the new stepper's spec
     r.unstable = null; // after a blow-up the state is the last good one: carry on from there with the new stepper
     return { ...stepperInfo(r), rk4DtLimit: r.rk4DtLimit(), courant: r.courant() };
   }),

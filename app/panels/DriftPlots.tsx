@@ -3,6 +3,7 @@ import { extent, line, scaleLinear, scaleLog, schemeTableau10 } from "d3";
 import type { CourantNumbers } from "../../workers/protocol.js";
 import { driftSeries, type BudgetSample } from "../drift.js";
 import { fmt } from "../format.js";
+import { BudgetPlot } from "./BudgetPlot.js";
 
 interface DriftPlotsProps {
   readonly samples: readonly BudgetSample[];
@@ -62,7 +63,6 @@ function Plot({ title, testid, days, series, logScale }: { title: string; testid
 /** Relative energy and per-layer mass drift against simulated time, and the Courant numbers of the current Δt. */
 export const DriftPlots = memo(function DriftPlots({ samples, layerNames, logScale, onLogScale, courant, dt }: DriftPlotsProps) {
   const d = useMemo(() => driftSeries(samples), [samples]);
-  const energy = useMemo(() => [{ name: "energy", colour: "#1f4e99", y: d.energy }], [d]);
   const mass = useMemo(() => d.mass.map((y, k) => ({ name: `layer ${k}${layerNames[k] ? ` ${layerNames[k]}` : ""}`, colour: schemeTableau10[k % 10], y })), [d, layerNames]);
   const scaleWord = logScale ? "|relative drift|, log scale" : "relative drift";
   return (
@@ -73,8 +73,7 @@ export const DriftPlots = memo(function DriftPlots({ samples, layerNames, logSca
           <input type="checkbox" data-testid="log-toggle" checked={logScale} onChange={(e) => onLogScale(e.target.checked)} /> log scale
         </label>
       </div>
-      <Plot title={`Total energy: ${scaleWord}${d.energyReference === "largest" ? " (relative to the largest energy so far; the run started at rest)" : ""}`}
-        testid="energy-plot" days={d.days} series={energy} logScale={logScale} />
+      <BudgetPlot samples={samples} />
       <Plot title={`Layer volume: ${scaleWord}`} testid="mass-plot" days={d.days} series={mass} logScale={logScale} />
       <p className="courant" data-testid="courant">
         Courant numbers at Δt = {fmt(dt)} s:{" "}

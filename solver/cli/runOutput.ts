@@ -1,4 +1,5 @@
 import { readFileSync } from "node:fs";
+import { userPath } from "./paths.js";
 import { basename, resolve } from "node:path";
 import { SolverError } from "../errors.js";
 import type { Run } from "../driver/run.js";
@@ -39,7 +40,8 @@ export interface RestartInfo {
  * run. Every problem is one line naming --restart or --restart-time.
  */
 export function applyRestart(args: ParsedArgs, run: Run): RestartInfo | null {
-  const file = stringOption(args, "restart");
+  const given = stringOption(args, "restart");
+  const file = given === undefined ? undefined : userPath(given); // from where the user started, as every path
   const tText = args.options.has("restart-time") ? numberOption(args, "restart-time") : undefined;
   if (file === undefined) {
     if (tText !== undefined) throw new SolverError("bad-input", "--restart-time: needs --restart FILE (the file to continue from)", "--restart-time");
@@ -94,7 +96,8 @@ export class RunOutput {
    * `totalSteps` is the number of steps this run will take (for the declared bound on the file).
    */
   static open(args: ParsedArgs, run: Run, totalSteps: number, restart: RestartInfo | null): RunOutput | null {
-    const file = stringOption(args, "netcdf");
+    const given = stringOption(args, "netcdf");
+    const file = given === undefined ? undefined : userPath(given);
     const everyOpt = numberOption(args, "every", { positive: true });
     if (file === undefined) {
       if (everyOpt !== undefined) throw new SolverError("bad-input", "--every: needs --netcdf FILE (the file the output times go to)", "--every");

@@ -2,7 +2,7 @@ import type { ShallowWaterModel } from "../model/shallowWater.js";
 import { relativeVorticity } from "../model/terms.js";
 import { cellToVertex, tangential } from "../mesh/operators.js";
 
-/** Integral diagnostics of one state (numerics reference §1.4, §3.7). Units in the field names' comments. */
+/** Integral diagnostics of one state (Ringler et al. 2010). Units in the field names' comments. */
 export interface Budget {
   /** Volume of each layer Σ A_i h_{k,i} [m³]. */
   mass: number[];
@@ -59,7 +59,7 @@ export function layerMass(model: ShallowWaterModel, x: Float64Array, out: number
 }
 
 /**
- * E = Σ_k [ Σ_e ½ l_e d_e ĥ_{k,e} u_{k,e}² + Σ_i ½ A_i g'_k (η_{k,i} − η^rest_{k,i})² ] (reference §3.7, §1.4):
+ * E = Σ_k [ Σ_e ½ l_e d_e ĥ_{k,e} u_{k,e}² + Σ_i ½ A_i g'_k (η_{k,i} − η^rest_{k,i})² ] (Ringler et al. 2010):
  * since every layer's volume is conserved, the available potential energy differs from Σ ½ A g' η² by a constant,
  * and measuring it from the rest state keeps its digits.
  */

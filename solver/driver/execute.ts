@@ -53,6 +53,8 @@ export interface RunResult {
   matvecs: number;
   innerProducts: number;
   matvecsPerStep: number;
+  /** φ-action calls per step (0 for steppers without φ-functions). */
+  phiActionsPerStep: number;
   mass: { initial: number[]; final: number[]; maxRelativeDrift: number };
   energy: EnergyReport;
   /** Energy budget over the run, or null when not tracked. */
@@ -145,6 +147,7 @@ export function execute(run: Run, o: ExecuteOptions = {}): RunResult {
     steps: run.steps, simulatedSeconds: run.time, wallSeconds: wall,
     rhsEvaluations: st.rhsEvaluations - st0.rhsEvaluations, matvecs, innerProducts: st.innerProducts - st0.innerProducts,
     matvecsPerStep: steps > 0 ? matvecs / steps : 0,
+    phiActionsPerStep: steps > 0 ? (st.phiActions - st0.phiActions) / steps : 0,
     mass: { initial: drift.mass0, final: bEnd.mass, maxRelativeDrift: drift.maxMassDrift },
     energy: {
       initial: drift.energy0, final: bEnd.energy, maxRelativeDrift: energyDrift.value,

@@ -1,5 +1,5 @@
 /**
- * Chebyshev backend for an operator with spectrum in i[−ρ, ρ] (numerics reference §7.3, §7.6).
+ * Chebyshev backend for an operator with spectrum in i[−ρ, ρ] (Tal-Ezer & Kosloff 1984; an exponential filter; common practice, no source).
  *
  * With X = A/(iρ) the real polynomials P_j(A) = i^j T_j(X) satisfy P_0 = I, P_1 = A/ρ,
  * P_{j+1} = (2/ρ) A P_j + P_{j−1}, so everything runs in real arithmetic. A function g on the spectrum,
@@ -59,7 +59,7 @@ function besselJInto(buf: Float64Array, x: number, start: number): void {
   for (let k = 0; k <= start; k++) buf[k] *= s;
 }
 
-/** σ at angular frequency ω: exp(−κ (|ω|/ω_c)^order) (numerics reference §7.6); 1 without a filter. */
+/** σ at angular frequency ω: exp(−κ (|ω|/ω_c)^order) (an exponential filter; common practice, no source); 1 without a filter. */
 export function filterValue(f: PhiFilter | undefined, omega: number): number {
   if (!f) return 1;
   return Math.exp(-f.strength * Math.pow(Math.abs(omega) / f.cutoff, f.order));
@@ -73,7 +73,7 @@ export interface ChebyshevPhiAction extends PhiAction {
 export function chebyshevPhi(op: LinearOperator, opts: PhiOptions): ChebyshevPhiAction {
   const rho = op.spectralBound;
   if (!(rho !== undefined && rho > 0 && Number.isFinite(rho))) {
-    throw new SolverError("bad-input", "chebyshev backend needs an operator with a positive spectralBound", "stepper.backend");
+    throw new SolverError("bad-input", "chebyshev backend needs an operator with a positive spectralBound", "phi.backend");
   }
   const n = op.n, P = opts.maxPhi, tol = opts.tol, filter = opts.filter;
   const bA = new Float64Array(n), bB = new Float64Array(n), tmp = new Float64Array(n);
@@ -158,7 +158,7 @@ export function chebyshevPhi(op: LinearOperator, opts: PhiOptions): ChebyshevPhi
   function apply(out: Float64Array, tau: number, v: readonly Float64Array[]): void {
     const mv0 = op.counters.matvecs;
     const p = highestNonZero(v);
-    if (p > P) throw new SolverError("bad-input", `chebyshev: phi index ${p} exceeds maxPhi ${P}`, "stepper.maxPhi");
+    if (p > P) throw new SolverError("bad-input", `chebyshev: phi index ${p} exceeds maxPhi ${P}`, "phi.apply");
     if (p < 0) { out.fill(0); terms = 0; stats.matvecs = 0; stats.errorEstimate = 0; return; }
     for (let k = 0; k <= p; k++) vZero[k] = isZero(v[k]) ? 1 : 0;
     const R = tau * rho!;

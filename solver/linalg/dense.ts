@@ -3,7 +3,7 @@
  *  - expm by scaling and squaring with diagonal Padé approximants (Higham 2005, SIAM J. Matrix Anal.
  *    Appl. 26, 1179–1193, Algorithm 2.3);
  *  - φ-combinations Σ_k τ^k φ_k(τA) v_k from one exponential of the augmented matrix
- *    (Al-Mohy & Higham 2011, SIAM J. Sci. Comput. 33, 488–511, Theorem 2.1; numerics reference §6.2);
+ *    (Al-Mohy & Higham 2011, SIAM J. Sci. Comput. 33, 488–511, Theorem 2.1);
  *  - `denseOperator` and the `densePhi` backend, the slow but obviously right reference for tests.
  * Work arrays live in an `ExpmWorkspace` created once for the largest size needed.
  */
@@ -237,7 +237,7 @@ export function phiCombinationDense(
   out: Float64Array, a: Float64Array, n: number, tau: number, v: readonly Float64Array[], ws: PhiCombinationWorkspace,
 ): void {
   const p = Math.max(0, highestNonZero(v));
-  if (p > ws.maxPhi) throw new SolverError("bad-input", `phi index ${p} exceeds maxPhi ${ws.maxPhi}`, "stepper.maxPhi");
+  if (p > ws.maxPhi) throw new SolverError("bad-input", `phi index ${p} exceeds maxPhi ${ws.maxPhi}`, "phi.apply");
   const N = n + p;
   const { aug, expAug } = ws;
   aug.fill(0, 0, N * N);

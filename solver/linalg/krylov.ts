@@ -1,5 +1,5 @@
 /**
- * Krylov backend for out = Σ_{k=0}^{p} τ^k φ_k(τA) v_k (numerics reference §7.1, §7.5).
+ * Krylov backend for out = Σ_{k=0}^{p} τ^k φ_k(τA) v_k (Saad 1992; Hochbruck & Lubich 1997; common practice, no source).
  *
  * Reduction to one vector (Niesen & Wright 2012, ACM TOMS 38(3) Art. 22, §2): with w_0 = v_0 and
  * w_j = A w_{j−1} + v_j, the combination is the solution u(t) of u' = A u + Σ_{k≥1} t^{k−1}/(k−1)! v_k,
@@ -316,7 +316,7 @@ export function krylovPhi(op: LinearOperator, opts: KrylovOptions): KrylovPhiAct
   function run(out: Float64Array, tau: number, v: readonly Float64Array[]): void {
     const top = highestNonZero(v);
     if (top < 0) { out.fill(0); stats.errorEstimate = 0; return; }
-    if (top > P) throw new SolverError("bad-input", `krylov: phi index ${top} exceeds maxPhi ${P}`, "stepper.maxPhi");
+    if (top > P) throw new SolverError("bad-input", `krylov: phi index ${top} exceeds maxPhi ${P}`, "phi.apply");
     p = top;
     W[0].set(v[0]);
     derivatives(v);

@@ -1,5 +1,5 @@
 /**
- * Rational (contour-integral) backend for skew operators (numerics reference §7.4):
+ * Rational (contour-integral) backend for skew operators (Trefethen, Weideman & Schmelzer 2006):
  *   Σ_k g_k(B) v_k = (1/2πi) ∮_Γ (zI − B)⁻¹ Σ_k g_k(z) v_k dz,   B = τA,  g_k(z) = τ^k φ_k(z),
  * with the trapezoid rule on an ellipse Γ: z(θ) = a cos θ + i b sin θ, a = R sinh η, b = R cosh η,
  * whose foci ±iR (R = τρ) are the ends of the spectral segment (the idea of evaluating matrix functions
@@ -66,7 +66,7 @@ export interface RationalOptions extends PhiOptions {
 export function rationalPhi(op: LinearOperator, opts: RationalOptions): PhiAction {
   const rho = op.spectralBound;
   if (!op.skew || !(rho !== undefined && rho > 0)) {
-    throw new SolverError("bad-input", "rational backend needs a skew operator with a spectralBound", "stepper.backend");
+    throw new SolverError("bad-input", "rational backend needs a skew operator with a spectralBound", "phi.backend");
   }
   const n = op.n, P = opts.maxPhi, tol = opts.tol, N2 = 2 * n;
   const mg = Math.max(1, Math.min(opts.restart ?? 60, N2));
@@ -170,7 +170,7 @@ export function rationalPhi(op: LinearOperator, opts: RationalOptions): PhiActio
     const mv0 = op.counters.matvecs;
     ips = 0; worstResidual = 0;
     const p = highestNonZero(v);
-    if (p > P) throw new SolverError("bad-input", `rational: phi index ${p} exceeds maxPhi ${P}`, "stepper.maxPhi");
+    if (p > P) throw new SolverError("bad-input", `rational: phi index ${p} exceeds maxPhi ${P}`, "phi.apply");
     out.fill(0);
     if (p < 0 || tau === 0) { if (p >= 0) out.set(v[0]); stats.matvecs = 0; stats.substeps = 0; stats.errorEstimate = 0; return; }
     const R = tau * rho!;

@@ -1,5 +1,5 @@
 /**
- * The φ-backend registry: one factory per name, option checks at the boundary (numerics reference §7).
+ * The φ-backend registry: one factory per name, option checks at the boundary (Hochbruck & Lubich 1997; Al-Mohy & Higham 2011; Tal-Ezer & Kosloff 1984).
  */
 import { SolverError, badInput } from "../errors.js";
 import type { LinearOperator, PhiAction, PhiBackendName, PhiOptions } from "./types.js";
@@ -9,6 +9,7 @@ import { taylorPhi } from "./taylor.js";
 import { chebyshevPhi } from "./chebyshev.js";
 import { substepPhi } from "./substep.js";
 import { rationalPhi } from "./rational.js";
+import { rationalDampedPhi } from "./rationalDamped.js";
 import { estimateSpectralBound } from "./spectralBound.js";
 
 export interface PhiBackendInfo {
@@ -22,6 +23,7 @@ export const phiBackends: readonly PhiBackendInfo[] = [
   { name: "chebyshev", description: "Chebyshev/Bessel expansion for spectra in i[-rho, rho]; needs spectralBound; supports the filter" },
   { name: "substep", description: "RK4 sub-steps of the polynomial-forced linear ODE (split-explicit analogue); no inner products" },
   { name: "rational", description: "elliptic-contour quadrature with GMRES shifted solves; skew operators, small problems only" },
+  { name: "rational-damped", description: "non-resolving: waves below filter.cutoff kept to the tolerance, faster ones damped, by Lanczos on (I − c²A²)⁻¹ with two cached sparse factorizations; cost does not grow with hρ; needs a fixed skew linear part and filter { cutoff }" },
   { name: "dense", description: "augmented-matrix exponential of the assembled matrix (Al-Mohy & Higham 2011, Thm 2.1); tests only" },
 ];
 
@@ -31,27 +33,28 @@ function isBackend(name: string): name is PhiBackendName {
 
 /** Build a φ-action; throws SolverError("bad-input") naming the offending field for bad options. */
 export function createPhiAction(backend: PhiBackendName, op: LinearOperator, opts: PhiOptions): PhiAction {
+  const pf = opts.field ?? "phi";
   if (!isBackend(backend)) {
-    throw badInput("stepper.backend", `unknown phi backend "${String(backend)}" (expected one of ${phiBackends.map((b) => b.name).join(", ")})`);
+    throw badInput(`${pf}.backend`, `unknown phi backend "${String(backend)}" (expected one of ${phiBackends.map((b) => b.name).join(", ")})`);
   }
   if (!(typeof opts.tol === "number" && Number.isFinite(opts.tol) && opts.tol > 0)) {
-    throw badInput("stepper.tol", `tolerance must be a positive number, got ${String(opts.tol)}`);
+    throw badInput(`${pf}.tolerance`, `tolerance must be a positive number, got ${String(opts.tol)}`);
   }
   if (!(Number.isInteger(opts.maxPhi) && opts.maxPhi >= 0)) {
-    throw badInput("stepper.maxPhi", `maxPhi must be a non-negative integer, got ${String(opts.maxPhi)}`);
+    throw badInput(`${pf}.maxPhi`, `maxPhi must be a non-negative integer, got ${String(opts.maxPhi)}`);
   }
   if (opts.substeps !== undefined && !(Number.isInteger(opts.substeps) && opts.substeps >= 0)) {
-    throw badInput("stepper.substeps", `substeps must be a non-negative integer, got ${String(opts.substeps)}`);
+    throw badInput(`${pf}.substeps`, `substeps must be a non-negative integer, got ${String(opts.substeps)}`);
   }
   if (opts.maxKrylovDim !== undefined && !(Number.isInteger(opts.maxKrylovDim) && opts.maxKrylovDim >= 1)) {
-    throw badInput("stepper.maxKrylovDim", `maxKrylovDim must be a positive integer, got ${String(opts.maxKrylovDim)}`);
+    throw badInput(`${pf}.maxKrylovDim`, `maxKrylovDim must be a positive integer, got ${String(opts.maxKrylovDim)}`);
   }
   if (opts.filter) {
     const f = opts.filter;
-    if (backend !== "chebyshev") throw badInput("stepper.filter", `the filter is supported by the chebyshev backend only, not "${backend}"`);
-    if (!(f.cutoff > 0 && Number.isFinite(f.cutoff))) throw badInput("stepper.filter.cutoff", `cutoff must be > 0 1/s, got ${f.cutoff}`);
-    if (!(f.order > 0 && Number.isFinite(f.order))) throw badInput("stepper.filter.order", `order must be > 0, got ${f.order}`);
-    if (!(f.strength >= 0 && Number.isFinite(f.strength))) throw badInput("stepper.filter.strength", `strength must be ≥ 0, got ${f.strength}`);
+    if (backend !== "chebyshev" && backend !== "rational-damped") throw badInput(`${pf}.filter`, `the filter is supported by the chebyshev and rational-damped backends only, not "${backend}"`);
+    if (!(f.cutoff > 0 && Number.isFinite(f.cutoff))) throw badInput(`${pf}.filter.cutoff`, `cutoff must be > 0 1/s, got ${f.cutoff}`);
+    if (!(f.order > 0 && Number.isFinite(f.order))) throw badInput(`${pf}.filter.order`, `order must be > 0, got ${f.order}`);
+    if (!(f.strength >= 0 && Number.isFinite(f.strength))) throw badInput(`${pf}.filter.strength`, `strength must be ≥ 0, got ${f.strength}`);
   }
   const bound = op.spectralBound;
   const hasBound = bound !== undefined && Number.isFinite(bound) && bound > 0;
@@ -62,19 +65,21 @@ export function createPhiAction(backend: PhiBackendName, op: LinearOperator, opt
       // without a bound, estimate it once (power iteration; a rough norm estimate for non-normal A)
       return taylorPhi(op, { ...opts, normBound: hasBound ? bound : estimateSpectralBound(op, { margin: 0.1 }).bound });
     case "chebyshev":
-      if (!hasBound || !op.skew) throw badInput("stepper.backend", "chebyshev needs an operator with skew = true and a spectralBound");
+      if (!hasBound || !op.skew) throw badInput(`${pf}.backend`, "chebyshev needs an operator with skew = true and a spectralBound");
       return chebyshevPhi(op, opts);
     case "substep":
-      if (!hasBound && !(opts.substeps && opts.substeps > 0)) throw badInput("stepper.backend", "substep needs a spectralBound or a positive substeps count");
+      if (!hasBound && !(opts.substeps && opts.substeps > 0)) throw badInput(`${pf}.backend`, "substep needs a spectralBound or a positive substeps count");
       return substepPhi(op, opts);
     case "rational":
-      if (!hasBound || !op.skew) throw badInput("stepper.backend", "rational needs an operator with skew = true and a spectralBound");
+      if (!hasBound || !op.skew) throw badInput(`${pf}.backend`, "rational needs an operator with skew = true and a spectralBound");
       return rationalPhi(op, opts);
+    case "rational-damped":
+      return rationalDampedPhi(op, opts);
     case "dense":
-      if (op.n > 2000) throw badInput("stepper.backend", `dense backend is for small operators, n = ${op.n}`);
+      if (op.n > 2000) throw badInput(`${pf}.backend`, `dense backend is for small operators, n = ${op.n}`);
       return densePhi(op, opts);
   }
-  throw new SolverError("bad-input", `unhandled backend ${String(backend)}`, "stepper.backend");
+  throw new SolverError("bad-input", `${pf}.backend: unhandled backend ${String(backend)}`, `${pf}.backend`);
 }
 
 /**

@@ -1,5 +1,5 @@
 /**
- * Scalar φ-functions (numerics reference §6.1):
+ * Scalar φ-functions (Hochbruck & Ostermann 2010):
  *   φ_0(z) = e^z,   φ_k(z) = Σ_{j≥0} z^j / (j+k)!,   φ_{k+1}(z) = (φ_k(z) − 1/k!) / z.
  * The closed forms cancel catastrophically as z → 0, so each φ_k is summed from its Taylor series
  * while |z| < seriesRadius(k) and obtained by the upward recurrence from e^z beyond it.

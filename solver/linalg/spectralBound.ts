@@ -1,5 +1,5 @@
 /**
- * Spectral-radius estimate for an operator without an analytic bound (numerics reference §7.3, T12):
+ * Spectral-radius estimate for an operator without an analytic bound (Tal-Ezer & Kosloff 1984):
  * power iteration on −A², which for A skew-adjoint in the weighted inner product is A*A, positive
  * semi-definite with largest eigenvalue ρ². Each iterate gives the lower bound ‖A x‖/‖x‖ ≤ ρ; the
  * returned bound adds a safety margin (an underestimate makes Chebyshev diverge). For an operator that

@@ -1,7 +1,7 @@
 /**
- * Sub-stepping backend, the split-explicit analogue (numerics reference §7.5): integrate
+ * Sub-stepping backend, the split-explicit analogue (common practice, no source): integrate
  *   y' = A y + Σ_{k=1}^{p} t^{k−1}/(k−1)! v_k,  y(0) = v_0,  over [0, τ],
- * whose solution is y(τ) = Σ_k τ^k φ_k(τA) v_k (numerics reference §6.1), with S classical RK4 steps
+ * whose solution is y(τ) = Σ_k τ^k φ_k(τA) v_k (Hochbruck & Ostermann 2010), with S classical RK4 steps
  * (Kutta 1901). Without a given `substeps` count, S makes h = τ/S satisfy hρ ≤ 1 and
  * τρ (hρ)^4/120 ≤ tol/2: the RK4 stability function differs from e^z by z^5/120 + O(z^6) (Taylor
  * expansion of R(z) = 1 + z + z²/2 + z³/6 + z⁴/24; common practice, no source), and that phase/amplitude
@@ -23,7 +23,7 @@ export function substepPhi(op: LinearOperator, opts: PhiOptions): PhiAction {
   const rho = op.spectralBound;
   const fixed = opts.substeps ?? 0;
   if (!(fixed > 0) && !(rho !== undefined && rho > 0)) {
-    throw new SolverError("bad-input", "substep backend needs a spectralBound or a positive substeps count", "stepper.substeps");
+    throw new SolverError("bad-input", "substep backend needs a spectralBound or a positive substeps count", "phi.substeps");
   }
   const n = op.n, P = opts.maxPhi, tol = opts.tol;
   const acc = new Float64Array(n), stage = new Float64Array(n), k = new Float64Array(n), y0 = new Float64Array(n);
@@ -43,7 +43,7 @@ export function substepPhi(op: LinearOperator, opts: PhiOptions): PhiAction {
   function apply(out: Float64Array, tau: number, v: readonly Float64Array[]): void {
     const mv0 = op.counters.matvecs;
     p = Math.max(0, highestNonZero(v));
-    if (p > P) throw new SolverError("bad-input", `substep: phi index ${p} exceeds maxPhi ${P}`, "stepper.maxPhi");
+    if (p > P) throw new SolverError("bad-input", `substep: phi index ${p} exceeds maxPhi ${P}`, "phi.apply");
     vv = v;
     const S = fixed > 0 ? fixed : rk4Substeps(tau * rho!, tol);
     const h = tau / S;

@@ -1,6 +1,6 @@
 /**
  * Truncated Taylor series with scaling (Al-Mohy & Higham 2011, SIAM J. Sci. Comput. 33, 488–511,
- * Algorithm 3.2 with the implicit augmentation of their §3; numerics reference §7.2):
+ * Algorithm 3.2 with the implicit augmentation of their §3; Al-Mohy & Higham 2011):
  *   out = e^{B̃} [v_0; e_p/η] (first n entries),  B̃ = [[τA, ηW], [0, J]],  W = [τ^p v_p, …, τ v_1],
  * applied as s steps of T_m(B̃/s), each truncated early once two successive terms are below the
  * tolerance. B̃ is never formed: B̃ (x; y) = (τ A x + η Σ_c y_c W_c, J y) costs one matvec plus p axpys.
@@ -14,7 +14,7 @@ import { highestNonZero, isZero, maxAbs } from "./vector.js";
 /**
  * θ_m for double precision (unit roundoff 2^-53): the largest ‖tA‖ for which the degree-m truncated
  * Taylor series meets the backward-error bound, Al-Mohy & Higham (2011), Table 3.1. Quoted from memory
- * of that table; the values at m = 5, 10, …, 55 agree with numerics reference §7.2.
+ * of that table; the values at m = 5, 10, …, 55 agree with Al-Mohy & Higham 2011 (their Table 3.1).
  */
 export const TAYLOR_THETA: ReadonlyArray<readonly [m: number, theta: number]> = [
   [1, 2.29e-16], [2, 2.58e-8], [3, 1.39e-5], [4, 3.4e-4], [5, 2.4e-3], [6, 9.07e-3], [7, 2.38e-2],
@@ -39,7 +39,7 @@ export function taylorParameters(normB: number, out: { m: number; s: number } = 
 export function taylorPhi(op: LinearOperator, opts: PhiOptions & { normBound?: number }): PhiAction {
   const normA = opts.normBound ?? op.spectralBound;
   if (!(normA !== undefined && normA >= 0 && Number.isFinite(normA))) {
-    throw new SolverError("bad-input", "taylor backend needs a norm bound (operator spectralBound or estimate)", "stepper.backend");
+    throw new SolverError("bad-input", "taylor backend needs a norm bound (operator spectralBound or estimate)", "phi.backend");
   }
   const n = op.n, P = opts.maxPhi, tol = opts.tol;
   const bx = new Float64Array(n), ax = new Float64Array(n);
@@ -52,7 +52,7 @@ export function taylorPhi(op: LinearOperator, opts: PhiOptions & { normBound?: n
     const mv0 = op.counters.matvecs;
     let reductions = 0;
     const p = highestNonZero(v);
-    if (p > P) throw new SolverError("bad-input", `taylor: phi index ${p} exceeds maxPhi ${P}`, "stepper.maxPhi");
+    if (p > P) throw new SolverError("bad-input", `taylor: phi index ${p} exceeds maxPhi ${P}`, "phi.apply");
     if (p < 0) { out.fill(0); stats.matvecs = 0; stats.innerProducts = 0; stats.errorEstimate = 0; return; }
     // balance: η = 2^−⌈log2 max_c ‖τ^{p−c} v_{p−c}‖_∞⌉ (the max-norms are reductions)
     let wn = 0;

@@ -1,5 +1,5 @@
 /**
- * Generic linear operators and matrix-function actions (numerics reference §6–7).
+ * Generic linear operators and matrix-function actions (Hochbruck & Ostermann 2010, Acta Numerica 19).
  * Everything here is matrix-free and allocation-free per call: factories allocate their work arrays once.
  */
 
@@ -26,6 +26,11 @@ export interface LinearOperator {
   /** True when the spectrum is known to lie on the imaginary axis (Chebyshev and rational backends need it). */
   readonly skew?: boolean;
   readonly counters: OperatorCounters;
+  /**
+   * y = (I − γA)⁻¹ c for any real γ (y and c may alias), when the operator offers shifted solves (a sparse
+   * factorization per γ, computed once). Used by the rational-damped backend.
+   */
+  shiftedSolve?(y: Float64Array, c: Float64Array, gamma: number): void;
 }
 
 export interface PhiStats {
@@ -42,7 +47,7 @@ export interface PhiStats {
 }
 
 /**
- * out = Σ_{k=0}^{p} τ^k φ_k(τ A) v[k], with φ_0 = exp (numerics reference §6.2).
+ * out = Σ_{k=0}^{p} τ^k φ_k(τ A) v[k], with φ_0 = exp (Al-Mohy & Higham 2011).
  * Steppers call it in increment form (v[0] = 0, tendencies in v[1..]), so mass stays exact.
  * `out` must not alias any v[k].
  */
@@ -52,7 +57,7 @@ export interface PhiAction {
   apply(out: Float64Array, tau: number, v: readonly Float64Array[]): void;
 }
 
-/** Optional damping of the highest resolved frequencies (numerics reference §7.6); off by default. */
+/** Optional damping of the highest resolved frequencies (an exponential filter; common practice, no source); off by default. */
 export interface PhiFilter {
   /** Cut-off angular frequency ω_c [1/s]; frequencies above it are damped. */
   cutoff: number;
@@ -62,7 +67,7 @@ export interface PhiFilter {
   strength: number;
 }
 
-export type PhiBackendName = "krylov" | "taylor" | "chebyshev" | "substep" | "rational" | "dense";
+export type PhiBackendName = "krylov" | "taylor" | "chebyshev" | "substep" | "rational" | "rational-damped" | "dense";
 
 export interface PhiOptions {
   /** Relative tolerance of the action. */
@@ -74,4 +79,6 @@ export interface PhiOptions {
   filter?: PhiFilter;
   /** Largest Krylov basis (memory (maxKrylovDim+1)·n numbers) before the krylov backend sub-steps; default 100. */
   maxKrylovDim?: number;
+  /** Field prefix of error messages, e.g. "stepper" (default "phi"). */
+  field?: string;
 }

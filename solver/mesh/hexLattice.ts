@@ -2,7 +2,7 @@ import { SolverError } from "../errors.js";
 import type { Mesh } from "./types.js";
 
 /**
- * Builder for meshes cut from a triangular lattice of Voronoi generators (numerics reference §3.9):
+ * Builder for meshes cut from a triangular lattice of Voronoi generators (Thuburn et al. 2009):
  * generator (a, b) sits at ((a + (b mod 2)/2) d, b (√3/2) d) on an nx × ny torus (ny even).
  * Each generator has six neighbours in counter-clockwise order E, NE, NW, W, SW, SE; it owns the edges
  * towards E, NE, NW and the two dual triangles {p, E, NE} and {p, NE, NW}.
@@ -274,7 +274,7 @@ function buildFromLattice(L: Lattice, wet: Uint8Array | null, kind: Mesh["kind"]
     vertexInterior[v] = ok ? 1 : 0;
   }
 
-  // TRiSK tangential weights (Thuburn et al. 2009; numerics reference §3.5)
+  // TRiSK tangential weights (Thuburn et al. 2009)
   const tangentOffset = new Int32Array(nEdges + 1);
   for (let e = 0; e < nEdges; e++) {
     const nc = edgeCells[2 * e + 1] >= 0 ? 2 : 1;

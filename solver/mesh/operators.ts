@@ -1,13 +1,23 @@
 import type { Mesh } from "./types.js";
+import { meshKernels } from "../kernels/meshKernels.js";
 
 /**
- * The TRiSK linear operators of numerics reference §3.4–3.5, one layer at a time.
+ * The TRiSK linear operators of Thuburn et al. 2009, one layer at a time.
  * Each writes into `out` (length nCells, nEdges or nVertices) and allocates nothing.
  * `off` / `outOff` / `inOff` select a layer inside a layer-major buffer.
+ * `divergence` and `gradient` run as WebAssembly kernels where available (solver/kernels/meshKernels.ts, same
+ * operation order); the loops below are the reference and the fallback.
  */
 
 /** (D F)_i = (1/A_i) Σ_{e∈i} n_{e,i} l_e F_e [1/s · unit of F / m]. */
 export function divergence(out: Float64Array, m: Mesh, flux: Float64Array, outOff = 0, inOff = 0): void {
+  const k = meshKernels(m);
+  if (k) k.divergence(out, flux, outOff, inOff);
+  else divergenceLoop(out, m, flux, outOff, inOff);
+}
+
+/** `divergence` as a TypeScript loop (the reference of the kernel, and its fallback). */
+export function divergenceLoop(out: Float64Array, m: Mesh, flux: Float64Array, outOff = 0, inOff = 0): void {
   const { cellEdgeOffset: off, cellEdgeIndex: idx, cellEdgeSign: sgn, edgeLength: len, cellArea } = m;
   for (let i = 0; i < m.nCells; i++) {
     let acc = 0;
@@ -21,6 +31,13 @@ export function divergence(out: Float64Array, m: Mesh, flux: Float64Array, outOf
 
 /** (G φ)_e = (φ_c2 − φ_c1)/d_e on open edges, 0 on coastline edges. */
 export function gradient(out: Float64Array, m: Mesh, phi: Float64Array, outOff = 0, inOff = 0): void {
+  const k = meshKernels(m);
+  if (k) k.gradient(out, phi, outOff, inOff);
+  else gradientLoop(out, m, phi, outOff, inOff);
+}
+
+/** `gradient` as a TypeScript loop (the reference of the kernel, and its fallback). */
+export function gradientLoop(out: Float64Array, m: Mesh, phi: Float64Array, outOff = 0, inOff = 0): void {
   const { edgeCells: ec, edgeCellDistance: dc, edgeOpen } = m;
   for (let e = 0; e < m.nEdges; e++) {
     out[outOff + e] = edgeOpen[e] ? (phi[inOff + ec[2 * e + 1]] - phi[inOff + ec[2 * e]]) / dc[e] : 0;

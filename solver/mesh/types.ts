@@ -1,7 +1,7 @@
 /**
  * A planar Voronoi C-grid mesh in flat typed arrays.
  *
- * Conventions (numerics reference §3.3):
+ * Conventions (Thuburn et al. 2009):
  * - edge e joins cells `edgeCells[2e]` (c1) and `edgeCells[2e+1]` (c2); its unit normal points from c1 to c2.
  *   On a closed basin a coastline edge has c2 = -1 (the outside); its normal velocity is held at zero.
  * - `edgeVertices[2e]`, `edgeVertices[2e+1]` = (v1, v2) with x(v2) - x(v1) along +t, t = k × n.

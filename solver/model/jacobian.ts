@@ -1,5 +1,5 @@
 /**
- * Jacobian-vector product J(x̄) v of the full TRiSK tendency F (numerics reference §3.6–3.7, §6.5), by exact
+ * Jacobian-vector product J(x̄) v of the full TRiSK tendency F (Ringler et al. 2010; Hochbruck & Ostermann 2010), by exact
  * linearization of every term about the state x̄ (no finite-difference step to choose):
  *
  *   δĥ_e = ½(δh_c1 + δh_c2),  δF = δĥ ū + ĥ̄ δu,  δ(dh/dt) = −D δF
@@ -14,6 +14,7 @@
  */
 import type { LinearOperator, OperatorCounters } from "../linalg/types.js";
 import { layerCoupling } from "./modes.js";
+import { KernelMemoryBuilder, padStencil } from "../kernels/wasm.js";
 import type { ShallowWaterModel, StateLayout } from "./shallowWater.js";
 
 export interface JacobianOperator extends LinearOperator {
@@ -38,13 +39,14 @@ export function jacobianOperator(model: ShallowWaterModel): JacobianOperator {
   const G = layerCoupling(p.reducedGravity);
   const counters: OperatorCounters = { matvecs: 0, innerProducts: 0 };
 
-  // linearization point, per layer
-  const xBar = new Float64Array(n);
-  const hEdge = new Float64Array(L * ne); // ĥ̄
-  const flux = new Float64Array(L * ne); // F̄ = ĥ̄ ū
-  const hVert = new Float64Array(L * nv); // h̄_v
-  const qVert = new Float64Array(L * nv); // q̄_v
-  const qEdge = new Float64Array(L * ne); // q̄_e
+  // linearization point, per layer; in the kernel memory when the WebAssembly kernel runs (setState writes there)
+  const kernel = model.kernels === "wasm" ? wasmJacobian(model, G) : null;
+  const xBar = kernel ? kernel.xBar : new Float64Array(n);
+  const hEdge = kernel ? kernel.hEdge : new Float64Array(L * ne); // ĥ̄
+  const flux = kernel ? kernel.flux : new Float64Array(L * ne); // F̄ = ĥ̄ ū
+  const hVert = kernel ? kernel.hVert : new Float64Array(L * nv); // h̄_v
+  const qVert = kernel ? kernel.qVert : new Float64Array(L * nv); // q̄_v
+  const qEdge = kernel ? kernel.qEdge : new Float64Array(L * ne); // q̄_e
   // work
   const dhEdge = new Float64Array(ne), dFlux = new Float64Array(ne), dVort = new Float64Array(nv);
   const dqVert = new Float64Array(nv), dqEdge = new Float64Array(ne), dK = new Float64Array(nc);
@@ -120,6 +122,11 @@ export function jacobianOperator(model: ShallowWaterModel): JacobianOperator {
 
   function apply(out: Float64Array, x: Float64Array): void {
     counters.matvecs++;
+    if (kernel) {
+      kernel.apply(out, x);
+      forcingAndDissipation(out, x);
+      return;
+    }
     // δM_k = Σ_j 𝒢_kj δh_j
     for (let i = 0; i < nc; i++) {
       for (let k = 0; k < L; k++) {
@@ -165,27 +172,80 @@ export function jacobianOperator(model: ShallowWaterModel): JacobianOperator {
         const c1 = ec[2 * e], c2 = ec[2 * e + 1];
         out[uOff + e] = 0.5 * acc - (dK[c2] + dM[hOff + c2] - dK[c1] - dM[hOff + c1]) / dc[e];
       }
-      if (k === 0 && p.windStress) {
-        const tau = p.windStress;
-        for (let e = 0; e < ne; e++) {
-          if (edgeOpen[e]) out[uOff + e] -= (tau[e] * dhEdge[e]) / (p.rho0 * hEdge[eOff + e] * hEdge[eOff + e]);
-        }
-      }
-      if (k === L - 1 && p.bottomDrag > 0) for (let e = 0; e < ne; e++) out[uOff + e] -= p.bottomDrag * x[uOff + e];
-      if (p.viscosity > 0 || p.biharmonic > 0) {
-        laplacian(lap, x, uOff);
-        if (p.viscosity > 0) for (let e = 0; e < ne; e++) out[uOff + e] += p.viscosity * lap[e];
-        if (p.biharmonic > 0) {
-          laplacian(lap2, lap, 0);
-          for (let e = 0; e < ne; e++) out[uOff + e] -= p.biharmonic * lap2[e];
-        }
+      layerForcing(out, x, k);
+    }
+  }
+
+  /** Wind (top layer; reads δĥ of layer 0 from dhEdge), drag (bottom layer) and viscosity added to layer k. */
+  function layerForcing(out: Float64Array, x: Float64Array, k: number): void {
+    const uOff = uOffset + k * ne, eOff = k * ne;
+    if (k === 0 && p.windStress) {
+      const tau = p.windStress;
+      for (let e = 0; e < ne; e++) {
+        if (edgeOpen[e]) out[uOff + e] -= (tau[e] * dhEdge[e]) / (p.rho0 * hEdge[eOff + e] * hEdge[eOff + e]);
       }
     }
+    if (k === L - 1 && p.bottomDrag > 0) for (let e = 0; e < ne; e++) out[uOff + e] -= p.bottomDrag * x[uOff + e];
+    if (p.viscosity > 0 || p.biharmonic > 0) {
+      laplacian(lap, x, uOff);
+      if (p.viscosity > 0) for (let e = 0; e < ne; e++) out[uOff + e] += p.viscosity * lap[e];
+      if (p.biharmonic > 0) {
+        laplacian(lap2, lap, 0);
+        for (let e = 0; e < ne; e++) out[uOff + e] -= p.biharmonic * lap2[e];
+      }
+    }
+  }
+  /** After the kernel: the same per-layer additions, in the same order per entry. */
+  function forcingAndDissipation(out: Float64Array, x: Float64Array): void {
+    if (p.windStress) edgeMean(dhEdge, 0, x, 0);
+    for (let k = 0; k < L; k++) layerForcing(out, x, k);
   }
 
   setState(model.restState());
   return {
     n, layout, counters, state: xBar, setState, apply,
     get spectralBound() { return bound; },
+  };
+}
+
+/**
+ * The inviscid, unforced part of `apply` as a WebAssembly kernel (`jacobianApply`, same operation order), with
+ * the linearization-point arrays in its memory so that setState fills them in place. Null where WebAssembly is
+ * unavailable.
+ */
+function wasmJacobian(model: ShallowWaterModel, coupling: Float64Array) {
+  const m = model.mesh;
+  const { nLayers: L, nCells: nc, nEdges: ne, uOffset, n } = model.layout;
+  const nv = m.nVertices;
+  const slotSignLength = new Float64Array(m.cellEdgeOffset[nc]), slotLengthDistance = new Float64Array(m.cellEdgeOffset[nc]);
+  for (let q = 0; q < slotSignLength.length; q++) {
+    const e = m.cellEdgeIndex[q];
+    slotSignLength[q] = m.cellEdgeSign[q] * m.edgeLength[e];
+    slotLengthDistance[q] = m.edgeLength[e] * m.edgeCellDistance[e];
+  }
+  const vertexSignDistance = m.vertexEdgeSign.map((s, j) => s * m.edgeCellDistance[m.vertexEdges[j]]);
+  const cells = padStencil(m.cellEdgeOffset, nc, (q) => 8 * m.cellEdgeIndex[q], [slotSignLength, slotLengthDistance]);
+  const tangents = padStencil(m.tangentOffset, ne, (q) => 8 * m.tangentIndex[q], [m.tangentCoef]);
+  const b = new KernelMemoryBuilder();
+  const xw = b.f64(n), ow = b.f64(n), dM = b.f64(L * nc);
+  const xBar = b.f64(n), hEdge = b.f64(L * ne), flux = b.f64(L * ne), hVert = b.f64(L * nv), qVert = b.f64(L * nv), qEdge = b.f64(L * ne);
+  const dhEdge = b.f64(ne), dFlux = b.f64(ne), dVort = b.f64(nv), dqVert = b.f64(nv), dqEdge = b.f64(ne), dK = b.f64(nc);
+  const G = b.copy(coupling), ec = b.copy(m.edgeCellsClamped), ev = b.copy(m.edgeVertices), open = b.copy(m.edgeOpen);
+  const dc = b.copy(m.edgeCellDistance), area = b.copy(m.cellArea);
+  const ci = b.copy(cells.index), sl = b.copy(cells.coefs[0]), lk = b.copy(cells.coefs[1]);
+  const ve = b.copy(m.vertexEdges), vsd = b.copy(vertexSignDistance), vc = b.copy(m.vertexCellsClamped), ka = b.copy(m.vertexKiteArea);
+  const vArea = b.copy(m.vertexArea), vi = b.copy(m.vertexInterior), ti = b.copy(tangents.index), tw = b.copy(tangents.coefs[0]);
+  const k = b.build();
+  if (!k) return null;
+  const WC = cells.width, WT = tangents.width;
+  return {
+    xBar: xBar.view, hEdge: hEdge.view, flux: flux.view, hVert: hVert.view, qVert: qVert.view, qEdge: qEdge.view,
+    apply(out: Float64Array, x: Float64Array): void {
+      xw.view.set(x);
+      k.jacobianApply(ow.ptr, xw.ptr, nc, ne, nv, L, uOffset, WC, WT, G.ptr, dM.ptr, xBar.ptr, hEdge.ptr, flux.ptr, hVert.ptr, qVert.ptr, qEdge.ptr,
+        dhEdge.ptr, dFlux.ptr, dVort.ptr, dqVert.ptr, dqEdge.ptr, dK.ptr, ec.ptr, ev.ptr, open.ptr, dc.ptr, area.ptr, ci.ptr, sl.ptr, lk.ptr,
+        ve.ptr, vsd.ptr, vc.ptr, ka.ptr, vArea.ptr, vi.ptr, ti.ptr, tw.ptr);
+      out.set(ow.view);
+    },
   };
 }

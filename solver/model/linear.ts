@@ -1,5 +1,5 @@
 /**
- * The rest-state linearization L of the multi-layer TRiSK model (numerics reference §2.1, §3.7):
+ * The rest-state linearization L of the multi-layer TRiSK model (Gill 1982, §6.2; Ringler et al. 2010):
  *
  *   du_{k,e}/dt = ½ Σ_{e'} W_{e,e'} (l_{e'}/d_e) Ĥ_{k,e'} u_{k,e'} (q̄_{k,e} + q̄_{k,e'}) − (G Σ_j 𝒢_kj h'_j)_e
  *   dh'_{k,i}/dt = −(D(Ĥ_k u_k))_i
@@ -22,7 +22,9 @@ import type { LinearOperator, OperatorCounters } from "../linalg/types.js";
 import type { Mesh } from "../mesh/types.js";
 import { deepestColumnSpeed, hexSpectralBound, layerCoupling } from "./modes.js";
 import { estimateSpectralBound } from "../linalg/spectralBound.js";
+import { KernelMemoryBuilder, padStencil } from "../kernels/wasm.js";
 import type { ShallowWaterModel, StateLayout } from "./shallowWater.js";
+import { operatorShiftedSolver, type OperatorShiftedSolver, type ShiftedSolverOptions } from "./shiftedSolve.js";
 
 export interface RestLinearOperator extends LinearOperator {
   readonly layout: StateLayout;
@@ -52,12 +54,20 @@ export interface RestLinearOperator extends LinearOperator {
   energyDot(a: Float64Array, b: Float64Array): number;
   /** Multiply-adds of one `apply` (a deterministic cost measure). */
   readonly multiplyAddsPerMatvec: number;
+  /**
+   * out = (I − γL)⁻¹ b (layer variables; out and b may alias): a sparse LU of I − γ·interfaceForm, computed once
+   * per γ and cached (shiftedSolve.ts), then the thickness part is set to b_h + γ (L out)_h — a layer
+   * divergence, so each layer's volume is that of b to round-off. Costs one product with L besides the substitutions.
+   */
+  solve(out: Float64Array, b: Float64Array, gamma: number): void;
+  /** The sparse solver behind `solve` (built on first use; its `stats` give the cost in products with L). */
+  shiftedSolver(options?: ShiftedSolverOptions): OperatorShiftedSolver;
 }
 
 export interface RestOperatorOptions {
   /**
    * How to obtain `spectralBound`: "auto" (default) uses √(f_max² + 6 c0²/d²) on a regular hexagonal mesh
-   * (reference §4.2: ω_max² = 6 c²/d² exactly at f = 0, and f²α + c²λ ≤ f² + 6c²/d² for any f) and a
+   * (Thuburn et al. 2009: ω_max² = 6 c²/d² exactly at f = 0, and f²α + c²λ ≤ f² + 6c²/d² for any f) and a
    * power-iteration estimate on irregular meshes; "power" always estimates.
    */
   spectralBound?: "auto" | "power";
@@ -173,6 +183,32 @@ export function restLinearOperator(model: ShallowWaterModel, opts: RestOperatorO
     }
   }
 
+  // the same L x as a WebAssembly kernel (stencils padded to fixed widths); null = applyLayers above
+  const wasmApply = model.kernels === "wasm" ? wasmRestOperator() : null;
+  function wasmRestOperator(): ((out: Float64Array, x: Float64Array) => void) | null {
+    const layers = (a: Float64Array, per: number) => Array.from({ length: L }, (_, k) => a.subarray(k * per, (k + 1) * per));
+    const tangents = padStencil(tOff, ne, (q) => 8 * tIdx[q], layers(coriolisCoef, nnz));
+    const cells = padStencil(cOff, nc, (q) => 8 * cIdx[q], layers(contCoef, nSlots));
+    const concat = (parts: Float64Array[]) => {
+      const a = new Float64Array(parts.reduce((s, p) => s + p.length, 0));
+      let o = 0;
+      for (const p of parts) { a.set(p, o); o += p.length; }
+      return a;
+    };
+    const b = new KernelMemoryBuilder();
+    const xw = b.f64(n), ow = b.f64(n), mont = b.f64(L * nc);
+    const G = b.copy(coupling), cor = b.copy(concat(tangents.coefs)), cont = b.copy(concat(cells.coefs)), inv = b.copy(invD);
+    const ti = b.copy(tangents.index), ci = b.copy(cells.index), edges = b.copy(m.edgeCellsClamped), open = b.copy(edgeOpen);
+    const k = b.build();
+    if (!k) return null;
+    return (out, x) => {
+      xw.view.set(x);
+      k.restOperator(ow.ptr, xw.ptr, nc, ne, L, tangents.width, cells.width, G.ptr, mont.ptr, cor.ptr, cont.ptr, inv.ptr, ti.ptr, edges.ptr, open.ptr, ci.ptr);
+      out.set(ow.view);
+    };
+  }
+  const applyL = wasmApply ?? applyLayers;
+
   // interface variables: η'_l = Σ_{j≥l} h'_j
   function toInterface(out: Float64Array, x: Float64Array): void {
     for (let i = 0; i < nc; i++) {
@@ -198,14 +234,18 @@ export function restLinearOperator(model: ShallowWaterModel, opts: RestOperatorO
   let maxCoriolis = 0;
   for (let v = 0; v < m.nVertices; v++) maxCoriolis = Math.max(maxCoriolis, Math.abs(p.coriolisVertex[v]));
 
-  const tmpA = new Float64Array(n), tmpB = new Float64Array(n);
+  const tmpA = new Float64Array(n), tmpB = new Float64Array(n), solveTmp = new Float64Array(n);
+  let solver: OperatorShiftedSolver | undefined;
   const interfaceOp: { -readonly [K in keyof LinearOperator]: LinearOperator[K] } = {
     n, weights: interfaceWeights, skew: true, counters,
     apply(out, y) {
       fromInterface(tmpA, y);
-      applyLayers(tmpB, tmpA);
+      applyL(tmpB, tmpA);
       toInterface(out, tmpB);
       counters.matvecs++;
+    },
+    shiftedSolve(y, c, gamma) {
+      op.shiftedSolver().solve(y, c, gamma);
     },
   };
   const op: RestLinearOperator & { spectralBound: number } = {
@@ -214,10 +254,23 @@ export function restLinearOperator(model: ShallowWaterModel, opts: RestOperatorO
     interfaceForm: interfaceOp,
     multiplyAddsPerMatvec: L * L * nc + L * (nnz + 2 * ne + m.cellEdgeOffset[nc]),
     apply(out, x) {
-      applyLayers(out, x);
+      applyL(out, x);
       counters.matvecs++;
     },
     toInterface, fromInterface,
+    shiftedSolver(options) {
+      solver ??= operatorShiftedSolver(interfaceOp, m, L, op.multiplyAddsPerMatvec, options);
+      return solver;
+    },
+    solve(out, b, gamma) {
+      const s = op.shiftedSolver();
+      toInterface(solveTmp, b);
+      s.solve(solveTmp, solveTmp, gamma);
+      fromInterface(out, solveTmp);
+      applyLayers(solveTmp, out);
+      counters.matvecs++;
+      for (let q = 0; q < uOffset; q++) out[q] = b[q] + gamma * solveTmp[q];
+    },
     energyDot(a, b) {
       toInterface(tmpA, a);
       toInterface(tmpB, b);

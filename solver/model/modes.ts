@@ -1,5 +1,5 @@
 /**
- * Vertical modes of the layer stack (numerics reference §2.2): eigenpairs of G H with
+ * Vertical modes of the layer stack (Gill 1982, §6.2): eigenpairs of G H with
  * G_kj = Σ_{l ≤ min(k,j)} g'_l and H = diag(H_k). Solved in the symmetric form H^{1/2} G H^{1/2}.
  */
 

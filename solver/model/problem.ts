@@ -70,10 +70,11 @@ function phiOptions(req: PhiRequest, bound: number | undefined, extraPhi: number
   const f = req.filter && typeof req.filter === "object" && "order" in req.filter ? req.filter : parsePhiFilter(req.filter, `${field}.filter`);
   let filter: PhiFilter | undefined;
   if (f) {
-    if (backend !== "chebyshev") throw new SolverError("bad-input", `${field}.filter: the filter works with backend chebyshev only, not "${backend}"`, `${field}.filter`);
-    filter = { cutoff: f.cutoff ?? bound ?? NaN, order: f.order, strength: f.strength ?? 36 };
+    if (backend !== "chebyshev" && backend !== "rational-damped") throw new SolverError("bad-input", `${field}.filter: the filter works with backends chebyshev and rational-damped only, not "${backend}"`, `${field}.filter`);
+    // chebyshev damps near the spectral bound by default; rational-damped needs the cut-off it keeps accurate
+    filter = { cutoff: f.cutoff ?? (backend === "chebyshev" ? bound ?? NaN : NaN), order: f.order, strength: f.strength ?? 36 };
   }
-  return { backend: backend as PhiBackendName, opts: { tol: tolerance, maxPhi: maxPhi + extraPhi, substeps, filter }, maxPhi, field };
+  return { backend: backend as PhiBackendName, opts: { tol: tolerance, maxPhi: maxPhi + extraPhi, substeps, filter, field }, maxPhi, field };
 }
 
 /** Work of the fast/slow split's kernels, in full tendency evaluations (a count of stencil terms, not a timing). */
@@ -113,7 +114,7 @@ export function fastSlowWork(model: ShallowWaterModel): FastSlowWork {
 
 
 /** Mutable tallies behind a problem's counters. */
-interface Tally { tendency: number; extraMatvecs: number; operators: Set<OperatorCounters> }
+interface Tally { tendency: number; extraMatvecs: number; phiActions: number; operators: Set<OperatorCounters> }
 
 function buildFastSlow(model: ShallowWaterModel, tally: Tally): FastSlowSplit {
   const m = model.mesh;
@@ -295,7 +296,15 @@ function buildProblem(model: ShallowWaterModel): ModelProblem {
   const n = model.n;
   const L = model.params.nLayers;
   const layout: StateLayout = { ...model.layout, thicknessOffset: 0 };
-  const tally: Tally = { tendency: 0, extraMatvecs: 0, operators: new Set() };
+  const tally: Tally = { tendency: 0, extraMatvecs: 0, phiActions: 0, operators: new Set() };
+  /** A φ-action whose calls the problem counts. */
+  const counted = (phi: PhiAction): PhiAction => ({
+    name: phi.name, stats: phi.stats,
+    apply(out, tau, v) {
+      tally.phiActions++;
+      phi.apply(out, tau, v);
+    },
+  });
   let rest: RestLinearOperator | undefined;
   const restrictions = new Map<number, ModalRestriction>();
   const fixedParts = new Map<string, LinearPart>();
@@ -323,11 +332,12 @@ function buildProblem(model: ShallowWaterModel): ModelProblem {
     return {
       name: "rest", skew: true, spectralBound: op.spectralBound, reformed: false,
       apply: (out, x) => op.apply(out, x),
+      solve: (out, b, gamma) => op.solve(out, b, gamma),
       linearize() {},
       phi(req = {}) {
         const { backend, opts, maxPhi } = phiOptions(req, op.spectralBound, 0);
         const inner = createPhiAction(backend, op.interfaceForm, opts);
-        return similarityPhi(inner, n, maxPhi, op.toInterface, op.fromInterface);
+        return counted(similarityPhi(inner, n, maxPhi, op.toInterface, op.fromInterface));
       },
     };
   };
@@ -336,10 +346,11 @@ function buildProblem(model: ShallowWaterModel): ModelProblem {
     return {
       name: `modes:${modes}`, skew: true, spectralBound: r.operator.spectralBound ?? getRest().spectralBound, reformed: false,
       apply: (out, x) => r.restricted.apply(out, x),
+      solve: (out, b, gamma) => r.solve(out, b, gamma),
       linearize() {},
       phi(req = {}) {
         const { backend, opts, maxPhi } = phiOptions(req, r.operator.spectralBound, 1);
-        return restrictedPhiAction(r, createPhiAction(backend, r.operator, opts), maxPhi);
+        return counted(restrictedPhiAction(r, createPhiAction(backend, r.operator, opts), maxPhi));
       },
     };
   };
@@ -377,7 +388,7 @@ function buildProblem(model: ShallowWaterModel): ModelProblem {
             `linear: jacobian is not skew (advection and forcing move its spectrum off the imaginary axis) — use backend krylov or taylor`,
             `${f}.backend`);
         }
-        return similarityPhi(createPhiAction(backend, scaled, opts), n, maxPhi, to, from);
+        return counted(similarityPhi(createPhiAction(backend, scaled, opts), n, maxPhi, to, from));
       },
     };
   };
@@ -386,6 +397,7 @@ function buildProblem(model: ShallowWaterModel): ModelProblem {
     get tendencyEvaluations() { return tally.tendency; },
     get matvecs() { let s = tally.extraMatvecs; for (const c of tally.operators) s += c.matvecs; return s; },
     get innerProducts() { let s = 0; for (const c of tally.operators) s += c.innerProducts; return s; },
+    get phiActions() { return tally.phiActions; },
   };
 
   return {

@@ -1,6 +1,6 @@
 /**
  * Vertical-mode restriction R (layers → m modes) and prolongation P (modes → layers), the restricted
- * (modal) operator L̂ = R L P and the φ-functions of the restricted linear part (numerics reference §2.4).
+ * (modal) operator L̂ = R L P and the φ-functions of the restricted linear part (Gill 1982, §6.11).
  *
  * Structures: at every cell i the eigenvectors S_i of 𝒢 H_i (H_i = resting thicknesses of the column,
  * normalised S_iᵀ H_i S_i = H_tot,i I), and at every edge S_e from the edge thicknesses Ĥ_e. With a flat
@@ -33,9 +33,12 @@ import { SolverError } from "../errors.js";
 import type { LinearOperator, OperatorCounters, PhiAction, PhiStats } from "../linalg/types.js";
 import { hexSpectralBound, verticalModes } from "./modes.js";
 import { inverseFactorial } from "../linalg/scalarPhi.js";
+import { KernelMemoryBuilder, padStencil, type Placed } from "../kernels/wasm.js";
+import type { Mesh } from "../mesh/types.js";
 import type { ShallowWaterModel, StateLayout } from "./shallowWater.js";
 import { isRegularHexMesh, restLinearOperator, type RestLinearOperator } from "./linear.js";
 import { estimateSpectralBound } from "../linalg/spectralBound.js";
+import { operatorShiftedSolver, type OperatorShiftedSolver, type ShiftedSolverOptions } from "./shiftedSolve.js";
 
 export interface ModalRestriction {
   /** Number of kept modes m (1 = barotropic only). */
@@ -63,6 +66,20 @@ export interface ModalRestriction {
   readonly restricted: LinearOperator;
   /** Multiply-adds of one L̂ matvec as implemented (a deterministic cost measure; compare RestLinearOperator's). */
   readonly multiplyAddsPerMatvec: number;
+  /**
+   * The assembled coefficients of L̂ (read-only; for the benchmark's comparison loop). When `diagonal`, mode-major
+   * diagonals: Coriolis [a·nnzTangent + q], gradient [a·2nEdges + 2e + side], divergence [a·nnzCell + q];
+   * otherwise m×m blocks [slot·m² + a·m + b].
+   */
+  readonly coefficients: { readonly diagonal: boolean; readonly coriolis: Float64Array; readonly gradient: Float64Array; readonly divergence: Float64Array };
+  /**
+   * out = (I − γM)⁻¹ b for the restricted part M = Π̃ L Π on layer vectors (out and b may alias). Since
+   * R Π̃ L P = L̂, y = R out solves (I − γL̂) y = R b (a sparse LU of the modal system, once per γ, cached) and
+   * out = b + γ Π̃ L P y: the thickness correction is a layer divergence, so layer volumes are those of b.
+   */
+  solve(out: Float64Array, b: Float64Array, gamma: number): void;
+  /** The sparse solver of the modal system behind `solve` (built on first use; `stats` in products with L̂). */
+  shiftedSolver(options?: ShiftedSolverOptions): OperatorShiftedSolver;
 }
 
 export function modalRestriction(model: ShallowWaterModel, nModes: number, rest: RestLinearOperator = restLinearOperator(model)): ModalRestriction {
@@ -344,12 +361,23 @@ export function modalRestriction(model: ShallowWaterModel, nModes: number, rest:
     }
   }
 
+  // the same operator as WebAssembly kernels (diagonal blocks, or two coupled modes); null = the loops above
+  const wasm = model.kernels === "wasm" && (diagonal || m === 2)
+    ? wasmModalOperator(mesh, m, diagonal, nModal, diagonal ? [corDiag, gradDiag, divDiag] : [corBlk, gradBlk, divBlk])
+    : null;
   const modalOp: { -readonly [K in keyof LinearOperator]: LinearOperator[K] } = {
     n: nModal, weights, skew: true, counters,
     apply(out, y) {
       counters.matvecs++;
+      if (wasm) {
+        wasm(out, y);
+        return;
+      }
       applyThickness(out, y);
       applyVelocity(out, y);
+    },
+    shiftedSolve(y, c, gamma) {
+      shiftedSolver().solve(y, c, gamma);
     },
   };
   const restrictTmp = new Float64Array(nModal);
@@ -374,10 +402,73 @@ export function modalRestriction(model: ShallowWaterModel, nModes: number, rest:
   modalOp.spectralBound = bound;
   restrictedOp.spectralBound = bound;
 
+  const multiplyAddsPerMatvec = (diagonal ? m : mm) * (nnzT + 2 * ne + nnzC);
+  let solver: OperatorShiftedSolver | undefined;
+  const solveModal = new Float64Array(nModal), solveLift = new Float64Array(n);
+  function shiftedSolver(options?: ShiftedSolverOptions): OperatorShiftedSolver {
+    solver ??= operatorShiftedSolver(modalOp, mesh, m, multiplyAddsPerMatvec, options);
+    return solver;
+  }
   return {
     modes: m, layout, modalLayout, flat, speeds, rest,
     restrict, prolong, project, operator: modalOp, liftApply, restricted: restrictedOp,
-    multiplyAddsPerMatvec: (flat ? m : mm) * (nnzT + 2 * ne + nnzC),
+    multiplyAddsPerMatvec, shiftedSolver,
+    solve(out, b, gamma) {
+      const s = shiftedSolver();
+      restrict(solveModal, b);
+      s.solve(solveModal, solveModal, gamma);
+      liftApply(solveLift, solveModal);
+      for (let q = 0; q < n; q++) out[q] = b[q] + gamma * solveLift[q];
+    },
+    coefficients: diagonal
+      ? { diagonal, coriolis: corDiag, gradient: gradDiag, divergence: divDiag }
+      : { diagonal, coriolis: corBlk, gradient: gradBlk, divergence: divBlk },
+  };
+}
+
+/**
+ * L̂ y as WebAssembly kernels: per mode the single-layer operator of the diagonal blocks (mode-major coefficients,
+ * `modalDiagonal`), or the 2×2-block operator (`modalTwo`). Stencils are padded to fixed widths (padStencil).
+ * Returns null where WebAssembly is unavailable.
+ */
+function wasmModalOperator(
+  mesh: Mesh, m: number, diagonal: boolean, nModal: number, [cor, grad, div]: readonly Float64Array[],
+): ((out: Float64Array, y: Float64Array) => void) | null {
+  const { nCells: nc, nEdges: ne } = mesh;
+  const nnzT = mesh.tangentOffset[ne], nnzC = mesh.cellEdgeOffset[nc];
+  const b = new KernelMemoryBuilder();
+  const y = b.f64(nModal), o = b.f64(nModal);
+  const ec = b.copy(mesh.edgeCellsClamped), open = b.copy(mesh.edgeOpen);
+  const mOffset = m * nc;
+  if (diagonal) {
+    const tangents = padStencil(mesh.tangentOffset, ne, (q) => 8 * mesh.tangentIndex[q], Array.from({ length: m }, (_, a) => cor.subarray(a * nnzT, (a + 1) * nnzT)));
+    const cells = padStencil(mesh.cellEdgeOffset, nc, (q) => 8 * mesh.cellEdgeIndex[q], Array.from({ length: m }, (_, a) => div.subarray(a * nnzC, (a + 1) * nnzC)));
+    const ti = b.copy(tangents.index), ci = b.copy(cells.index);
+    const cd = tangents.coefs.map((c) => b.copy(c)), dd = cells.coefs.map((c) => b.copy(c));
+    const gd: Placed<Float64Array>[] = [];
+    for (let a = 0; a < m; a++) gd.push(b.copy(grad.slice(a * 2 * ne, (a + 1) * 2 * ne)));
+    const k = b.build();
+    if (!k) return null;
+    const WT = tangents.width, WC = cells.width;
+    return (out, yIn) => {
+      y.view.set(yIn);
+      for (let a = 0; a < m; a++) {
+        k.modalDiagonal(o.ptr + 8 * a * nc, o.ptr + 8 * (mOffset + a * ne), y.ptr + 8 * a * nc, y.ptr + 8 * (mOffset + a * ne), nc, ne, WT, WC,
+          cd[a].ptr, gd[a].ptr, dd[a].ptr, ti.ptr, ec.ptr, open.ptr, ci.ptr);
+      }
+      out.set(o.view);
+    };
+  }
+  const tangents = padStencil(mesh.tangentOffset, ne, (q) => 8 * mesh.tangentIndex[q], [cor], 4);
+  const cells = padStencil(mesh.cellEdgeOffset, nc, (q) => 8 * mesh.cellEdgeIndex[q], [div], 4);
+  const ti = b.copy(tangents.index), ci = b.copy(cells.index);
+  const cb = b.copy(tangents.coefs[0]), db = b.copy(cells.coefs[0]), gb = b.copy(grad);
+  const k = b.build();
+  if (!k) return null;
+  return (out, yIn) => {
+    y.view.set(yIn);
+    k.modalTwo(o.ptr, y.ptr, nc, ne, tangents.width, cells.width, cb.ptr, gb.ptr, db.ptr, ti.ptr, ec.ptr, open.ptr, ci.ptr);
+    out.set(o.view);
   };
 }
 
@@ -398,7 +489,7 @@ export function restrictedPhiAction(r: ModalRestriction, modalPhi: PhiAction, ma
     name: `${modalPhi.name} on ${r.modes} mode${r.modes === 1 ? "" : "s"}`,
     stats,
     apply(out, tau, v) {
-      if (v.length > maxPhi + 1) throw new SolverError("bad-input", `phi index ${v.length - 1} exceeds maxPhi ${maxPhi}`, "stepper.maxPhi");
+      if (v.length > maxPhi + 1) throw new SolverError("bad-input", `phi index ${v.length - 1} exceeds maxPhi ${maxPhi}`, "phi.apply");
       out.fill(0);
       w[0].fill(0);
       for (let k = 0; k <= maxPhi; k++) {

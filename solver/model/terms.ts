@@ -1,8 +1,11 @@
 import type { Mesh } from "../mesh/types.js";
 import { divergence } from "../mesh/operators.js";
+import { meshKernels } from "../kernels/meshKernels.js";
 
 /**
- * One function per term of the TRiSK multi-layer equations (numerics reference §3.6–3.7), for one layer.
+ * Terms of the TRiSK multi-layer equations (Ringler et al. 2010, J. Comput. Phys. 229, 3065–3090): per-layer
+ * functions for the terms used outside the fused passes (edge thickness, kinetic energy, vorticity, potential
+ * vorticity, PV flux, wind, drag, viscosity), then the fused all-layer passes of the tendency.
  * `hOff` / `uOff` locate the layer inside layer-major buffers (h[k·nCells + i], u[k·nEdges + e]).
  * Every function writes or adds into arrays it is given and allocates nothing.
  */
@@ -17,24 +20,6 @@ export function edgeThickness(out: Float64Array, m: Mesh, h: Float64Array, hOff:
   }
 }
 
-/** Thickness flux F_e = ĥ_e u_e [m²/s]. */
-export function thicknessFlux(out: Float64Array, m: Mesh, hEdge: Float64Array, u: Float64Array, uOff: number): void {
-  for (let e = 0; e < m.nEdges; e++) out[e] = hEdge[e] * u[uOff + e];
-}
-
-/** Continuity: dh_i/dt = −(D F)_i [m/s]. */
-export function continuity(out: Float64Array, outOff: number, m: Mesh, flux: Float64Array): void {
-  const { cellEdgeOffset: off, cellEdgeIndex: idx, cellEdgeSign: sgn, edgeLength: len, cellArea } = m;
-  for (let i = 0; i < m.nCells; i++) {
-    let acc = 0;
-    for (let q = off[i]; q < off[i + 1]; q++) {
-      const e = idx[q];
-      acc += sgn[q] * len[e] * flux[e];
-    }
-    out[outOff + i] = -acc / cellArea[i];
-  }
-}
-
 /** Kinetic energy per unit mass at cells, K_i = (1/4A_i) Σ l_e d_e u_e² [m²/s²] (energy-conserving form). */
 export function kineticEnergy(out: Float64Array, m: Mesh, u: Float64Array, uOff: number): void {
   const { cellEdgeOffset: off, cellEdgeIndex: idx, edgeLength: len, edgeCellDistance: dc, cellArea } = m;
@@ -46,27 +31,6 @@ export function kineticEnergy(out: Float64Array, m: Mesh, u: Float64Array, uOff:
       acc += len[e] * dc[e] * ue * ue;
     }
     out[i] = (0.25 * acc) / cellArea[i];
-  }
-}
-
-/**
- * Interface heights and Montgomery potential for all layers (reference §1.2):
- * η_k = b + Σ_{j≥k} h_j, M_k = Σ_{j≤k} g'_j η_j  [m], [m²/s²].
- */
-export function montgomeryPotential(
-  M: Float64Array, eta: Float64Array, h: Float64Array, bottom: Float64Array, reducedGravity: Float64Array, nLayers: number, nCells: number,
-): void {
-  for (let i = 0; i < nCells; i++) {
-    let level = bottom[i];
-    for (let k = nLayers - 1; k >= 0; k--) {
-      level += h[k * nCells + i];
-      eta[k * nCells + i] = level;
-    }
-    let pot = 0;
-    for (let k = 0; k < nLayers; k++) {
-      pot += reducedGravity[k] * eta[k * nCells + i];
-      M[k * nCells + i] = pot;
-    }
   }
 }
 
@@ -100,9 +64,17 @@ export function potentialVorticity(
 
 /**
  * Coriolis + vortex force, Q_e = Σ_{e'} W_{e,e'} (l_{e'}/d_e) F_{e'} (q_e + q_{e'})/2 (Ringler et al. 2010).
- * Writes (not adds) the momentum tendency of open edges and zero on coastline edges [m/s²].
+ * Writes (not adds) the momentum tendency of open edges and zero on coastline edges [m/s²]. Runs as a
+ * WebAssembly kernel where available (solver/kernels/meshKernels.ts, same operation order).
  */
 export function pvFlux(out: Float64Array, outOff: number, m: Mesh, flux: Float64Array, qEdge: Float64Array): void {
+  const k = meshKernels(m);
+  if (k) k.pvFlux(out, outOff, flux, qEdge);
+  else pvFluxLoop(out, outOff, m, flux, qEdge);
+}
+
+/** `pvFlux` as a TypeScript loop (the reference of the kernel, and its fallback). */
+export function pvFluxLoop(out: Float64Array, outOff: number, m: Mesh, flux: Float64Array, qEdge: Float64Array): void {
   const { tangentOffset: off, tangentIndex: idx, tangentCoef: w, edgeOpen } = m;
   for (let e = 0; e < m.nEdges; e++) {
     if (!edgeOpen[e]) { out[outOff + e] = 0; continue; }
@@ -113,17 +85,6 @@ export function pvFlux(out: Float64Array, outOff: number, m: Mesh, flux: Float64
       acc += w[q] * flux[e2] * (qe + qEdge[e2]);
     }
     out[outOff + e] = 0.5 * acc;
-  }
-}
-
-/** Pressure and kinetic-energy gradient: du_e/dt −= (B_c2 − B_c1)/d_e with B = K + M. */
-export function bernoulliGradient(out: Float64Array, outOff: number, m: Mesh, K: Float64Array, M: Float64Array, mOff: number): void {
-  const { edgeCells: ec, edgeCellDistance: dc, edgeOpen } = m;
-  for (let e = 0; e < m.nEdges; e++) {
-    if (!edgeOpen[e]) continue;
-    const c1 = ec[2 * e];
-    const c2 = ec[2 * e + 1];
-    out[outOff + e] -= (K[c2] + M[mOff + c2] - K[c1] - M[mOff + c1]) / dc[e];
   }
 }
 
@@ -170,9 +131,10 @@ export function addScaled(out: Float64Array, outOff: number, lap: Float64Array, 
  * that duplicate in the padding slots; they write the state-shaped outputs of layer L−1 with the same value
  * again, so every L ≥ 1 is handled exactly.
  *
- * Measured with tests/bench on 3-layer periodic meshes (figures in the commit message): the per-term sequence
- * above costs ~210 ns per cell·layer; these kernels several times less. Results equal the per-term functions up
- * to round-off (operation order, multiplication by precombined reciprocals, and the PV flux regrouping below).
+ * Measured with tests/bench on 3-layer periodic meshes (figures in the commit messages): a per-term sequence
+ * cost ~210 ns per cell·layer, these loops 110–120. They are the reference implementation now: the model runs the
+ * same passes as WebAssembly kernels (solver/kernels/assembly/kernels.ts, same operation order) where it can, and
+ * the tests check that both agree.
  */
 
 /** Padded layer stride of the fused kernels' work arrays: L rounded up to a multiple of 3. */
@@ -231,7 +193,7 @@ export function vertexPotentialVorticity(
 /**
  * Edge pass, all layers: ĥ_e = (h_c1 + h_c2)/2 (the wet cell's value on a coastline), F_e = ĥ_e u_e,
  * q_e = (q_v1 + q_v2)/2 and G_e = F_e q_e into `flux`, `qEdge`, `fluxPv` at [P·e + k]
- * (fuses edgeThickness, thicknessFlux and the edge half of potentialVorticity).
+ * (fuses edgeThickness, the thickness flux and the edge half of potentialVorticity).
  */
 export function edgeFluxAndPv(
   flux: Float64Array, qEdge: Float64Array, fluxPv: Float64Array, m: Mesh, x: Float64Array, uOffset: number, nLayers: number,
@@ -268,7 +230,7 @@ export function edgeFluxAndPv(
  * Cell pass, all layers: continuity dh_i/dt = −Σ_q (s_q l_q/A_i) F_q into `out[k·nCells + i]`, and the
  * Bernoulli function B_i = K_i + M_i with K_i = Σ_q (l_q d_q/4A_i) u_q² and the Montgomery potential
  * M_k = Σ_{j≤k} g'_j η_j, η_k = b + Σ_{j≥k} h_j, into `bernoulli[P·i + k]`
- * (fuses continuity, kineticEnergy and montgomeryPotential). `flux` is laid out as edgeFluxAndPv writes it.
+ * (fuses continuity, kineticEnergy and the Montgomery potential). `flux` is laid out as edgeFluxAndPv writes it.
  */
 export function cellContinuityBernoulli(
   out: Float64Array, bernoulli: Float64Array, m: Mesh, x: Float64Array, uOffset: number, nLayers: number,
@@ -320,7 +282,7 @@ export function cellContinuityBernoulli(
 
 /**
  * Edge momentum pass, all layers: du_e/dt = ½ Σ_{e'} W_{e,e'} (l_{e'}/d_e) F_{e'} (q_e + q_{e'}) − (B_c2 − B_c1)/d_e
- * on open edges, 0 on coastline edges, into `out[uOffset + k·nEdges + e]` (fuses pvFlux and bernoulliGradient).
+ * on open edges, 0 on coastline edges, into `out[uOffset + k·nEdges + e]` (fuses pvFlux and the Bernoulli gradient).
  * The PV flux is summed as ½ (q_e Σ c F_{e'} + Σ c G_{e'}) with G = F q from edgeFluxAndPv — the same sum
  * regrouped, measured ~25% faster in V8 than the product form. `tangentSlot[t] = P·tangentIndex[t]`.
  */

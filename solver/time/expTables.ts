@@ -1,5 +1,5 @@
 /**
- * Exponential Runge–Kutta methods as tables of φ-function coefficients (numerics reference §6.3–6.6).
+ * Exponential Runge–Kutta methods as tables of φ-function coefficients (Hochbruck & Ostermann 2010).
  *
  * a[i][j](z) and b[j](z) are sums of coef · φ_k(at · z), z = hL, written as published (column 0 included).
  * The engine (exponential.ts) uses the row-sum form: stage i is
@@ -25,7 +25,7 @@ export interface ExpRkTable {
   readonly reference: string;
   /** "fixed": exponential Runge–Kutta for a fixed L; "jacobian": exponential Rosenbrock (L = F'(x_n)). */
   readonly linearPart: "fixed" | "jacobian";
-  /** Observed order when a Rosenbrock table is used with a fixed linear part (reference §4.5). */
+  /** Observed order when a Rosenbrock table is used with a fixed linear part (measured with this code). */
   readonly orderWithFixedLinear?: number;
   readonly c: readonly number[];
   /** a[i] has i entries (j < i), each a list of terms; a[0] = []. */

@@ -87,8 +87,10 @@ export function exponentialRk(table: ExpRkTable, problem: Pick<Problem, "n" | "t
 
 const ROSENBROCK_LINEAR = "jacobian";
 /** Backends whose φ-actions need a skew operator with a purely imaginary spectrum. */
-const SKEW_ONLY_BACKENDS = ["chebyshev", "rational"];
-const FILTER_BACKENDS = ["chebyshev"];
+const SKEW_ONLY_BACKENDS = ["chebyshev", "rational", "rational-damped"];
+const FILTER_BACKENDS = ["chebyshev", "rational-damped"];
+/** Backends whose filter needs an explicit cut-off frequency (the offered filter orders alone do not do). */
+const CUTOFF_BACKENDS = ["rational-damped"];
 /** Declared bound on the time sub-steps inside one φ-action. */
 export const MAX_PHI_SUBSTEPS = 10_000;
 
@@ -133,9 +135,10 @@ export const PHI_OPTIONS: OptionDeclarations = {
     help: "how the actions of the matrix functions φ_k on vectors are computed",
     choices: phiBackends.map((b) => ({
       value: b.name, label: b.name, help: b.description,
-      conflicts: SKEW_ONLY_BACKENDS.includes(b.name)
-        ? [{ key: "linear", values: [ROSENBROCK_LINEAR], reason: "not available with linear: jacobian (its spectrum is not purely imaginary)" }]
-        : undefined,
+      conflicts: [
+        ...(SKEW_ONLY_BACKENDS.includes(b.name) ? [{ key: "linear", values: [ROSENBROCK_LINEAR], reason: "not available with linear: jacobian (its spectrum is not purely imaginary)" }] : []),
+        ...(CUTOFF_BACKENDS.includes(b.name) ? [{ key: "filter", values: ["off", 8, 16], reason: 'needs a filter with a cut-off frequency, e.g. { "order": 16, "cutoff": 1e-3 }' }] : []),
+      ],
     })),
   },
   tolerance: {
@@ -148,12 +151,12 @@ export const PHI_OPTIONS: OptionDeclarations = {
   },
   filter: {
     type: "choice", label: "high-frequency filter", default: "off",
-    help: 'damps frequencies near the spectral bound inside the φ-actions (chebyshev only): "off", a filter order (8, 16) or { "order", "strength", "cutoff" }',
+    help: 'damps high frequencies inside the φ-actions (chebyshev: near the spectral bound; rational-damped: above the cut-off): "off", a filter order (8, 16) or { "order", "strength", "cutoff" }',
     choices: [
       { value: "off", label: "off", help: "no damping" },
       ...[8, 16].map((o) => ({
         value: o, label: `order ${o}`, help: o === 8 ? "gentler roll-off, damps a wider band below the bound" : "sharper roll-off, damps only close to the bound",
-        conflicts: [{ key: "backend", values: phiBackends.map((b) => b.name).filter((x) => !FILTER_BACKENDS.includes(x)), reason: "the filter works with backend chebyshev only" }],
+        conflicts: [{ key: "backend", values: phiBackends.map((b) => b.name).filter((x) => !FILTER_BACKENDS.includes(x) || CUTOFF_BACKENDS.includes(x)), reason: "a filter order alone works with backend chebyshev only (rational-damped needs { order, cutoff })" }],
       })),
     ],
     parse: (v, field) => parsePhiFilter(v, field) ?? "off",

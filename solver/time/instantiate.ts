@@ -52,13 +52,14 @@ export function instantiate(def: StepperDefinition, problem: Problem, spec: Reco
     throw new SolverError("stepper-fault", `stepper "${def.name}": create must return an object with a step(x, t, dt) method, got ${inst === null ? "null" : typeof inst}`, field);
   }
   const c = problem.counters;
-  const base = { rhs: c.tendencyEvaluations, mv: c.matvecs, ip: c.innerProducts };
+  const base = { rhs: c.tendencyEvaluations, mv: c.matvecs, ip: c.innerProducts, phi: c.phiActions };
   let steps = 0;
   const stats: StepStats = {
     get steps() { return steps; },
     get rhsEvaluations() { return c.tendencyEvaluations - base.rhs; },
     get matvecs() { return c.matvecs - base.mv; },
     get innerProducts() { return c.innerProducts - base.ip; },
+    get phiActions() { return c.phiActions - base.phi; },
   } as StepStats;
   const user = o.origin !== undefined;
   const label = typeof inst.label === "string" ? inst.label : def.name;

@@ -37,6 +37,8 @@ export interface ProblemCounters {
   readonly matvecs: number;
   /** Global inner products (reductions over the whole state; the communication cost on many processors). */
   readonly innerProducts: number;
+  /** φ-action calls (each `phi(...).apply`, however many φ_k it combines). */
+  readonly phiActions: number;
 }
 
 /** Options of a φ-action. */

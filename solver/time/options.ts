@@ -101,6 +101,9 @@ export function coerceOptionText(spec: OptionSpec | undefined, text: string): un
     case "choice": {
       const choices = typeof spec.choices === "function" ? [] : spec.choices ?? [];
       const numeric = choices.some((c) => typeof (typeof c === "object" ? c.value : c) === "number");
+      if (spec.parse && /^[[{]/.test(t)) {
+        try { return JSON.parse(t); } catch { return t; } // a structured value the declaration's parse accepts
+      }
       return isNum && (numeric || spec.parse) ? num : t;
     }
     case "json":

@@ -9,6 +9,8 @@ import { SPLIT_EXPLICIT_METHOD } from "./splitExplicit.js";
 import type { Problem, StepperDefinition } from "./interface.js";
 import type { Stepper } from "./types.js";
 import { EXPONENTIAL_METHODS } from "./exponentialMethods.js";
+import { EXP_AB2 } from "./exponentialMultistep.js";
+import { IMEX_METHODS } from "./imex.js";
 import { instantiate } from "./instantiate.js";
 import { moduleDefinition } from "./userModules.js";
 
@@ -65,6 +67,8 @@ registerMethod(explicitRkDefinition(EXPLICIT_TABLEAUX[1], "three-stage strong-st
 registerMethod(CUSTOM_RK);
 registerMethod(SPLIT_EXPLICIT_METHOD);
 for (const e of EXPONENTIAL_METHODS) registerMethod(e);
+registerMethod(EXP_AB2);
+for (const e of IMEX_METHODS) registerMethod(e);
 
 export function methodNames(): string[] {
   return [...entries.keys()];

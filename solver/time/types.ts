@@ -9,6 +9,8 @@ export interface StepStats {
   matvecs: number;
   /** Global inner products (the communication cost of a method on many processors). */
   innerProducts: number;
+  /** φ-action calls. */
+  phiActions: number;
 }
 
 /** A stepper definition instantiated on a problem, with its work counted since creation. */

@@ -1,22 +1,25 @@
 import { createRun } from "../../solver/driver/run";
-import { round, time } from "./harness";
+import { cpuClock, round, time } from "./harness";
 import type { BenchSection } from "./sections";
 
-/** How the cost of an RK4 step grows with the mesh: 4 sizes, least-squares exponent of ms vs cells. */
+/**
+ * How the cost of an RK4 step grows with the mesh: 4 sizes, least-squares exponent of ms vs cells. Timed by the
+ * process's CPU time (the exponent is a ratio of figures taken minutes apart on a shared machine).
+ */
 export const scalingSection: BenchSection = {
   key: "scaling",
   run({ log, quick }) {
     const sizes = [32, 48, 64, 96];
     const msPerStep: number[] = [];
     const cells: number[] = [];
-    log("Cost of one RK4 step against mesh size (3 layers, periodic)");
+    log("Cost of one RK4 step against mesh size (3 layers, periodic; CPU time)");
     for (const n of sizes) {
       const run = createRun({
         name: "scaling", mesh: { type: "periodic-hex", cellsX: n, cellsY: n, spacing: 20000 },
         layers: [{ thickness: 300, density: 1025 }, { thickness: 700, density: 1026.5 }, { thickness: 3000, density: 1027.5 }],
         physics: { f0: 1e-4 }, initial: { type: "bump", amplitude: 1, radius: 100000 }, stepper: { method: "rk4", dt: 60 }, duration: 3600,
       });
-      const t = time(() => run.stepper.step(run.state, 0, 60), { warmup: 5, reps: quick ? 3 : 7, inner: Math.max(1, Math.round(40000 / (n * n))) });
+      const t = time(() => run.stepper.step(run.state, 0, 60), { warmup: 5, reps: quick ? 3 : 7, inner: Math.max(1, Math.round(40000 / (n * n))), clock: cpuClock });
       msPerStep.push(round(t.best));
       cells.push(run.mesh.nCells);
       log(`  ${String(n * n).padStart(6)} cells  ${t.best.toFixed(3)} ms per step (best), ${t.median.toFixed(3)} ms (median)`);

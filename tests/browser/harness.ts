@@ -45,8 +45,9 @@ export async function startSandbox(): Promise<Sandbox> {
     server: { host: "127.0.0.1", port, strictPort: true, hmr: false, watch: null },
     // crawl the worker too and pre-bundle up front, so no late discovery reloads a page in the middle of a test
     optimizeDeps: {
-      entries: ["index.html", "workers/simulation.worker.ts"],
-      include: ["react", "react-dom", "react-dom/client", "react/jsx-dev-runtime", "d3", "comlink", "zod"],
+      entries: ["index.html", "workers/simulation.worker.ts", "workers/assess.worker.ts"],
+      include: ["react", "react-dom", "react-dom/client", "react/jsx-dev-runtime", "d3", "comlink", "zod",
+        "codemirror", "@codemirror/lang-javascript", "@codemirror/lint", "sucrase", "@jridgewell/trace-mapping"],
     },
   });
   await server.listen();

@@ -51,7 +51,7 @@ describe("every backend reproduces Σ τ^k φ_k(τA) v_k on a weighted-skew 30×
 });
 
 describe("mass-like invariant: ℓᵀA = 0 and ℓᵀv_k = 0 imply ℓᵀ out = 0", () => {
-  // ℓᵀ φ_k(τA) = ℓᵀ/k!, so ℓᵀ out = Σ τ^k ℓᵀv_k / k! (series definition, numerics reference §6.1, §6.6)
+  // ℓᵀ φ_k(τA) = ℓᵀ/k!, so ℓᵀ out = Σ τ^k ℓᵀv_k / k! (series definition, Hochbruck & Ostermann 2010)
   const l = fx.leftNull;
   const project = (x: Float64Array) => {
     let a = 0, b = 0;
@@ -110,17 +110,19 @@ describe("registry", () => {
     throw new Error(`expected a SolverError for ${field}`);
   };
   it("rejects bad options with SolverError(bad-input) naming the field", () => {
-    expectBadInput(() => createPhiAction("krylov", fx.op, { tol: 0, maxPhi: 1 }), "stepper.tol");
-    expectBadInput(() => createPhiAction("krylov", fx.op, { tol: -1e-8, maxPhi: 1 }), "stepper.tol");
-    expectBadInput(() => createPhiAction("krylov", fx.op, { tol: NaN, maxPhi: 1 }), "stepper.tol");
-    expectBadInput(() => createPhiAction("krylov", fx.op, { tol: 1e-8, maxPhi: -1 }), "stepper.maxPhi");
-    expectBadInput(() => createPhiAction("nope" as PhiBackendName, fx.op, { tol: 1e-8, maxPhi: 1 }), "stepper.backend");
+    expectBadInput(() => createPhiAction("krylov", fx.op, { tol: 0, maxPhi: 1 }), "phi.tolerance");
+    expectBadInput(() => createPhiAction("krylov", fx.op, { tol: -1e-8, maxPhi: 1 }), "phi.tolerance");
+    expectBadInput(() => createPhiAction("krylov", fx.op, { tol: NaN, maxPhi: 1 }), "phi.tolerance");
+    expectBadInput(() => createPhiAction("krylov", fx.op, { tol: 1e-8, maxPhi: -1 }), "phi.maxPhi");
+    expectBadInput(() => createPhiAction("nope" as PhiBackendName, fx.op, { tol: 1e-8, maxPhi: 1 }), "phi.backend");
     const plain = { n, counters: { matvecs: 0, innerProducts: 0 }, apply: fx.op.apply };
-    expectBadInput(() => createPhiAction("chebyshev", plain, { tol: 1e-8, maxPhi: 1 }), "stepper.backend");
-    expectBadInput(() => createPhiAction("rational", plain, { tol: 1e-8, maxPhi: 1 }), "stepper.backend");
-    expectBadInput(() => createPhiAction("chebyshev", { ...plain, spectralBound: 1 }, { tol: 1e-8, maxPhi: 1 }), "stepper.backend");
-    expectBadInput(() => createPhiAction("substep", plain, { tol: 1e-8, maxPhi: 1 }), "stepper.backend");
-    expectBadInput(() => createPhiAction("krylov", fx.op, { tol: 1e-8, maxPhi: 1, filter: { cutoff: 1, order: 8, strength: 36 } }), "stepper.filter");
-    expectBadInput(() => createPhiAction("chebyshev", fx.op, { tol: 1e-8, maxPhi: 1, filter: { cutoff: 0, order: 8, strength: 36 } }), "stepper.filter.cutoff");
+    expectBadInput(() => createPhiAction("chebyshev", plain, { tol: 1e-8, maxPhi: 1 }), "phi.backend");
+    expectBadInput(() => createPhiAction("rational", plain, { tol: 1e-8, maxPhi: 1 }), "phi.backend");
+    expectBadInput(() => createPhiAction("chebyshev", { ...plain, spectralBound: 1 }, { tol: 1e-8, maxPhi: 1 }), "phi.backend");
+    expectBadInput(() => createPhiAction("substep", plain, { tol: 1e-8, maxPhi: 1 }), "phi.backend");
+    expectBadInput(() => createPhiAction("krylov", fx.op, { tol: 1e-8, maxPhi: 1, filter: { cutoff: 1, order: 8, strength: 36 } }), "phi.filter");
+    expectBadInput(() => createPhiAction("chebyshev", fx.op, { tol: 1e-8, maxPhi: 1, filter: { cutoff: 0, order: 8, strength: 36 } }), "phi.filter.cutoff");
+    // a caller names its own field prefix, e.g. the stepper's options
+    expectBadInput(() => createPhiAction("krylov", fx.op, { tol: 0, maxPhi: 1, field: "stepper" }), "stepper.tolerance");
   });
 });

@@ -2,7 +2,7 @@ import { describe, expect, it } from "vitest";
 import { phiReal, phiRealAll, phiComplexAll, phiClosedFormReal, phiSeriesReal, inverseFactorial } from "../../solver/linalg/scalarPhi";
 
 describe("scalar φ-functions", () => {
-  it("φ_k(1) = e − 1, e − 2, e − 5/2, e − 8/3 (numerics reference §4.4; φ_k(1) = e − Σ_{j<k} 1/j!)", () => {
+  it("φ_k(1) = e − 1, e − 2, e − 5/2, e − 8/3 (Hochbruck & Ostermann 2010, Acta Numerica 19; φ_k(1) = e − Σ_{j<k} 1/j!)", () => {
     const e = Math.E;
     // absolute tolerance: the reference differences themselves carry ~4e-16 rounding
     expect(Math.abs(phiReal(1, 1) - (e - 1))).toBeLessThan(1e-15);

@@ -1,0 +1,490 @@
+// AssemblyScript source of the WebAssembly kernels (compiled by `npm run build:kernels`, see DEVELOPERS.md).
+// Not TypeScript: f64/i32/usize, load/store on raw linear memory. Every pointer is a byte offset into the
+// memory that the host (solver/kernels/wasm.ts) fills with the mesh arrays, coefficients and work arrays of one
+// model; indices are element indices. The arithmetic, operation order included, is that of the TypeScript
+// kernels they replace (solver/model/terms.ts, linear.ts, restriction.ts), so results agree to round-off.
+//
+// Stencils of variable length (cell → edges, edge → tangential edges) arrive padded to a fixed width W per row:
+// index arrays repeat a valid index and coefficient arrays hold 0 in the padding. Widths 6 and 10 (hexagonal
+// cells, TRiSK tangential stencil) have unrolled loops; any other width takes the plain loop. Stencil index
+// arrays hold byte offsets (8 × element index, 8P × entity for the layer-interleaved work arrays), so a gather
+// is one add and one load with an immediate offset.
+
+@inline function ld(p: usize, i: i32): f64 { return load<f64>(p + (<usize>i << 3)); }
+@inline function li(p: usize, i: i32): i32 { return load<i32>(p + (<usize>i << 2)); }
+@inline function st(p: usize, i: i32, v: f64): void { store<f64>(p + (<usize>i << 3), v); }
+@inline function at(p: usize, byteOffset: i32): f64 { return load<f64>(p + <usize>byteOffset); }
+@inline function lane(k: i32, j: i32, nLayers: i32): i32 { return k + j < nLayers ? k + j : nLayers - 1; }
+
+// ---------------------------------------------------------------------------------------------------------
+// Tendency: four fused passes over all layers, in blocks of three lanes (see terms.ts for the equations).
+// Work arrays are layer-interleaved with stride P (L rounded up to a multiple of 3): [P·entity + k].
+
+export function vertexPotentialVorticity(
+  qV: usize, x: usize, nv: i32, nc: i32, ne: i32, uOffset: i32, L: i32, P: i32,
+  ve: usize, vc: usize, cc: usize, kf: usize, vi: usize, cor: usize,
+): void {
+  for (let kb = 0; kb < L; kb += 3) {
+    const k1 = lane(kb, 1, L), k2 = lane(kb, 2, L);
+    const u0 = x + (<usize>(uOffset + kb * ne) << 3), u1 = x + (<usize>(uOffset + k1 * ne) << 3), u2 = x + (<usize>(uOffset + k2 * ne) << 3);
+    const h0 = x + (<usize>(kb * nc) << 3), h1 = x + (<usize>(k1 * nc) << 3), h2 = x + (<usize>(k2 * nc) << 3);
+    for (let v = 0; v < nv; v++) {
+      const j = 3 * v;
+      const ca = li(vc, j), cb = li(vc, j + 1), cd = li(vc, j + 2);
+      const fa = ld(kf, j), fb = ld(kf, j + 1), fd = ld(kf, j + 2);
+      const f = ld(cor, v);
+      let z0: f64 = 0, z1: f64 = 0, z2: f64 = 0;
+      if (load<u8>(vi + <usize>v) != 0) {
+        const ea = li(ve, j), eb = li(ve, j + 1), ed = li(ve, j + 2);
+        const aa = ld(cc, j), ab = ld(cc, j + 1), ad = ld(cc, j + 2);
+        z0 = aa * ld(u0, ea) + ab * ld(u0, eb) + ad * ld(u0, ed);
+        z1 = aa * ld(u1, ea) + ab * ld(u1, eb) + ad * ld(u1, ed);
+        z2 = aa * ld(u2, ea) + ab * ld(u2, eb) + ad * ld(u2, ed);
+      }
+      const o = P * v + kb;
+      st(qV, o, (z0 + f) / (fa * ld(h0, ca) + fb * ld(h0, cb) + fd * ld(h0, cd)));
+      st(qV, o + 1, (z1 + f) / (fa * ld(h1, ca) + fb * ld(h1, cb) + fd * ld(h1, cd)));
+      st(qV, o + 2, (z2 + f) / (fa * ld(h2, ca) + fb * ld(h2, cb) + fd * ld(h2, cd)));
+    }
+  }
+}
+
+export function edgeFluxAndPv(
+  flux: usize, qE: usize, fq: usize, x: usize, ne: i32, nc: i32, uOffset: i32, L: i32, P: i32, ec: usize, ev: usize, qV: usize,
+): void {
+  for (let kb = 0; kb < L; kb += 3) {
+    const k1 = lane(kb, 1, L), k2 = lane(kb, 2, L);
+    const u0 = x + (<usize>(uOffset + kb * ne) << 3), u1 = x + (<usize>(uOffset + k1 * ne) << 3), u2 = x + (<usize>(uOffset + k2 * ne) << 3);
+    const h0 = x + (<usize>(kb * nc) << 3), h1 = x + (<usize>(k1 * nc) << 3), h2 = x + (<usize>(k2 * nc) << 3);
+    for (let e = 0; e < ne; e++) {
+      const ca = li(ec, 2 * e), cb = li(ec, 2 * e + 1);
+      const va = P * li(ev, 2 * e) + kb, vb = P * li(ev, 2 * e + 1) + kb;
+      const o = P * e + kb;
+      const F0 = 0.5 * (ld(h0, ca) + ld(h0, cb)) * ld(u0, e);
+      const F1 = 0.5 * (ld(h1, ca) + ld(h1, cb)) * ld(u1, e);
+      const F2 = 0.5 * (ld(h2, ca) + ld(h2, cb)) * ld(u2, e);
+      const q0 = 0.5 * (ld(qV, va) + ld(qV, vb));
+      const q1 = 0.5 * (ld(qV, va + 1) + ld(qV, vb + 1));
+      const q2 = 0.5 * (ld(qV, va + 2) + ld(qV, vb + 2));
+      st(flux, o, F0); st(flux, o + 1, F1); st(flux, o + 2, F2);
+      st(qE, o, q0); st(qE, o + 1, q1); st(qE, o + 2, q2);
+      st(fq, o, F0 * q0); st(fq, o + 1, F1 * q1); st(fq, o + 2, F2 * q2);
+    }
+  }
+}
+
+/** Cell pass: continuity into out[k·nc + i], Bernoulli function B = K + M into bern[P·i + k]. Stencil width W. */
+export function cellContinuityBernoulli(
+  out: usize, bern: usize, x: usize, nc: i32, ne: i32, uOffset: i32, L: i32, P: i32, W: i32,
+  idx: usize, dcf: usize, kcf: usize, bottom: usize, rg: usize, flux: usize,
+): void {
+  for (let i = 0; i < nc; i++) {
+    const o = P * i;
+    let level = ld(bottom, i);
+    for (let k = L - 1; k >= 0; k--) {
+      level += ld(x, k * nc + i);
+      st(bern, o + k, level);
+    }
+    let pot: f64 = 0;
+    for (let k = 0; k < L; k++) {
+      pot += ld(rg, k) * ld(bern, o + k);
+      st(bern, o + k, pot);
+    }
+    for (let k = L; k < P; k++) st(bern, o + k, pot);
+  }
+  for (let kb = 0; kb < L; kb += 3) {
+    const k1 = lane(kb, 1, L), k2 = lane(kb, 2, L);
+    const u0 = x + (<usize>(uOffset + kb * ne) << 3), u1 = x + (<usize>(uOffset + k1 * ne) << 3), u2 = x + (<usize>(uOffset + k2 * ne) << 3);
+    const fl = flux + (<usize>kb << 3);
+    for (let i = 0; i < nc; i++) {
+      let d0: f64 = 0, d1: f64 = 0, d2: f64 = 0, K0: f64 = 0, K1: f64 = 0, K2: f64 = 0;
+      const q0 = W * i;
+      for (let q = q0; q < q0 + W; q++) {
+        const e = li(idx, q);
+        const pf = fl + <usize>(P * e);
+        const c = ld(dcf, q);
+        const w = ld(kcf, q);
+        const a0 = at(u0, e), a1 = at(u1, e), a2 = at(u2, e);
+        d0 += c * load<f64>(pf); d1 += c * load<f64>(pf, 8); d2 += c * load<f64>(pf, 16);
+        K0 += w * a0 * a0; K1 += w * a1 * a1; K2 += w * a2 * a2;
+      }
+      st(out, kb * nc + i, -d0); st(out, k1 * nc + i, -d1); st(out, k2 * nc + i, -d2);
+      const o = P * i + kb;
+      st(bern, o, ld(bern, o) + K0); st(bern, o + 1, ld(bern, o + 1) + K1); st(bern, o + 2, ld(bern, o + 2) + K2);
+    }
+  }
+}
+
+/** Edge momentum pass: PV flux and Bernoulli gradient into out[uOffset + k·ne + e]. Stencil width W. */
+export function edgeMomentum(
+  out: usize, ne: i32, uOffset: i32, L: i32, P: i32, W: i32,
+  ec: usize, open: usize, inv: usize, slot: usize, tw: usize, flux: usize, qE: usize, fq: usize, bern: usize,
+): void {
+  for (let kb = 0; kb < L; kb += 3) {
+    const k1 = lane(kb, 1, L), k2 = lane(kb, 2, L);
+    const o0 = out + (<usize>(uOffset + kb * ne) << 3), o1 = out + (<usize>(uOffset + k1 * ne) << 3), o2 = out + (<usize>(uOffset + k2 * ne) << 3);
+    const fl = flux + (<usize>kb << 3), gl = fq + (<usize>kb << 3);
+    if (W == 10) {
+      for (let e = 0; e < ne; e++) {
+        if (load<u8>(open + <usize>e) == 0) { st(o0, e, 0); st(o1, e, 0); st(o2, e, 0); continue; }
+        let a0: f64 = 0, a1: f64 = 0, a2: f64 = 0, g0: f64 = 0, g1: f64 = 0, g2: f64 = 0;
+        const ps = slot + (<usize>(10 * e) << 2), pw = tw + (<usize>(10 * e) << 3);
+        let j = 0, c: f64 = 0, tap: usize = 0;
+        j = load<i32>(ps, 0); c = load<f64>(pw, 0);
+        tap = fl + <usize>j; a0 += c * load<f64>(tap); a1 += c * load<f64>(tap, 8); a2 += c * load<f64>(tap, 16);
+        tap = gl + <usize>j; g0 += c * load<f64>(tap); g1 += c * load<f64>(tap, 8); g2 += c * load<f64>(tap, 16);
+        j = load<i32>(ps, 4); c = load<f64>(pw, 8);
+        tap = fl + <usize>j; a0 += c * load<f64>(tap); a1 += c * load<f64>(tap, 8); a2 += c * load<f64>(tap, 16);
+        tap = gl + <usize>j; g0 += c * load<f64>(tap); g1 += c * load<f64>(tap, 8); g2 += c * load<f64>(tap, 16);
+        j = load<i32>(ps, 8); c = load<f64>(pw, 16);
+        tap = fl + <usize>j; a0 += c * load<f64>(tap); a1 += c * load<f64>(tap, 8); a2 += c * load<f64>(tap, 16);
+        tap = gl + <usize>j; g0 += c * load<f64>(tap); g1 += c * load<f64>(tap, 8); g2 += c * load<f64>(tap, 16);
+        j = load<i32>(ps, 12); c = load<f64>(pw, 24);
+        tap = fl + <usize>j; a0 += c * load<f64>(tap); a1 += c * load<f64>(tap, 8); a2 += c * load<f64>(tap, 16);
+        tap = gl + <usize>j; g0 += c * load<f64>(tap); g1 += c * load<f64>(tap, 8); g2 += c * load<f64>(tap, 16);
+        j = load<i32>(ps, 16); c = load<f64>(pw, 32);
+        tap = fl + <usize>j; a0 += c * load<f64>(tap); a1 += c * load<f64>(tap, 8); a2 += c * load<f64>(tap, 16);
+        tap = gl + <usize>j; g0 += c * load<f64>(tap); g1 += c * load<f64>(tap, 8); g2 += c * load<f64>(tap, 16);
+        j = load<i32>(ps, 20); c = load<f64>(pw, 40);
+        tap = fl + <usize>j; a0 += c * load<f64>(tap); a1 += c * load<f64>(tap, 8); a2 += c * load<f64>(tap, 16);
+        tap = gl + <usize>j; g0 += c * load<f64>(tap); g1 += c * load<f64>(tap, 8); g2 += c * load<f64>(tap, 16);
+        j = load<i32>(ps, 24); c = load<f64>(pw, 48);
+        tap = fl + <usize>j; a0 += c * load<f64>(tap); a1 += c * load<f64>(tap, 8); a2 += c * load<f64>(tap, 16);
+        tap = gl + <usize>j; g0 += c * load<f64>(tap); g1 += c * load<f64>(tap, 8); g2 += c * load<f64>(tap, 16);
+        j = load<i32>(ps, 28); c = load<f64>(pw, 56);
+        tap = fl + <usize>j; a0 += c * load<f64>(tap); a1 += c * load<f64>(tap, 8); a2 += c * load<f64>(tap, 16);
+        tap = gl + <usize>j; g0 += c * load<f64>(tap); g1 += c * load<f64>(tap, 8); g2 += c * load<f64>(tap, 16);
+        j = load<i32>(ps, 32); c = load<f64>(pw, 64);
+        tap = fl + <usize>j; a0 += c * load<f64>(tap); a1 += c * load<f64>(tap, 8); a2 += c * load<f64>(tap, 16);
+        tap = gl + <usize>j; g0 += c * load<f64>(tap); g1 += c * load<f64>(tap, 8); g2 += c * load<f64>(tap, 16);
+        j = load<i32>(ps, 36); c = load<f64>(pw, 72);
+        tap = fl + <usize>j; a0 += c * load<f64>(tap); a1 += c * load<f64>(tap, 8); a2 += c * load<f64>(tap, 16);
+        tap = gl + <usize>j; g0 += c * load<f64>(tap); g1 += c * load<f64>(tap, 8); g2 += c * load<f64>(tap, 16);
+        momentumStore(o0, o1, o2, e, P, kb, a0, a1, a2, g0, g1, g2, ec, inv, qE, bern);
+      }
+    } else {
+      for (let e = 0; e < ne; e++) {
+        if (load<u8>(open + <usize>e) == 0) { st(o0, e, 0); st(o1, e, 0); st(o2, e, 0); continue; }
+        let a0: f64 = 0, a1: f64 = 0, a2: f64 = 0, g0: f64 = 0, g1: f64 = 0, g2: f64 = 0;
+        const t0 = W * e;
+        for (let t = t0; t < t0 + W; t++) {
+          const j = li(slot, t);
+          const c = ld(tw, t);
+          const pf = fl + <usize>j, pg = gl + <usize>j;
+          a0 += c * load<f64>(pf); a1 += c * load<f64>(pf, 8); a2 += c * load<f64>(pf, 16);
+          g0 += c * load<f64>(pg); g1 += c * load<f64>(pg, 8); g2 += c * load<f64>(pg, 16);
+        }
+        momentumStore(o0, o1, o2, e, P, kb, a0, a1, a2, g0, g1, g2, ec, inv, qE, bern);
+      }
+    }
+  }
+}
+
+@inline function momentumStore(
+  o0: usize, o1: usize, o2: usize, e: i32, P: i32, kb: i32, a0: f64, a1: f64, a2: f64, g0: f64, g1: f64, g2: f64,
+  ec: usize, inv: usize, qE: usize, bern: usize,
+): void {
+  const o = P * e + kb;
+  const b1 = P * li(ec, 2 * e) + kb, b2 = P * li(ec, 2 * e + 1) + kb;
+  const id = ld(inv, e);
+  st(o0, e, 0.5 * (ld(qE, o) * a0 + g0) - (ld(bern, b2) - ld(bern, b1)) * id);
+  st(o1, e, 0.5 * (ld(qE, o + 1) * a1 + g1) - (ld(bern, b2 + 1) - ld(bern, b1 + 1)) * id);
+  st(o2, e, 0.5 * (ld(qE, o + 2) * a2 + g2) - (ld(bern, b2 + 2) - ld(bern, b1 + 2)) * id);
+}
+
+// ---------------------------------------------------------------------------------------------------------
+// Single-layer wave operators: the modal operator of restriction.ts with one mode per block (diagonal blocks),
+// and the rest-state operator of linear.ts layer by layer.
+
+@inline function tangentSum(cor: usize, ti: usize, u: usize, t0: i32, W: i32): f64 {
+  let acc: f64 = 0;
+  if (W == 10) {
+    const pc = cor + (<usize>t0 << 3), pi = ti + (<usize>t0 << 2);
+    acc += load<f64>(pc, 0) * at(u, load<i32>(pi, 0));
+    acc += load<f64>(pc, 8) * at(u, load<i32>(pi, 4));
+    acc += load<f64>(pc, 16) * at(u, load<i32>(pi, 8));
+    acc += load<f64>(pc, 24) * at(u, load<i32>(pi, 12));
+    acc += load<f64>(pc, 32) * at(u, load<i32>(pi, 16));
+    acc += load<f64>(pc, 40) * at(u, load<i32>(pi, 20));
+    acc += load<f64>(pc, 48) * at(u, load<i32>(pi, 24));
+    acc += load<f64>(pc, 56) * at(u, load<i32>(pi, 28));
+    acc += load<f64>(pc, 64) * at(u, load<i32>(pi, 32));
+    acc += load<f64>(pc, 72) * at(u, load<i32>(pi, 36));
+  } else {
+    for (let q = t0; q < t0 + W; q++) acc += ld(cor, q) * at(u, li(ti, q));
+  }
+  return acc;
+}
+
+@inline function cellSum(dd: usize, ci: usize, u: usize, q0: i32, W: i32): f64 {
+  let acc: f64 = 0;
+  if (W == 6) {
+    const pc = dd + (<usize>q0 << 3), pi = ci + (<usize>q0 << 2);
+    acc += load<f64>(pc, 0) * at(u, load<i32>(pi, 0));
+    acc += load<f64>(pc, 8) * at(u, load<i32>(pi, 4));
+    acc += load<f64>(pc, 16) * at(u, load<i32>(pi, 8));
+    acc += load<f64>(pc, 24) * at(u, load<i32>(pi, 12));
+    acc += load<f64>(pc, 32) * at(u, load<i32>(pi, 16));
+    acc += load<f64>(pc, 40) * at(u, load<i32>(pi, 20));
+  } else {
+    for (let q = q0; q < q0 + W; q++) acc += ld(dd, q) * at(u, li(ci, q));
+  }
+  return acc;
+}
+
+/**
+ * One mode of the diagonal modal operator: velocity out_u[e] = Σ cor·u + gd[2e] h[c1] + gd[2e+1] h[c2] on open
+ * edges (0 on coastline edges), thickness out_h[i] = Σ div·u. `u`, `h`, `outU`, `outH` point at the mode's blocks.
+ */
+export function modalDiagonal(
+  outH: usize, outU: usize, h: usize, u: usize, nc: i32, ne: i32, WT: i32, WC: i32,
+  cor: usize, gd: usize, dd: usize, ti: usize, ec: usize, open: usize, ci: usize,
+): void {
+  for (let e = 0; e < ne; e++) {
+    if (load<u8>(open + <usize>e) == 0) { st(outU, e, 0); continue; }
+    let acc = tangentSum(cor, ti, u, WT * e, WT);
+    acc += ld(gd, 2 * e) * ld(h, li(ec, 2 * e)) + ld(gd, 2 * e + 1) * ld(h, li(ec, 2 * e + 1));
+    st(outU, e, acc);
+  }
+  for (let i = 0; i < nc; i++) st(outH, i, cellSum(dd, ci, u, WC * i, WC));
+}
+
+/**
+ * Two coupled modes (m×m blocks [slot·4 + a·2 + b]): the m = 2 path of the modal operator over topography.
+ * `y` and `out` are whole modal vectors (thickness blocks at 0 and nc, velocity blocks at 2nc and 2nc + ne).
+ */
+export function modalTwo(
+  out: usize, y: usize, nc: i32, ne: i32, WT: i32, WC: i32,
+  cb: usize, gb: usize, db: usize, ti: usize, ec: usize, open: usize, ci: usize,
+): void {
+  const mOffset = 2 * nc;
+  const u0 = y + (<usize>mOffset << 3), u1 = y + (<usize>(mOffset + ne) << 3);
+  const o0 = out + (<usize>mOffset << 3), o1 = out + (<usize>(mOffset + ne) << 3);
+  for (let e = 0; e < ne; e++) {
+    if (load<u8>(open + <usize>e) == 0) { st(o0, e, 0); st(o1, e, 0); continue; }
+    let acc0: f64 = 0, acc1: f64 = 0;
+    for (let q = WT * e; q < WT * e + WT; q++) {
+      const e2 = li(ti, q), blk = 4 * q;
+      const y0 = at(u0, e2), y1 = at(u1, e2);
+      acc0 += ld(cb, blk) * y0 + ld(cb, blk + 1) * y1;
+      acc1 += ld(cb, blk + 2) * y0 + ld(cb, blk + 3) * y1;
+    }
+    const c1 = li(ec, 2 * e), c2 = li(ec, 2 * e + 1), g1 = 8 * e, g2 = 8 * e + 4;
+    const h10 = ld(y, c1), h11 = ld(y, nc + c1), h20 = ld(y, c2), h21 = ld(y, nc + c2);
+    st(o0, e, acc0 + ld(gb, g1) * h10 + ld(gb, g1 + 1) * h11 + ld(gb, g2) * h20 + ld(gb, g2 + 1) * h21);
+    st(o1, e, acc1 + ld(gb, g1 + 2) * h10 + ld(gb, g1 + 3) * h11 + ld(gb, g2 + 2) * h20 + ld(gb, g2 + 3) * h21);
+  }
+  for (let i = 0; i < nc; i++) {
+    let acc0: f64 = 0, acc1: f64 = 0;
+    for (let q = WC * i; q < WC * i + WC; q++) {
+      const e = li(ci, q), blk = 4 * q;
+      const y0 = at(u0, e), y1 = at(u1, e);
+      acc0 += ld(db, blk) * y0 + ld(db, blk + 1) * y1;
+      acc1 += ld(db, blk + 2) * y0 + ld(db, blk + 3) * y1;
+    }
+    st(out, i, acc0);
+    st(out, nc + i, acc1);
+  }
+}
+
+/**
+ * The rest-state operator of linear.ts: M' = 𝒢 h' per cell into `mont` [k·nc + i], then per layer the Coriolis
+ * term with rest PV minus the Montgomery gradient on open edges, and the continuity −D(Ĥ_k u_k).
+ * `cor` [k·WT·ne + WT·e + j], `cont` [k·WC·nc + WC·i + j] (padded stencils), `G` row-major L×L.
+ */
+export function restOperator(
+  out: usize, x: usize, nc: i32, ne: i32, L: i32, WT: i32, WC: i32,
+  G: usize, mont: usize, cor: usize, cont: usize, inv: usize, ti: usize, ec: usize, open: usize, ci: usize,
+): void {
+  for (let i = 0; i < nc; i++) {
+    for (let k = 0; k < L; k++) {
+      let s: f64 = 0;
+      for (let j = 0; j < L; j++) s += ld(G, k * L + j) * ld(x, j * nc + i);
+      st(mont, k * nc + i, s);
+    }
+  }
+  const uOffset = L * nc;
+  for (let k = 0; k < L; k++) {
+    const u = x + (<usize>(uOffset + k * ne) << 3), oU = out + (<usize>(uOffset + k * ne) << 3);
+    const M = mont + (<usize>(k * nc) << 3), oH = out + (<usize>(k * nc) << 3);
+    const corK = cor + (<usize>(k * WT * ne) << 3), contK = cont + (<usize>(k * WC * nc) << 3);
+    for (let e = 0; e < ne; e++) {
+      if (load<u8>(open + <usize>e) == 0) { st(oU, e, 0); continue; }
+      const acc = tangentSum(corK, ti, u, WT * e, WT);
+      st(oU, e, acc - (ld(M, li(ec, 2 * e + 1)) - ld(M, li(ec, 2 * e))) * ld(inv, e));
+    }
+    for (let i = 0; i < nc; i++) st(oH, i, cellSum(contK, ci, u, WC * i, WC));
+  }
+}
+
+// ---------------------------------------------------------------------------------------------------------
+// Single-field mesh operators of solver/mesh/operators.ts and terms.ts (the stencils of a barotropic sub-step),
+// in their operation order: gradient, divergence, PV flux.
+
+/** out[e] = (φ[c2] − φ[c1]) / d_e on open edges, 0 on coastline edges. */
+export function gradient(out: usize, phi: usize, ne: i32, ec: usize, dc: usize, open: usize): void {
+  for (let e = 0; e < ne; e++) {
+    st(out, e, load<u8>(open + <usize>e) != 0 ? (ld(phi, li(ec, 2 * e + 1)) - ld(phi, li(ec, 2 * e))) / ld(dc, e) : 0);
+  }
+}
+
+/** out[i] = (Σ_q (s_q l_q) F_q) / A_i; `sl` holds s_q·l_q per padded slot. */
+export function divergence(out: usize, flux: usize, nc: i32, W: i32, ci: usize, sl: usize, area: usize): void {
+  for (let i = 0; i < nc; i++) st(out, i, cellSum(sl, ci, flux, W * i, W) / ld(area, i));
+}
+
+/** out[e] = ½ Σ_{e'} W_{e,e'} (l_{e'}/d_e) F_{e'} (q_e + q_{e'}) on open edges, 0 on coastline edges. */
+export function pvFlux(out: usize, flux: usize, q: usize, ne: i32, W: i32, ti: usize, tw: usize, open: usize): void {
+  for (let e = 0; e < ne; e++) {
+    if (load<u8>(open + <usize>e) == 0) { st(out, e, 0); continue; }
+    const qe = ld(q, e);
+    let acc: f64 = 0;
+    const t0 = W * e;
+    if (W == 10) {
+      const pi = ti + (<usize>t0 << 2), pw = tw + (<usize>t0 << 3);
+      let o = 0;
+      o = load<i32>(pi, 0); acc += load<f64>(pw, 0) * at(flux, o) * (qe + at(q, o));
+      o = load<i32>(pi, 4); acc += load<f64>(pw, 8) * at(flux, o) * (qe + at(q, o));
+      o = load<i32>(pi, 8); acc += load<f64>(pw, 16) * at(flux, o) * (qe + at(q, o));
+      o = load<i32>(pi, 12); acc += load<f64>(pw, 24) * at(flux, o) * (qe + at(q, o));
+      o = load<i32>(pi, 16); acc += load<f64>(pw, 32) * at(flux, o) * (qe + at(q, o));
+      o = load<i32>(pi, 20); acc += load<f64>(pw, 40) * at(flux, o) * (qe + at(q, o));
+      o = load<i32>(pi, 24); acc += load<f64>(pw, 48) * at(flux, o) * (qe + at(q, o));
+      o = load<i32>(pi, 28); acc += load<f64>(pw, 56) * at(flux, o) * (qe + at(q, o));
+      o = load<i32>(pi, 32); acc += load<f64>(pw, 64) * at(flux, o) * (qe + at(q, o));
+      o = load<i32>(pi, 36); acc += load<f64>(pw, 72) * at(flux, o) * (qe + at(q, o));
+    } else {
+      for (let t = t0; t < t0 + W; t++) {
+        const o = li(ti, t);
+        acc += ld(tw, t) * at(flux, o) * (qe + at(q, o));
+      }
+    }
+    st(out, e, 0.5 * acc);
+  }
+}
+
+// ---------------------------------------------------------------------------------------------------------
+// Jacobian-vector product of the inviscid, unforced tendency about x̄ (solver/model/jacobian.ts, same order);
+// wind, drag and viscosity are added by the host afterwards. Linearization-point arrays are per layer:
+// hEdge, flux, qEdge [k·ne + e], hVert, qVert [k·nv + v]. Work: dM [k·nc + i], the rest one layer long.
+// Per padded cell slot: ci, sl = s·l_e, lk = l_e d_e; per vertex slot: ve, vsd = t·d_e, vc (clamped), ka.
+
+export function jacobianApply(
+  out: usize, x: usize, nc: i32, ne: i32, nv: i32, L: i32, uOffset: i32, WC: i32, WT: i32,
+  G: usize, dM: usize, xBar: usize, hEdge: usize, flux: usize, hVert: usize, qVert: usize, qEdge: usize,
+  dhEdge: usize, dFlux: usize, dVort: usize, dqVert: usize, dqEdge: usize, dK: usize,
+  ec: usize, ev: usize, open: usize, dc: usize, area: usize, ci: usize, sl: usize, lk: usize,
+  ve: usize, vsd: usize, vc: usize, ka: usize, vArea: usize, vi: usize, ti: usize, tw: usize,
+): void {
+  for (let i = 0; i < nc; i++) {
+    for (let k = 0; k < L; k++) {
+      let s: f64 = 0;
+      for (let j = 0; j < L; j++) s += ld(G, k * L + j) * ld(x, j * nc + i);
+      st(dM, k * nc + i, s);
+    }
+  }
+  for (let k = 0; k < L; k++) {
+    const h = x + (<usize>(k * nc) << 3), u = x + (<usize>(uOffset + k * ne) << 3), ub = xBar + (<usize>(uOffset + k * ne) << 3);
+    const oH = out + (<usize>(k * nc) << 3), oU = out + (<usize>(uOffset + k * ne) << 3);
+    const hE = hEdge + (<usize>(k * ne) << 3), fE = flux + (<usize>(k * ne) << 3), qE = qEdge + (<usize>(k * ne) << 3);
+    const hV = hVert + (<usize>(k * nv) << 3), qV = qVert + (<usize>(k * nv) << 3), M = dM + (<usize>(k * nc) << 3);
+    // δF = δĥ ū + ĥ̄ δu
+    for (let e = 0; e < ne; e++) {
+      const dh = 0.5 * (ld(h, li(ec, 2 * e)) + ld(h, li(ec, 2 * e + 1)));
+      st(dhEdge, e, dh);
+      st(dFlux, e, dh * ld(ub, e) + ld(hE, e) * ld(u, e));
+    }
+    // continuity −D δF, and δK_i = (1/2A_i) Σ l_e d_e ū_e δu_e
+    for (let i = 0; i < nc; i++) {
+      let s: f64 = 0, t: f64 = 0;
+      for (let q = WC * i; q < WC * i + WC; q++) {
+        const e = li(ci, q);
+        s += ld(sl, q) * at(dFlux, e);
+        t += ld(lk, q) * at(ub, e) * at(u, e);
+      }
+      st(oH, i, -s / ld(area, i));
+      st(dK, i, (0.5 * t) / ld(area, i));
+    }
+    // δq_v = (δζ_v − q̄_v δh_v)/h̄_v and its edge mean
+    for (let v = 0; v < nv; v++) {
+      const j = 3 * v;
+      let z: f64 = 0;
+      if (load<u8>(vi + <usize>v) != 0) {
+        let s: f64 = 0;
+        s += ld(vsd, j) * ld(u, li(ve, j));
+        s += ld(vsd, j + 1) * ld(u, li(ve, j + 1));
+        s += ld(vsd, j + 2) * ld(u, li(ve, j + 2));
+        z = s / ld(vArea, v);
+      }
+      let m: f64 = 0;
+      m += ld(ka, j) * ld(h, li(vc, j));
+      m += ld(ka, j + 1) * ld(h, li(vc, j + 1));
+      m += ld(ka, j + 2) * ld(h, li(vc, j + 2));
+      const dhv = m / ld(vArea, v);
+      st(dVort, v, z);
+      st(dqVert, v, (z - ld(qV, v) * dhv) / ld(hV, v));
+    }
+    for (let e = 0; e < ne; e++) st(dqEdge, e, 0.5 * (ld(dqVert, li(ev, 2 * e)) + ld(dqVert, li(ev, 2 * e + 1))));
+    // momentum: δQ − G(δK + δM)
+    for (let e = 0; e < ne; e++) {
+      if (load<u8>(open + <usize>e) == 0) { st(oU, e, 0); continue; }
+      const qe = ld(qE, e), dqe = ld(dqEdge, e);
+      let acc: f64 = 0;
+      for (let q = WT * e; q < WT * e + WT; q++) {
+        const e2 = li(ti, q);
+        acc += ld(tw, q) * (at(dFlux, e2) * (qe + at(qE, e2)) + at(fE, e2) * (dqe + at(dqEdge, e2)));
+      }
+      const c1 = li(ec, 2 * e), c2 = li(ec, 2 * e + 1);
+      st(oU, e, 0.5 * acc - (ld(dK, c2) + ld(M, c2) - ld(dK, c1) - ld(M, c1)) / ld(dc, e));
+    }
+  }
+}
+
+// ---------------------------------------------------------------------------------------------------------
+// Forcing and dissipation of the tendency (terms.ts: windForcing, linearDrag, vectorLaplacian, addScaled), in the
+// order the model applies them: wind on the top layer, drag on the bottom layer, then per layer ν2 ∇²u − ν4 ∇⁴u.
+
+/** Wind τ_e/(ρ0 ĥ_e) on the top layer's open edges (if `wind` ≠ 0), then bottom drag −r u (if r > 0). */
+export function windAndDrag(out: usize, x: usize, ne: i32, uOffset: i32, L: i32, ec: usize, open: usize, wind: usize, rho0: f64, drag: f64): void {
+  if (wind != 0) {
+    const o = out + (<usize>uOffset << 3);
+    for (let e = 0; e < ne; e++) {
+      if (load<u8>(open + <usize>e) == 0) continue;
+      const hE = 0.5 * (ld(x, li(ec, 2 * e)) + ld(x, li(ec, 2 * e + 1)));
+      st(o, e, ld(o, e) + ld(wind, e) / (rho0 * hE));
+    }
+  }
+  if (drag > 0) {
+    const off = uOffset + (L - 1) * ne;
+    const o = out + (<usize>off << 3), u = x + (<usize>off << 3);
+    for (let e = 0; e < ne; e++) st(o, e, ld(o, e) - drag * ld(u, e));
+  }
+}
+
+/**
+ * Vector Laplacian (∇²u)_e = (δ_c2 − δ_c1)/d_e − (ζ_v2 − ζ_v1)/l_e with δ = D u, ζ = C u (0 at coastline
+ * vertices), 0 on coastline edges, into `out`; `div` (nc) and `vort` (nv) are work arrays. `sl` = s·l_e per padded
+ * cell slot (byte-offset indices `ci`), `vsd` = t·d_e per vertex slot.
+ */
+export function vectorLaplacian(
+  out: usize, u: usize, nc: i32, ne: i32, nv: i32, WC: i32, ci: usize, sl: usize, area: usize,
+  ve: usize, vsd: usize, vArea: usize, vi: usize, ec: usize, ev: usize, dc: usize, len: usize, open: usize, div: usize, vort: usize,
+): void {
+  for (let i = 0; i < nc; i++) st(div, i, cellSum(sl, ci, u, WC * i, WC) / ld(area, i));
+  for (let v = 0; v < nv; v++) {
+    const j = 3 * v;
+    st(vort, v, load<u8>(vi + <usize>v) != 0
+      ? (ld(vsd, j) * ld(u, li(ve, j)) + ld(vsd, j + 1) * ld(u, li(ve, j + 1)) + ld(vsd, j + 2) * ld(u, li(ve, j + 2))) / ld(vArea, v)
+      : 0);
+  }
+  for (let e = 0; e < ne; e++) {
+    st(out, e, load<u8>(open + <usize>e) != 0
+      ? (ld(div, li(ec, 2 * e + 1)) - ld(div, li(ec, 2 * e))) / ld(dc, e) - (ld(vort, li(ev, 2 * e + 1)) - ld(vort, li(ev, 2 * e))) / ld(len, e)
+      : 0);
+  }
+}
+
+/** out[e] += coef · a[e] for e < n. */
+export function addScaled(out: usize, a: usize, coef: f64, n: i32): void {
+  for (let e = 0; e < n; e++) st(out, e, ld(out, e) + coef * ld(a, e));
+}

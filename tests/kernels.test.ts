@@ -1,0 +1,145 @@
+import { execFileSync } from "node:child_process";
+import { describe, expect, it } from "vitest";
+import { createRun, type Run } from "../solver/driver/run";
+import { kernelsAvailable } from "../solver/kernels/wasm";
+import { seededRandom } from "../solver/mesh/hexLattice";
+import { divergence, divergenceLoop, gradient, gradientLoop } from "../solver/mesh/operators";
+import { jacobianOperator } from "../solver/model/jacobian";
+import { restLinearOperator } from "../solver/model/linear";
+import { modalRestriction } from "../solver/model/restriction";
+import { ShallowWaterModel } from "../solver/model/shallowWater";
+import { pvFlux, pvFluxLoop } from "../solver/model/terms";
+
+/*
+ * The WebAssembly kernels (solver/kernels) against the TypeScript loops they replace, which the other suites
+ * check against outside sources (Ringler et al. 2010, Gill 1982, Thuburn et al. 2009, dense φ-functions). Both
+ * implement the same formulas in the same operation order, so they must agree to round-off (common practice, no
+ * source: a second implementation of a kernel is tested against the first). Bitwise equality is not required.
+ */
+
+const LAYERS = [
+  { thickness: 300, density: 1025 }, { thickness: 500, density: 1026 }, { thickness: 700, density: 1026.6 },
+  { thickness: 900, density: 1027.1 }, { thickness: 2000, density: 1027.6 },
+];
+
+/**
+ * A basin with a shelf (half the bottom layer's depth), β, wind, drag and both viscosities, perturbed randomly:
+ * every branch of the kernels. `flat` leaves the shelf out.
+ */
+function basin(nLayers: number, mesh?: Record<string, unknown>, flat = false): Run {
+  const layers = LAYERS.slice(0, nLayers);
+  const upper = layers.slice(0, -1).reduce((s, l) => s + l.thickness, 0);
+  const depth = upper + 0.5 * layers[nLayers - 1].thickness;
+  const run = createRun({
+    name: "kernels", mesh: mesh ?? { type: "basin-hex", shape: "ellipse", width: 260000, height: 200000, spacing: 20000 },
+    layers,
+    physics: { f0: 1e-4, beta: 2e-11, wind: { type: "zonal-cosine", amplitude: 0.2 }, bottomDrag: 1e-6, viscosity: 500, biharmonic: 1e10,
+      ...(flat ? {} : { topography: { type: "shelf", side: "west", width: 60000, depth } }) },
+    initial: { type: "bump", amplitude: 2, radius: 60000 },
+    stepper: { method: "rk4", dt: 60 }, duration: 600,
+  });
+  const r = seededRandom(nLayers);
+  const { uOffset, n } = run.model.layout;
+  for (let q = 0; q < uOffset; q++) run.state[q] += 0.5 * (2 * r() - 1);
+  for (let q = uOffset; q < n; q++) if (run.mesh.edgeOpen[(q - uOffset) % run.mesh.nEdges]) run.state[q] += 0.05 * (2 * r() - 1);
+  return run;
+}
+
+/** The same model with the TypeScript loops. */
+const reference = (run: Run) => new ShallowWaterModel(run.mesh, run.model.params, "typescript");
+
+/** max |a − b| / max |b|. */
+function relDiff(a: Float64Array, b: Float64Array): number {
+  let d = 0, s = 0;
+  for (let i = 0; i < b.length; i++) { d = Math.max(d, Math.abs(a[i] - b[i])); s = Math.max(s, Math.abs(b[i])); }
+  return d / s;
+}
+
+const random = (n: number, seed: number) => Float64Array.from({ length: n }, (() => { const r = seededRandom(seed); return () => 2 * r() - 1; })());
+
+describe("WebAssembly kernels", () => {
+  it("run in this environment (Node has WebAssembly; the browser worker runs the same bytes)", () => {
+    expect(kernelsAvailable()).toBe(true);
+  });
+
+  it("solver/kernels/binary.ts is a fresh build of solver/kernels/assembly/kernels.ts (npm run build:kernels)", () => {
+    // throws (non-zero exit) when the committed binary differs from what the pinned compiler makes of the source
+    execFileSync(process.execPath, ["solver/kernels/assembly/build.mjs", "--check"], { stdio: "pipe" });
+  }, 60_000);
+
+  for (const L of [1, 2, 3, 4, 5]) {
+    it(`tendency with ${L} layer${L > 1 ? "s" : ""} (lane padding), basin with shelf, wind, drag, viscosity: equals the TypeScript loops to 1e-14`, () => {
+      const run = basin(L);
+      const a = new Float64Array(run.model.n), b = new Float64Array(run.model.n);
+      run.model.tendency(a, run.state, 0);
+      reference(run).tendency(b, run.state, 0);
+      expect(relDiff(a, b)).toBeLessThan(1e-14);
+      // thickness and velocity blocks separately (their scales differ by orders of magnitude)
+      const uo = run.model.layout.uOffset;
+      expect(relDiff(a.subarray(0, uo), b.subarray(0, uo))).toBeLessThan(1e-14);
+      expect(relDiff(a.subarray(uo), b.subarray(uo))).toBeLessThan(1e-14);
+    });
+  }
+
+  it("tendency on a jittered periodic mesh (irregular stencil widths padded): equals the TypeScript loops to 1e-14", () => {
+    const run = basin(3, { type: "periodic-hex", cellsX: 10, cellsY: 8, spacing: 20000, jitter: 0.1, seed: 3 });
+    const a = new Float64Array(run.model.n), b = new Float64Array(run.model.n);
+    run.model.tendency(a, run.state, 0);
+    reference(run).tendency(b, run.state, 0);
+    expect(relDiff(a, b)).toBeLessThan(1e-14);
+  });
+
+  it("rest-state operator and its interface form: equal the TypeScript loops to 1e-14", () => {
+    const run = basin(3);
+    const fast = restLinearOperator(run.model), slow = restLinearOperator(reference(run));
+    const x = random(run.model.n, 7);
+    const a = new Float64Array(run.model.n), b = new Float64Array(run.model.n);
+    fast.apply(a, x);
+    slow.apply(b, x);
+    expect(relDiff(a, b)).toBeLessThan(1e-14);
+    fast.interfaceForm.apply(a, x);
+    slow.interfaceForm.apply(b, x);
+    expect(relDiff(a, b)).toBeLessThan(1e-14);
+  });
+
+  for (const [modes, topo] of [[1, true], [2, false], [2, true]] as const) {
+    it(`modal operator, ${modes} mode${modes > 1 ? "s" : ""}, ${topo ? "with a shelf (coupled blocks)" : "flat bottom (diagonal blocks)"}: equals the TypeScript loops to 1e-14`, () => {
+      const run = topo ? basin(3) : basin(3, { type: "periodic-hex", cellsX: 8, cellsY: 8, spacing: 20000 }, true);
+      const fast = modalRestriction(run.model, modes), slow = modalRestriction(reference(run), modes);
+      const y = random(fast.operator.n, 11);
+      const a = new Float64Array(y.length), b = new Float64Array(y.length);
+      fast.operator.apply(a, y);
+      slow.operator.apply(b, y);
+      expect(relDiff(a, b)).toBeLessThan(1e-14);
+    });
+  }
+
+  it("Jacobian-vector product at a perturbed state: equals the TypeScript loops to 1e-13", () => {
+    const run = basin(3);
+    const fast = jacobianOperator(run.model), slow = jacobianOperator(reference(run));
+    fast.setState(run.state);
+    slow.setState(run.state);
+    const v = random(run.model.n, 13);
+    const a = new Float64Array(run.model.n), b = new Float64Array(run.model.n);
+    fast.apply(a, v);
+    slow.apply(b, v);
+    expect(relDiff(a, b)).toBeLessThan(1e-13);
+  });
+
+  it("gradient, divergence (with layer offsets) and PV flux on a basin: equal the TypeScript loops to 1e-15", () => {
+    const m = basin(1).mesh;
+    const { nCells: nc, nEdges: ne } = m;
+    const cells = random(2 * nc, 17), edges = random(2 * ne, 19), q = random(ne, 23);
+    const a = new Float64Array(2 * ne), b = new Float64Array(2 * ne);
+    gradient(a, m, cells, ne, nc);
+    gradientLoop(b, m, cells, ne, nc);
+    expect(relDiff(a, b)).toBeLessThan(1e-15);
+    const c = new Float64Array(2 * nc), d = new Float64Array(2 * nc);
+    divergence(c, m, edges, nc, ne);
+    divergenceLoop(d, m, edges, nc, ne);
+    expect(relDiff(c, d)).toBeLessThan(1e-15);
+    pvFlux(a, ne, m, edges, q);
+    pvFluxLoop(b, ne, m, edges, q);
+    expect(relDiff(a, b)).toBeLessThan(1e-15);
+  });
+});

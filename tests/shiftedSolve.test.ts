@@ -1,0 +1,191 @@
+import { describe, expect, it } from "vitest";
+import * as math from "mathjs";
+import { createRun } from "../solver/driver/run";
+import { restLinearOperator } from "../solver/model/linear";
+import { modalRestriction } from "../solver/model/restriction";
+import { luSolve } from "../solver/linalg/dense";
+import {
+  blockPattern, luSolveInPlace, nestedDissection, numericLu, symbolicLu, symmetricGraph,
+} from "../solver/linalg/sparseLu";
+import { seededRandom } from "../solver/mesh/hexLattice";
+import type { ShallowWaterModel } from "../solver/model/shallowWater";
+import type { LinearOperator } from "../solver/linalg/types";
+
+const threeLayers = [{ thickness: 300, density: 1025 }, { thickness: 700, density: 1026.4 }, { thickness: 3000, density: 1027.6 }];
+
+function model(over: Record<string, unknown> = {}, physics: Record<string, unknown> = {}): ShallowWaterModel {
+  return createRun({
+    name: "solve", mesh: { type: "periodic-hex", cellsX: 6, cellsY: 6, spacing: 20000 }, layers: threeLayers,
+    physics: { gravity: 9.81, f0: 7e-5, beta: 0, ...physics }, initial: { type: "rest" },
+    stepper: { method: "rk4", dt: 10 }, duration: 100, ...over,
+  }).model;
+}
+const basinWithTopography = () => model(
+  { mesh: { type: "basin-hex", shape: "ellipse", width: 260000, height: 220000, spacing: 20000 } },
+  { beta: 2e-11, topography: { type: "seamount", height: 1500, radius: 50000 } },
+);
+
+function randomVector(m: ShallowWaterModel, seed: number, uScale = 0.01): Float64Array {
+  const rnd = seededRandom(seed);
+  const { uOffset, nEdges: ne, nLayers: L, n } = m.layout;
+  const v = new Float64Array(n);
+  for (let q = 0; q < n; q++) v[q] = (rnd() - 0.5) * (q < uOffset ? 1 : uScale);
+  for (let k = 0; k < L; k++) for (let e = 0; e < ne; e++) if (!m.mesh.edgeOpen[e]) v[uOffset + k * ne + e] = 0;
+  return v;
+}
+
+/** ‖(I − γA)x − b‖ / ‖b‖ with the product taken by the operator itself. */
+function residual(A: LinearOperator, x: Float64Array, b: Float64Array, gamma: number): number {
+  const ax = new Float64Array(A.n);
+  A.apply(ax, x);
+  let r = 0, nb = 0;
+  for (let q = 0; q < A.n; q++) { r += (x[q] - gamma * ax[q] - b[q]) ** 2; nb += b[q] ** 2; }
+  return Math.sqrt(r / nb);
+}
+
+/** Dense I − γA (row-major) by applying A to unit vectors. */
+function denseShifted(A: LinearOperator, gamma: number): Float64Array {
+  const n = A.n, out = new Float64Array(n * n), e = new Float64Array(n), col = new Float64Array(n);
+  for (let j = 0; j < n; j++) {
+    e.fill(0); e[j] = 1;
+    A.apply(col, e);
+    for (let i = 0; i < n; i++) out[i * n + j] = (i === j ? 1 : 0) - gamma * col[i];
+  }
+  return out;
+}
+
+/** Layer volumes Σ_i A_i h_{k,i}. */
+function layerVolumes(m: ShallowWaterModel, x: Float64Array): number[] {
+  const { nLayers: L, nCells: nc } = m.layout;
+  const v: number[] = [];
+  for (let k = 0; k < L; k++) { let s = 0; for (let i = 0; i < nc; i++) s += m.mesh.cellArea[i] * x[k * nc + i]; v.push(s); }
+  return v;
+}
+
+const relDiff = (a: Float64Array, b: Float64Array) => {
+  let d = 0, s = 0;
+  for (let i = 0; i < a.length; i++) { d = Math.max(d, Math.abs(a[i] - b[i])); s = Math.max(s, Math.abs(b[i])); }
+  return d / s;
+};
+
+describe("sparse LU without pivoting (Davis 2006 up-looking factorization, nested dissection of George 1973)", () => {
+  it("solves I + S (S skew, random symmetric pattern) like mathjs.lusolve", () => {
+    const rnd = seededRandom(7);
+    const nNodes = 60, nComp = 2;
+    const pairs: [number, number][] = [];
+    for (let i = 0; i < nNodes; i++) { pairs.push([i, (i + 1) % nNodes]); pairs.push([i, Math.floor(rnd() * nNodes)]); }
+    const g = symmetricGraph(nNodes, (add) => { for (const [a, b] of pairs) add(a, b); });
+    const order = nestedDissection(g, 8);
+    expect(Array.from(order).sort((a, b) => a - b)).toEqual(Array.from({ length: nNodes }, (_, i) => i));
+    const pat = blockPattern(g, order, nComp);
+    const n = pat.n;
+    // values: A = I + S with S skew-symmetric times 50 on the pattern (symmetric part I: no pivoting needed)
+    const dense = new Float64Array(n * n);
+    for (let j = 0; j < n; j++) dense[j * n + j] = 1;
+    const vals = new Float64Array(pat.colPtr[n]);
+    for (let j = 0; j < n; j++) for (let p = pat.colPtr[j]; p < pat.colPtr[j + 1]; p++) {
+      const i = pat.rowIdx[p];
+      if (i < j) { const s = 50 * (rnd() - 0.5); dense[i * n + j] = s; dense[j * n + i] = -s; }
+    }
+    for (let j = 0; j < n; j++) for (let p = pat.colPtr[j]; p < pat.colPtr[j + 1]; p++) vals[p] = dense[pat.rowIdx[p] * n + j];
+    const sym = symbolicLu(pat, { maxFill: 1e7, maxWork: 1e10, field: "test" });
+    const f = numericLu(pat, sym, vals);
+    const b = Array.from({ length: n }, () => rnd() - 0.5);
+    const y = Float64Array.from(b);
+    luSolveInPlace(f, y);
+    const rows = Array.from({ length: n }, (_, i) => Array.from(dense.subarray(i * n, (i + 1) * n)));
+    const ref = (math.lusolve(rows, b) as number[][]).map((r) => r[0]);
+    expect(relDiff(y, Float64Array.from(ref))).toBeLessThan(1e-11);
+  });
+
+  it("refuses a factorization above its fill bound before doing it, naming the field", () => {
+    const g = symmetricGraph(200, (add) => { for (let i = 0; i < 200; i++) for (let j = i + 1; j < 200; j += 7) add(i, j); });
+    const pat = blockPattern(g, nestedDissection(g), 3);
+    expect(() => symbolicLu(pat, { maxFill: 1000, maxWork: 1e12, field: "stepper.linear" })).toThrow(/stepper\.linear: .*bound/);
+  });
+});
+
+describe("shifted solves (I − γL) x = b of the fixed linear parts", () => {
+  const cases = [
+    { name: "periodic, f-plane", make: () => model() },
+    { name: "basin with seamount and β", make: basinWithTopography },
+  ];
+  for (const c of cases) {
+    for (const gr of [0.5, 100]) {
+      it(`rest, ${c.name}, γρ = ${gr}: residual ≤ 1e-10, equals a dense LU solve (dense.ts), layer volumes exact`, () => {
+        const m = c.make();
+        const L = restLinearOperator(m);
+        const gamma = gr / L.spectralBound;
+        const b = randomVector(m, 11);
+        const x = new Float64Array(m.n);
+        L.solve(x, b, gamma);
+        // residual against the tolerance (common practice, no source: a direct solve to ~100 ulp × growth)
+        expect(residual(L, x, b, gamma)).toBeLessThan(1e-10);
+        // dense Gaussian elimination with partial pivoting on the assembled I − γL
+        const a = denseShifted(L, gamma), rhs = Float64Array.from(b);
+        luSolve(a, rhs, m.n, 1, new Int32Array(m.n));
+        expect(relDiff(x, rhs)).toBeLessThan(1e-9);
+        // layer volumes: the thickness correction is a divergence (exact to round-off of the sums)
+        const vb = layerVolumes(m, b), vx = layerVolumes(m, x);
+        const scale = layerVolumes(m, b.map(Math.abs)).reduce((s, v) => Math.max(s, v), 0);
+        for (let k = 0; k < vb.length; k++) expect(Math.abs(vx[k] - vb[k])).toBeLessThan(1e-13 * scale);
+      });
+    }
+  }
+
+  it("rest, small mesh: the solution equals mathjs.lusolve of the assembled system (an outside library)", () => {
+    const m = model({ mesh: { type: "periodic-hex", cellsX: 4, cellsY: 4, spacing: 20000 } });
+    const L = restLinearOperator(m);
+    const gamma = 20 / L.spectralBound;
+    const b = randomVector(m, 3);
+    const x = new Float64Array(m.n);
+    L.solve(x, b, gamma);
+    const a = denseShifted(L, gamma);
+    const rows = Array.from({ length: m.n }, (_, i) => Array.from(a.subarray(i * m.n, (i + 1) * m.n)));
+    const ref = (math.lusolve(rows, Array.from(b)) as number[][]).map((r) => r[0]);
+    expect(relDiff(x, Float64Array.from(ref))).toBeLessThan(1e-9);
+  });
+
+  for (const modes of [1, 2]) {
+    for (const c of cases) {
+      it(`modes:${modes}, ${c.name}, γρ = 100: residual of (I − γM)x = b ≤ 1e-10, dense solve agrees, layer volumes exact`, () => {
+        const m = c.make();
+        const r = modalRestriction(m, modes);
+        const M = r.restricted;
+        const gamma = 100 / r.operator.spectralBound!;
+        const b = randomVector(m, 21);
+        const x = new Float64Array(m.n);
+        r.solve(x, b, gamma);
+        expect(residual(M, x, b, gamma)).toBeLessThan(1e-10);
+        const a = denseShifted(M, gamma), rhs = Float64Array.from(b);
+        luSolve(a, rhs, m.n, 1, new Int32Array(m.n));
+        expect(relDiff(x, rhs)).toBeLessThan(1e-9);
+        const vb = layerVolumes(m, b), vx = layerVolumes(m, x);
+        const scale = layerVolumes(m, b.map(Math.abs)).reduce((s, v) => Math.max(s, v), 0);
+        for (let k = 0; k < vb.length; k++) expect(Math.abs(vx[k] - vb[k])).toBeLessThan(1e-13 * scale);
+      });
+    }
+  }
+
+  it("cost: one factorization per γ, reused; a solve costs the same number of products at γρ = 1 and 1000", () => {
+    const m = model();
+    const r = modalRestriction(m, 1);
+    const rho = r.operator.spectralBound!;
+    const b = randomVector(m, 4), x = new Float64Array(m.n);
+    const counters = r.operator.counters;
+    r.solve(x, b, 1 / rho); // first use: probing and factorization
+    const s = r.shiftedSolver().stats;
+    expect(s.factorizations).toBe(1);
+    const before1 = counters.matvecs;
+    r.solve(x, b, 1 / rho);
+    const cost1 = counters.matvecs - before1;
+    r.solve(x, b, 1000 / rho); // new γ: one more factorization
+    expect(s.factorizations).toBe(2);
+    const before2 = counters.matvecs;
+    r.solve(x, b, 1000 / rho);
+    const cost2 = counters.matvecs - before2;
+    expect(s.factorizations).toBe(2);
+    expect(cost2).toBeCloseTo(cost1, 12);
+    expect(cost1).toBeCloseTo(s.matvecsPerSolve + 1, 12); // substitutions + the lift product
+  });
+});
