@@ -54,7 +54,7 @@ function commands(): { line: string; argv: string[] }[] {
   return out;
 }
 
-/** The shortening: --duration capped, `run` limited to a few steps, `assess` and `stability` to short trials. */
+/** The shortening: --duration capped, `run` limited to a few steps, `assess` and `stability` to short trials, `statistics` to one sample. */
 function shorten(argv: string[]): string[] {
   const a = [...argv];
   const d = a.indexOf("--duration");
@@ -65,6 +65,15 @@ function shorten(argv: string[]): string[] {
     a.push("--steps", "5");
   }
   if ((a[0] === "assess" || a[0] === "stability") && d < 0) a.push("--duration", "1800");
+  if (a[0] === "statistics") {
+    // no spin-up and a window of one sample interval (6 h unless the command gives one)
+    const set = (k: string, v: string) => { const i = a.indexOf(k); if (i >= 0) a[i + 1] = v; else a.push(k, v); };
+    const s = a.indexOf("--sample-every");
+    const every = s >= 0 ? a[s + 1] : "21600";
+    set("--spin-up", "0");
+    set("--window", every);
+    set("--sample-every", every);
+  }
   return a;
 }
 
@@ -86,7 +95,7 @@ describe("every command in the README runs", () => {
 
   it("finds the documented commands", () => {
     expect(list.length).toBeGreaterThan(10);
-    for (const cmd of ["run", "modes", "scenarios", "stability", "sweep", "merge", "template", "assess"]) {
+    for (const cmd of ["run", "modes", "scenarios", "stability", "sweep", "statistics", "merge", "template", "assess"]) {
       expect(list.some((c) => c.argv[0] === cmd), cmd).toBe(true);
     }
   });

@@ -167,7 +167,7 @@ describe("φ-actions per step, counted by the problem", () => {
       stepper: { method: "rk4", dt: 10 }, duration: 3600,
     });
     const perStep = (method: string) => {
-      run.setStepper({ method, dt: 300, linear: "modes:1" });
+      run.setStepper({ method, dt: 300, linear: "modes:1" } as Parameters<typeof run.setStepper>[0]);
       run.reset();
       return execute(run, { steps: 6 }).phiActionsPerStep;
     };

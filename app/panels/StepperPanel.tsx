@@ -109,7 +109,8 @@ export const StepperPanel = memo(function StepperPanel(p: StepperPanelProps) {
   // values from the running spec only count while its method is the one picked
   const givenHere = method === p.spec.method ? given : {};
   const dtNumber = Number(dt);
-  const ratio = Number.isFinite(dtNumber) && p.rk4DtLimit > 0 ? dtNumber / p.rk4DtLimit : NaN;
+  // never an impossible figure: no ratio for a Δt that is not a positive number of seconds
+  const ratio = Number.isFinite(dtNumber) && dtNumber > 0 && p.rk4DtLimit > 0 ? dtNumber / p.rk4DtLimit : NaN;
 
   const pickMethod = (name: string) => {
     setMethod(name);
@@ -144,7 +145,7 @@ export const StepperPanel = memo(function StepperPanel(p: StepperPanelProps) {
           <input data-testid="dt-input" value={dt} onChange={(e) => setDt(e.target.value)} inputMode="decimal" />
         </label>
         <p className="hint" data-testid="dt-ratio">
-          {Number.isFinite(ratio) ? <>Δt is <b>{fmt(ratio, 3)}</b> × the RK4 limit ({fmt(p.rk4DtLimit, 4)} s)</> : "Δt must be a number"}
+          {Number.isFinite(ratio) ? <>Δt is <b>{fmt(ratio, 3)}</b> × the RK4 limit ({fmt(p.rk4DtLimit, 4)} s)</> : "Δt must be a positive number of seconds"}
         </p>
         {errField === "stepper.dt" && <p className="field-error" data-testid="stepper-field-error">{p.error!.message}</p>}
         {options.map((o) => {

@@ -1,8 +1,12 @@
 import { buildScenario } from "../scenario/build.js";
 import { builtinScenario } from "../scenario/builtins.js";
 import { parseScenario } from "../scenario/schema.js";
-import { assess } from "../studies/assess.js";
-import type { StepperConfig } from "../studies/stability.js";
+import { assess, assessOrder, assessStability, checkAssess, finishAssess, type AssessOptions } from "../studies/assess.js";
+import type { StabilityResult, StepperConfig } from "../studies/stability.js";
+import type { SweepResult } from "../studies/sweep.js";
+import type { Shard } from "../studies/shard.js";
+import type { StudyHooks } from "../studies/common.js";
+import { jobsFromArgs, runTasks } from "./jobs.js";
 import { SolverError } from "../errors.js";
 import { numberOption, rejectUnknown, stringOption, type ParsedArgs } from "./args.js";
 import { count, fmt, loadScenarioArg, table, writeJson } from "./io.js";
@@ -15,11 +19,10 @@ import { NEVER_STOP, STOP_EXIT_CODES, type CliContext } from "./context.js";
 import { isCancellation } from "../studies/common.js";
 import { LIMIT_OPTIONS, limitsFromArgs } from "./limitArgs.js";
 
-export const ASSESS_USAGE = "assess SCENARIO (--method M [options] | --stepper-module FILE) [--duration S] [--order-scenario NAME] [--json FILE]";
+export const ASSESS_USAGE = "assess SCENARIO (--method M [options] | --stepper-module FILE) [--duration S] [--order-scenario NAME] [--json FILE] [--jobs N]";
 
-/** The report card of one stepper: observed order, stability, conservation, cost, each with a plain verdict. */
-export function assessCommand(args: ParsedArgs, out: (s: string) => void, err: (s: string) => void, ctx: CliContext = NEVER_STOP): number {
-  rejectUnknown(args, [...STEPPER_CLI_OPTIONS, "duration", "order-scenario", "json", ...LIMIT_OPTIONS], "assess");
+/** What the command and its worker tasks read from the arguments (the same for both). */
+function assessInputs(args: ParsedArgs) {
   if (!args.options.has("method") && !args.options.has("stepper-module")) {
     throw new SolverError("bad-input", "--method: give the stepper to assess with --method M or --stepper-module FILE", "--method");
   }
@@ -30,17 +33,47 @@ export function assessCommand(args: ParsedArgs, out: (s: string) => void, err: (
   const orderName = stringOption(args, "order-scenario") ?? "ring-wave";
   const orderRaw = builtinScenario(orderName);
   if (!orderRaw) throw new SolverError("bad-input", `--order-scenario: "${orderName}" is not a built-in scenario`, "--order-scenario");
+  return {
+    built: buildScenario(scenario), config: config as StepperConfig,
+    orderScenario: buildScenario(parseScenario(orderRaw)), duration: numberOption(args, "duration", { positive: true }),
+  };
+}
+
+function assessOptions(args: ParsedArgs, hooks: StudyHooks, solver: string, warn: (m: string) => void): AssessOptions {
+  const { orderScenario, duration } = assessInputs(args);
+  return { ...hooks, orderScenario, duration, solver, cache: new DiskReferenceCache(cacheDirectory(), solver, warn) };
+}
+
+/** Part 1 or 2 of the report card in a worker thread (`--jobs`): shard 1/2 is the order sweep, 2/2 the stability search. */
+export function assessPart(args: ParsedArgs, shard: Shard, payload: unknown, hooks: StudyHooks): SweepResult | StabilityResult {
+  const { built, config } = assessInputs(args);
+  const o = assessOptions(args, hooks, payload as string, (m) => hooks.onWarning?.(m));
+  return shard.index === 1 ? assessOrder(config, o, hooks.onProgress) : assessStability(built, config, o, hooks.onProgress);
+}
+
+/** The report card of one stepper: observed order, stability, conservation, cost, each with a plain verdict. */
+export async function assessCommand(args: ParsedArgs, out: (s: string) => void, err: (s: string) => void, ctx: CliContext = NEVER_STOP): Promise<number> {
+  rejectUnknown(args, [...STEPPER_CLI_OPTIONS, "duration", "order-scenario", "json", "jobs", ...LIMIT_OPTIONS], "assess");
+  const { built, config } = assessInputs(args);
+  const jobs = jobsFromArgs(args);
   const clock = () => performance.now() / 1000;
   const solver = solverIdentity();
+  const warn = (m: string) => err(`stepwell assess: warning: ${m}`);
+  const o = assessOptions(args, { clock, onProgress: progressReporter(err, clock, "assess"), shouldCancel: () => ctx.stopReason() !== null }, solver, warn);
   let report;
   try {
-    report = assess(buildScenario(scenario), config as StepperConfig, {
-      orderScenario: buildScenario(parseScenario(orderRaw)),
-      duration: numberOption(args, "duration", { positive: true }),
-      clock, onProgress: progressReporter(err, clock, "assess"), solver,
-      cache: new DiskReferenceCache(cacheDirectory(), solver, (m) => err(`stepwell assess: warning: ${m}`)),
-      shouldCancel: () => ctx.stopReason() !== null,
-    });
+    if (jobs > 1) {
+      // parts 1 and 2 side by side (weights: the order sweep a quarter of the work, the stability search half),
+      // then the conservation and cost runs here, alone
+      checkAssess(built, config);
+      const tasks = [1, 2].map((index) => ({ module: import.meta.url, fn: "assessPart", shard: { index, count: 2 }, payload: solver }));
+      const outcomes = await runTasks<SweepResult | StabilityResult, unknown>(args, tasks, ctx,
+        ([a, b], item) => o.onProgress?.({ fraction: 0.25 * (a?.fraction ?? 0) + 0.5 * (b?.fraction ?? 0), done: 0, total: 1, item }), warn);
+      const [order, stab] = outcomes;
+      if (!("result" in order) || !("result" in stab)) throw new SolverError("cancelled", "assess cancelled");
+      if (ctx.stopReason() !== null) throw new SolverError("cancelled", "assess cancelled");
+      report = finishAssess(built, config, o, order.result as SweepResult, stab.result as StabilityResult);
+    } else report = assess(built, config, o);
   } catch (e) {
     if (!isCancellation(e)) throw e;
     const stop = ctx.stopReason() ?? "SIGINT";

@@ -8,6 +8,7 @@ import { SWEEP_USAGE, sweepCommand } from "./sweepCommand.js";
 import { MERGE_USAGE, mergeCommand } from "./mergeCommand.js";
 import { TEMPLATE_USAGE, templateCommand } from "./templateCommand.js";
 import { ASSESS_USAGE, assessCommand } from "./assessCommand.js";
+import { STATISTICS_USAGE, statisticsCommand } from "./statisticsCommand.js";
 
 export interface Command {
   readonly usage: string;
@@ -26,5 +27,6 @@ export const COMMANDS: Record<string, Command> = {
   sweep: { usage: SWEEP_USAGE, summary: "convergence and work-precision sweep against a cached fine reference run", flags: ["reference-only", "no-cache"], run: sweepCommand },
   assess: { usage: ASSESS_USAGE, summary: "report card of one stepper: observed order, largest stable Δt, conservation and cost against RK4", run: assessCommand },
   template: { usage: TEMPLATE_USAGE, summary: "write a commented starter stepper module that `run --stepper-module` accepts", flags: ["force"], run: templateCommand },
-  merge: { usage: MERGE_USAGE, summary: "join the partial results of a sharded stability or sweep run", run: mergeCommand },
+  statistics: { usage: STATISTICS_USAGE, summary: "long-run statistics (time means, variability, energy budget) of each stepper against a reference ensemble's noise floor", flags: ["no-cache"], run: statisticsCommand },
+  merge: { usage: MERGE_USAGE, summary: "join the partial results of a sharded stability, sweep or statistics run", run: mergeCommand },
 };

@@ -8,6 +8,8 @@ export const STOP_EXIT_CODES: Record<StopReason, number> = { SIGINT: 130, SIGTER
 export interface CliContext {
   /** Polled between time steps; non-null once the user asked to stop. */
   stopReason(): StopReason | null;
+  /** The shared integer behind `stopReason()` when there is one (non-zero = stop), handed on to worker threads (`jobs.ts`). */
+  stopFlag?: Int32Array;
 }
 
 /**

@@ -7,8 +7,10 @@ import { writeJson, writeText } from "./io.js";
 import { userPath } from "./paths.js";
 import { printStability, stabilityJson } from "./stabilityCommand.js";
 import { printSweep, sweepCsv } from "./sweepCommand.js";
+import { mergeStatisticsParts, type StatisticsPart } from "../studies/statistics.js";
+import { printStatistics, statisticsCsv } from "./statisticsCommand.js";
 
-export const MERGE_USAGE = "merge PARTS… --json FILE [--csv FILE]  (PARTS: the files of every slice of one `stability` or `sweep` run with --shard i/n)";
+export const MERGE_USAGE = "merge PARTS… --json FILE [--csv FILE]  (PARTS: the files of every slice of one `stability`, `sweep` or `statistics` run with --shard i/n)";
 
 export function mergeCommand(args: ParsedArgs, out: (s: string) => void): number {
   rejectUnknown(args, ["json", "csv"], "merge");
@@ -31,12 +33,20 @@ export function mergeCommand(args: ParsedArgs, out: (s: string) => void): number
     if (csv) writeText(csv, sweepCsv(result.rows), "--csv");
     return 0;
   }
+  if (kind === "stepwell-statistics-part") {
+    const result = mergeStatisticsParts(parts as StatisticsPart[]);
+    printStatistics(result.rows, out, result);
+    writeJson(json, result);
+    const csv = stringOption(args, "csv");
+    if (csv) writeText(csv, statisticsCsv(result.rows), "--csv");
+    return 0;
+  }
   if (kind === "stepwell-stability-part") {
-    if (args.options.has("csv")) throw new SolverError("bad-input", "--csv: only sweeps have a CSV form", "--csv");
+    if (args.options.has("csv")) throw new SolverError("bad-input", "--csv: only sweeps and statistics have a CSV form", "--csv");
     const results = mergeStabilityParts(parts as StabilityPart[]);
     printStability(results, out);
     writeJson(json, stabilityJson(results));
     return 0;
   }
-  throw new SolverError("bad-input", `PARTS: ${args.positional[0]} is not a partial result of stability or sweep (written with --shard i/n)`, "PARTS");
+  throw new SolverError("bad-input", `PARTS: ${args.positional[0]} is not a partial result of stability, sweep or statistics (written with --shard i/n)`, "PARTS");
 }

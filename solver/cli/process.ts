@@ -101,7 +101,7 @@ export async function workerMain(): Promise<void> {
   terminal.stderrIsTTY = input.stderrIsTTY;
   terminal.columns = input.columns;
   terminal.writeErr = (s) => post({ err: s });
-  const ctx: CliContext = { stopReason: () => REASON_OF[Atomics.load(input.flag, 0)] ?? null };
+  const ctx: CliContext = { stopReason: () => REASON_OF[Atomics.load(input.flag, 0)] ?? null, stopFlag: input.flag };
   const { main } = await import("./main.js");
   const code = await main(input.argv, (s) => post({ out: s + "\n" }), (s) => post({ err: s + "\n" }), ctx);
   post({ code });

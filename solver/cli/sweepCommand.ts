@@ -4,10 +4,12 @@ import { LIMIT_OPTIONS, LIMIT_USAGE, limitsFromArgs } from "./limitArgs.js";
 import { buildScenario } from "../scenario/build.js";
 import { parseScenario } from "../scenario/schema.js";
 import type { ErrorComponent } from "../studies/metrics.js";
-import { referenceRun, type ReferenceCache } from "../studies/reference.js";
-import { parseShard } from "../studies/shard.js";
-import { planSweep, runSweep, type InterruptedSweep, type SweepDefinition, type SweepResult, type SweepRow } from "../studies/sweep.js";
-import { isCancellation, StudyInterrupted, StudyTracker } from "../studies/common.js";
+import { referenceRun, type ReferenceCache, type ReferenceRecord } from "../studies/reference.js";
+import { parseShard, type Shard } from "../studies/shard.js";
+import { mergeSweepParts, planSweep, runSweep, summarizeReference, sweepRows, type InterruptedSweep, type SweepDefinition, type SweepPart, type SweepResult, type SweepRow } from "../studies/sweep.js";
+import { isCancellation, StudyInterrupted, StudyTracker, type StudyHooks } from "../studies/common.js";
+import type { BuiltScenario } from "../scenario/build.js";
+import { jobsForShard, runTasks } from "./jobs.js";
 import { referenceCache } from "../studies/reference.js";
 import { numberOption, rejectUnknown, stringOption, type ParsedArgs } from "./args.js";
 import { NEVER_STOP, STOP_EXIT_CODES, type CliContext } from "./context.js";
@@ -18,7 +20,7 @@ import { numberList, parseMethodList, progressReporter, steppersFromArgs } from 
 
 export const SWEEP_USAGE =
   "sweep SCENARIO (--methods LIST | --steppers FILE) (--dts d1,d2,… | --dt-factors f1,f2,…) [--reference-dt S] [--reference-method M] " +
-  "[--duration S] [--error surface|thickness|velocity] [--tolerance E] [--matvec-weight W] [--json FILE] [--csv FILE] [--shard i/n] [--reference-only] [--no-cache] " +
+  "[--duration S] [--error surface|thickness|velocity] [--tolerance E] [--matvec-weight W] [--json FILE] [--csv FILE] [--shard i/n] [--jobs N] [--reference-only] [--no-cache] " +
   LIMIT_USAGE;
 
 const CSV_HEADER = ["label", "method", "dt", "dtRatioToRk4", "status", "errorSurface", "errorThickness", "errorVelocity", "massDrift", "energyDrift",
@@ -79,9 +81,93 @@ export function sweepDefinition(args: ParsedArgs, duration: number | undefined):
   return { limits, steppers, field, dts, dtFactors, duration, referenceSpec, referenceDt: numberOption(args, "reference-dt", { positive: true }), component, tolerance, matvecWeight };
 }
 
-export function sweepCommand(args: ParsedArgs, out: (s: string) => void, err: (s: string) => void, ctx: CliContext = NEVER_STOP): number {
+/** What a sweep's worker gets: the reference run (computed once by the caller) and the shared queue of work items. */
+interface SweepSlicePayload {
+  reference: ReferenceRecord;
+  /** The work items, most time steps first; `next[0]` is the position of the next one to take (shared by all workers). */
+  order: number[];
+  next: Int32Array;
+}
+
+/**
+ * One worker's share of a sweep (`--jobs`): it takes the next item of the shared queue until none are left
+ * (largest first, so that the long runs start early and the short ones fill in: the workers end close together),
+ * and returns its rows as a partial result for `mergeSweepParts`, which puts every row in its place.
+ */
+export function sweepSlice(args: ParsedArgs, shard: Shard, payload: unknown, hooks: StudyHooks): SweepPart {
+  const { reference, order, next } = payload as SweepSlicePayload;
+  const scenario = parseScenario(loadScenarioArg(args.positional[0]), "", { limits: limitsFromArgs(args), runLength: false });
+  const built = buildScenario(scenario);
+  const plan = planSweep(built, sweepDefinition(args, numberOption(args, "duration", { positive: true })));
+  const taken: number[] = [];
+  function* queue(): Generator<number> {
+    for (;;) {
+      const j = Atomics.add(next, 0, 1);
+      if (j >= order.length) return;
+      taken.push(order[j]);
+      yield order[j];
+    }
+  }
+  const rows: SweepRow[] = [];
+  try {
+    sweepRows(built, plan, reference, queue(), new StudyTracker(hooks, plan.nItems), rows);
+  } catch (e) {
+    if (!isCancellation(e)) throw e;
+    throw new StudyInterrupted({ items: taken.slice(0, rows.length), rows }, rows.length, plan.nItems);
+  }
+  const ascending = taken.map((_, j) => j).sort((a, b) => taken[a] - taken[b]);
+  return {
+    kind: "stepwell-sweep-part", version: 1, study: plan.study, shard, nItems: plan.nItems, items: ascending.map((j) => taken[j]),
+    plan, reference: summarizeReference(reference), rows: ascending.map((j) => rows[j]),
+  };
+}
+
+/**
+ * The sweep in `jobs` worker threads: the reference run first, here (the one prerequisite of every row; cached as
+ * usual), then the rows from a shared queue, joined by `mergeSweepParts` — exactly the one-thread result but for
+ * the rows' wall times. Stopped, it throws `StudyInterrupted` with the rows every worker finished, in item order.
+ */
+async function parallelSweep(args: ParsedArgs, built: BuiltScenario, def: SweepDefinition, jobs: number, cache: ReferenceCache, solver: string,
+  hooks: StudyHooks & { onProgress: NonNullable<StudyHooks["onProgress"]> }, ctx: CliContext): Promise<SweepResult> {
+  const plan = planSweep(built, def);
+  for (const w of plan.warnings) hooks.onWarning?.(w);
+  const total = plan.nItems + 2;
+  const stopped = (rows: SweepRow[], items: number[], ref: ReferenceRecord | null) => new StudyInterrupted<InterruptedSweep>({
+    kind: "stepwell-sweep", status: "interrupted", study: plan.study, scenario: plan.scenario, nItems: plan.nItems, items, warnings: plan.warnings, plan,
+    reference: ref ? summarizeReference(ref) : null, rows,
+  }, rows.length, plan.nItems);
+  let ref: ReferenceRecord;
+  try {
+    ref = referenceRun(built, plan.reference, cache, new StudyTracker(hooks, total), solver);
+  } catch (e) {
+    if (isCancellation(e)) throw stopped([], [], null);
+    throw e;
+  }
+  // most steps first (the cost of a run grows with its steps); ties in item order
+  const steps = (k: number) => plan.dts[k % plan.dts.length].steps;
+  const order = Array.from({ length: plan.nItems }, (_, k) => k).sort((a, b) => steps(b) - steps(a) || a - b);
+  const payload: SweepSlicePayload = { reference: ref, order, next: new Int32Array(new SharedArrayBuffer(4)) };
+  const n = Math.min(jobs, plan.nItems);
+  const tasks = Array.from({ length: n }, (_, i) => ({ module: import.meta.url, fn: "sweepSlice", shard: { index: i + 1, count: n }, payload }));
+  const outcomes = await runTasks<SweepPart, { items: number[]; rows: SweepRow[] } | null>(args, tasks, ctx, (latest, item) => {
+    // each worker's progress is its own rows (and the one in progress) over all rows of the study
+    const rows = latest.reduce((s, p) => s + (p ? p.fraction : 0), 0);
+    hooks.onProgress({ fraction: Math.min(1, (2 + plan.nItems * rows) / total), done: 2 + latest.reduce((s, p) => s + (p ? p.done : 0), 0), total, item });
+  });
+  const parts = outcomes.flatMap((o) => ("result" in o ? [o.result] : []));
+  if (parts.length === n) return mergeSweepParts(parts);
+  const byItem = new Map<number, SweepRow>();
+  for (const o of outcomes) {
+    const got = "result" in o ? o.result : o.interrupted;
+    got?.items.forEach((k, j) => { if (j < got.rows.length) byItem.set(k, got.rows[j]); });
+  }
+  const items = [...byItem.keys()].sort((a, b) => a - b);
+  throw stopped(items.map((k) => byItem.get(k)!), items, ref);
+}
+
+export async function sweepCommand(args: ParsedArgs, out: (s: string) => void, err: (s: string) => void, ctx: CliContext = NEVER_STOP): Promise<number> {
   rejectUnknown(args, ["methods", "steppers", "dts", "dt-factors", "reference-dt", "reference-method", "duration", "error", "tolerance", "matvec-weight",
-    "json", "csv", "shard", "reference-only", "no-cache", ...LIMIT_OPTIONS], "sweep");
+    "json", "csv", "shard", "jobs", "reference-only", "no-cache", ...LIMIT_OPTIONS], "sweep");
   const scenario = parseScenario(loadScenarioArg(args.positional[0]), "", { limits: limitsFromArgs(args), runLength: false });
   if (args.positional.length > 1) throw new SolverError("bad-input", `SCENARIO: give one scenario, got ${args.positional.length} words (${args.positional.join(" ")})`, "SCENARIO");
   const def = sweepDefinition(args, numberOption(args, "duration", { positive: true }));
@@ -90,6 +176,7 @@ export function sweepCommand(args: ParsedArgs, out: (s: string) => void, err: (s
   const json = stringOption(args, "json");
   const csv = stringOption(args, "csv");
   if (shard && !json) throw new SolverError("bad-input", "--json: a sharded run writes a partial result; give --json FILE (then join the parts with merge)", "--json");
+  const jobs = jobsForShard(args, shard !== undefined);
   const warn = (m: string) => err(`stepwell sweep: warning: ${m}`);
   const solver = solverIdentity();
   const cache: ReferenceCache = args.options.has("no-cache") ? referenceCache : new DiskReferenceCache(cacheDirectory(), solver, warn);
@@ -112,7 +199,7 @@ export function sweepCommand(args: ParsedArgs, out: (s: string) => void, err: (s
       if (csv) writeText(csv, sweepCsv(part.rows), "--csv");
       return 0;
     }
-    const result = runSweep(built, def, hooks);
+    const result = jobs > 1 ? await parallelSweep(args, built, def, jobs, cache, solver, hooks, ctx) : runSweep(built, def, hooks);
     printSweep(result.rows, out, result);
     if (json) writeJson(json, result);
     if (csv) writeText(csv, sweepCsv(result.rows), "--csv");

@@ -4,8 +4,11 @@
  *      declared order;
  *   2. largest stable Δt on the scenario (the stability search) and its ratio to the RK4 limit;
  *   3. layer-volume and energy drift over a run at 0.8 of that Δt;
- *   4. wall time per simulated day at that Δt against RK4 at its limit, measured in the same process, and
- *      tendency evaluations, matvecs and inner products per step.
+ *   4. wall time per simulated day at that Δt against RK4 at its limit, measured in the same thread, one run
+ *      after the other, after parts 1 and 2 have finished (so no other part of the study competes for the
+ *      cores), and tendency evaluations, matvecs and inner products per step.
+ * Parts 1 and 2 are independent of each other: a caller may run them side by side (`assessOrder`,
+ * `assessStability`) and finish with `finishAssess`; `assess` runs them one after the other.
  * Pure: no I/O, a clock and progress callback from the caller.
  */
 import { SolverError } from "../errors.js";
@@ -15,8 +18,8 @@ import type { BuiltScenario } from "../scenario/build.js";
 import type { StepperSpec } from "../scenario/schema.js";
 import { definitionOf } from "../time/registry.js";
 import { StudyTracker, type StudyHooks, type StudyProgress } from "./common.js";
-import { runStability, type StabilityOptions, type StepperConfig } from "./stability.js";
-import { runSweep } from "./sweep.js";
+import { runStability, type StabilityOptions, type StabilityResult, type StepperConfig } from "./stability.js";
+import { runSweep, type SweepResult } from "./sweep.js";
 import type { ReferenceCache } from "./reference.js";
 
 export interface AssessOptions extends StudyHooks {
@@ -60,31 +63,57 @@ function energyFigure(r: RunResult): { value: number | null; note?: string } {
   return { value: null, note: e.reason ?? "not defined for this run" };
 }
 
-export function assess(built: BuiltScenario, config: StepperConfig, o: AssessOptions): AssessReport {
+/** Part 1, the observed order: a short sweep on the order scenario (`phase` maps its progress into the report's). */
+export function assessOrder(config: StepperConfig, o: AssessOptions, onProgress?: (p: StudyProgress) => void): SweepResult {
   const def = definitionOf(config, "stepper");
-  const probe = new Run(built, { ...config, dt: 1 } as StepperSpec); // validates options before any work
-  const label = probe.stepper.label;
+  const factors = o.orderDtFactors ?? [0.4, 0.2, 0.1, 0.05];
+  return runSweep(o.orderScenario, {
+    steppers: [{ ...config, label: def.name }], dtFactors: factors, duration: o.orderDuration ?? 1200, field: "stepper",
+  }, { clock: o.clock, onProgress, shouldCancel: o.shouldCancel, cache: o.cache, solver: o.solver });
+}
+
+/** Part 2, the largest stable Δt: the stability search on the scenario. */
+export function assessStability(built: BuiltScenario, config: StepperConfig, o: AssessOptions, onProgress?: (p: StudyProgress) => void): StabilityResult {
+  const [stab] = runStability(built, [config], o.stability ?? {}, { clock: o.clock, onProgress, shouldCancel: o.shouldCancel, field: "stepper" });
+  return stab;
+}
+
+/** Checks the stepper and its options before any work; returns its label. */
+export function checkAssess(built: BuiltScenario, config: StepperConfig): string {
+  definitionOf(config, "stepper");
+  return new Run(built, { ...config, dt: 1 } as StepperSpec).stepper.label;
+}
+
+// progress: 4 phases with nominal weights (order sweep 25%, stability 50%, conservation 15%, RK4 cost 10%)
+const phase = (hooks: StudyHooks, start: number, width: number, name: string) => (p: StudyProgress) =>
+  hooks.onProgress?.({ fraction: start + width * p.fraction, done: 0, total: 1, item: `${name}: ${p.item}` });
+
+/** The whole report card in this thread: parts 1 and 2 (independent of each other; `--jobs` runs them side by side), then `finishAssess`. */
+export function assess(built: BuiltScenario, config: StepperConfig, o: AssessOptions): AssessReport {
+  checkAssess(built, config);
+  const tracker = new StudyTracker(o, 1);
+  const sweep = assessOrder(config, o, phase(o, 0, 0.25, "order"));
+  tracker.checkpoint();
+  const stab = assessStability(built, config, o, phase(o, 0.25, 0.5, "stability"));
+  tracker.checkpoint();
+  return finishAssess(built, config, o, sweep, stab);
+}
+
+/**
+ * Parts 3 and 4 from the results of parts 1 and 2: the conservation run at 0.8 of the largest stable Δt and the
+ * RK4 cost run, one after the other in this thread (their wall times are the cost figures, so nothing else of
+ * the study runs beside them).
+ */
+export function finishAssess(built: BuiltScenario, config: StepperConfig, o: AssessOptions, sweep: SweepResult, stab: StabilityResult): AssessReport {
+  const def = definitionOf(config, "stepper");
+  const label = checkAssess(built, config);
   const declaredOrder = def.order;
   const hooks = o;
-  // progress: 4 phases with nominal weights (order sweep 25%, stability 50%, conservation 15%, RK4 cost 10%)
-  const phase = (start: number, width: number, name: string) => (p: StudyProgress) =>
-    hooks.onProgress?.({ fraction: start + width * p.fraction, done: 0, total: 1, item: `${name}: ${p.item}` });
   const tracker = new StudyTracker(hooks, 1);
-
-  // 1. order
-  const factors = o.orderDtFactors ?? [0.4, 0.2, 0.1, 0.05];
-  const sweep = runSweep(o.orderScenario, {
-    steppers: [{ ...config, label: def.name }], dtFactors: factors, duration: o.orderDuration ?? 1200, field: "stepper",
-  }, { clock: o.clock, onProgress: phase(0, 0.25, "order"), shouldCancel: o.shouldCancel, cache: o.cache, solver: o.solver });
   const fit = sweep.orders[def.name];
   const points = sweep.rows.map((r) => ({ dt: r.dt, error: r.error.thickness, status: r.status }));
   const observed = fit && fit.order !== null && Number.isFinite(fit.order) ? fit.order : null;
   const range = fit && fit.range ? (fit.range as [number, number]) : null;
-  tracker.checkpoint();
-
-  // 2. stability
-  const [stab] = runStability(built, [config], o.stability ?? {}, { clock: o.clock, onProgress: phase(0.25, 0.5, "stability"), shouldCancel: o.shouldCancel, field: "stepper" });
-  tracker.checkpoint();
   if (!(stab.maxStableDt > 0)) {
     throw new SolverError("bad-input", `stepper: no stable Δt found on ${built.scenario.name} (tried down to ${sig(Math.min(...stab.trials.map((t) => t.dt)))} s)`, "stepper");
   }
@@ -95,12 +124,12 @@ export function assess(built: BuiltScenario, config: StepperConfig, o: AssessOpt
   const steps = Math.max(10, Math.round(duration / dt));
   const run = new Run(built, { ...config, dt } as StepperSpec);
   const stop = () => o.shouldCancel?.() === true;
-  const r = execute(run, { steps, chunk: 1, clock: o.clock, onProgress: ({ fraction }) => { phase(0.75, 0.15, "conservation")({ fraction, done: 0, total: 1, item: `${def.name} Δt = ${sig(dt)} s` }); return !stop(); } });
+  const r = execute(run, { steps, chunk: 1, clock: o.clock, onProgress: ({ fraction }) => { phase(hooks, 0.75, 0.15, "conservation")({ fraction, done: 0, total: 1, item: `${def.name} Δt = ${sig(dt)} s` }); return !stop(); } });
   tracker.checkpoint();
   const limit = run.rk4DtLimit();
   const rk4Dt = 0.95 * limit;
   const rk4Steps = Math.max(10, Math.min(Math.round((r.simulatedSeconds || duration) / rk4Dt), 20000));
-  const rk4 = execute(new Run(built, { method: "rk4", dt: rk4Dt }), { steps: rk4Steps, chunk: 1, clock: o.clock, onProgress: ({ fraction }) => { phase(0.9, 0.1, "RK4 cost")({ fraction, done: 0, total: 1, item: `rk4 Δt = ${sig(rk4Dt)} s` }); return !stop(); } });
+  const rk4 = execute(new Run(built, { method: "rk4", dt: rk4Dt }), { steps: rk4Steps, chunk: 1, clock: o.clock, onProgress: ({ fraction }) => { phase(hooks, 0.9, 0.1, "RK4 cost")({ fraction, done: 0, total: 1, item: `rk4 Δt = ${sig(rk4Dt)} s` }); return !stop(); } });
   tracker.checkpoint();
   hooks.onProgress?.({ fraction: 1, done: 1, total: 1, item: "done" });
 

@@ -8,3 +8,4 @@ export * from "./shard.js";
 export * from "./stability.js";
 export * from "./sweep.js";
 export * from "./methodList.js";
+export * from "./statistics.js";

@@ -293,15 +293,21 @@ export interface StabilityRunOptions extends StudyHooks {
   field?: string;
 }
 
+/** Check a stability study's steppers and options before any work (every error names its field); returns the resolved options. */
+export function checkStability(built: BuiltScenario, configs: readonly StepperConfig[], options: StabilityOptions = {}, field = "--method"): ResolvedStabilityOptions {
+  if (!configs.length) throw new SolverError("bad-input", "--method: give at least one method", "--method");
+  const probe = new Run(built, { method: "rk4", dt: 1 });
+  const resolved = resolveStabilityOptions(probe, options);
+  configs.forEach((c, i) => { probe.setStepper({ ...c, dt: 1 } as StepperSpec, configs.length > 1 || field === "--steppers" ? `${field}[${i}]` : field); });
+  return resolved;
+}
+
 /** Stability study as the CLI runs it: whole, or one slice (items = steppers) as a partial result. */
 export function runStability(built: BuiltScenario, configs: readonly StepperConfig[], options: StabilityOptions, o: StabilityRunOptions & { shard: Shard }): StabilityPart;
 export function runStability(built: BuiltScenario, configs: readonly StepperConfig[], options?: StabilityOptions, o?: StabilityRunOptions): StabilityResult[];
 export function runStability(built: BuiltScenario, configs: readonly StepperConfig[], options: StabilityOptions = {}, o: StabilityRunOptions = {}): StabilityResult[] | StabilityPart {
   const field = o.field ?? "--method";
-  if (!configs.length) throw new SolverError("bad-input", "--method: give at least one method", "--method");
-  const probe = new Run(built, { method: "rk4", dt: 1 });
-  const resolved = resolveStabilityOptions(probe, options);
-  configs.forEach((c, i) => { probe.setStepper({ ...c, dt: 1 } as StepperSpec, configs.length > 1 || field === "--steppers" ? `${field}[${i}]` : field); });
+  const resolved = checkStability(built, configs, options, field);
   if (!o.shard) return stabilityStudy(built, configs, options, o, field);
   const items = shardItems(configs.length, o.shard);
   const study = contentHash("stepwell-stability-v1", physicsContent(built), configs, resolved, built.initial);

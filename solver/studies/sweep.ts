@@ -237,8 +237,11 @@ export function planSweep(built: BuiltScenario, def: SweepDefinition): SweepPlan
 
 const finiteOr = (v: number): number | null => (Number.isFinite(v) ? v : null);
 
-/** Run the work items of a plan (item k = stepper ⌊k / nΔt⌋ at Δt k mod nΔt). Each run starts fresh, so any subset gives the same rows. */
-export function sweepRows(built: BuiltScenario, plan: SweepPlan, ref: ReferenceRecord, items: readonly number[], tracker: StudyTracker,
+/**
+ * Run the work items of a plan (item k = stepper ⌊k / nΔt⌋ at Δt k mod nΔt), in the order `items` yields them
+ * (a list, or a queue that hands out the next item when asked). Each run starts fresh, so any subset gives the same rows.
+ */
+export function sweepRows(built: BuiltScenario, plan: SweepPlan, ref: ReferenceRecord, items: Iterable<number>, tracker: StudyTracker,
   rows: SweepRow[] = []): SweepRow[] {
   const run = new Run(built, { ...plan.steppers[0].spec, dt: plan.dts[0].dt } as StepperSpec);
   const rest = built.model.restState();
