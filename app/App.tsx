@@ -120,7 +120,7 @@ export function App() {
       {s && <CodePanel sb={sb} />}
       {s && compareOpen && <CompareView sb={sb} onClose={() => setCompareOpen(false)} />}
       {/* studies: stability search, convergence sweep and work-precision, in a pool of workers */}
-      {s && <StudiesPanel scenario={sb.currentScenario} scenarioName={s.scenario.name} />}
+      {s && <StudiesPanel scenario={sb.currentScenario} scenarioName={s.scenario.name} outlines={s.outlines} />}
     </div>
   );
 }

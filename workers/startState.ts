@@ -1,13 +1,15 @@
 /**
  * Starting a run from a stored state: a Stepwell NetCDF run file (what `stepwell run --netcdf` and the sandbox's
- * "NetCDF snapshot" write, and `--restart` reads), its last record. The stored thicknesses and velocities become
- * the run's initial state, so Reset returns to them; time and step count start at zero from there. A built-in
- * scenario may name such a file shipped with the app (`START_STATES`), loaded when the scenario is.
+ * "NetCDF snapshot" write, and `--restart` reads; its last record), or a compact spun-up state file
+ * ("stepwell-state-1" JSON, solver/io/stateFile.ts). The stored thicknesses and velocities become the run's
+ * initial state, so Reset returns to them; time and step count start at zero from there. A built-in scenario may
+ * name such a file shipped with the app (`START_STATES`), loaded when the scenario is.
  */
 import { SolverError } from "../solver/errors.js";
 import type { Run } from "../solver/driver/run.js";
 import { dataRange, decodeValues, parseHeader, type NcHeader } from "../solver/io/netcdf.js";
 import { checkRunFile, meshMismatch } from "../solver/io/runOutput.js";
+import { decodeState } from "../solver/io/stateFile.js";
 
 export { START_STATES } from "./startStateList.js";
 
@@ -22,7 +24,39 @@ export interface StartStateInfo {
 
 const FIELD = "startState";
 
+/** "CDF" and a version byte: a NetCDF-3 file; anything else is read as a JSON state file. */
 export function startFromFile(run: Run, bytes: Uint8Array, file: string): StartStateInfo {
+  const isNetcdf = bytes.length >= 4 && bytes[0] === 0x43 && bytes[1] === 0x44 && bytes[2] === 0x46;
+  return isNetcdf ? startFromRunFile(run, bytes, file) : startFromStateFile(run, bytes, file);
+}
+
+/** Make `state` the run's start (checked: a state that cannot be run is refused and the run left as it was). */
+function adoptStart(run: Run, state: Float64Array, bad: (msg: string) => SolverError): void {
+  const saved = Float64Array.from(run.built.initial);
+  run.built.initial.set(state);
+  run.reset();
+  const c = run.check();
+  if (!c.ok) {
+    run.built.initial.set(saved);
+    run.reset();
+    throw bad(`holds a state that cannot be run (${c.reason})`);
+  }
+}
+
+function startFromStateFile(run: Run, bytes: Uint8Array, file: string): StartStateInfo {
+  let raw: unknown;
+  try {
+    raw = JSON.parse(new TextDecoder().decode(bytes));
+  } catch (e) {
+    throw new SolverError("bad-input", `${FIELD}: ${file} is neither a NetCDF run file nor a JSON state file (${(e as Error).message})`, FIELD);
+  }
+  const { state, time, step } = decodeState(run.model, raw, FIELD);
+  adoptStart(run, state, (msg) => new SolverError("bad-input", `${FIELD}: ${file} ${msg}`, FIELD));
+  const name = (raw as { scenario?: unknown }).scenario;
+  return { file, storedTime: time, storedStep: step, scenario: typeof name === "string" && name ? name : null };
+}
+
+function startFromRunFile(run: Run, bytes: Uint8Array, file: string): StartStateInfo {
   const bad = (msg: string) => new SolverError("bad-input", `${FIELD}: ${file} ${msg}`, FIELD);
   let h: NcHeader;
   try {
@@ -52,16 +86,10 @@ export function startFromFile(run: Run, bytes: Uint8Array, file: string): StartS
   const storedTime = read("time", last)[0];
   const storedStep = read("step", last)[0];
   const { uOffset } = run.model.layout;
-  const saved = Float64Array.from(run.built.initial);
-  run.built.initial.set(thickness, 0);
-  run.built.initial.set(velocity, uOffset);
-  run.reset();
-  const c = run.check();
-  if (!c.ok) {
-    run.built.initial.set(saved);
-    run.reset();
-    throw bad(`holds a state that cannot be run (${c.reason})`);
-  }
+  const state = Float64Array.from(run.built.initial);
+  state.set(thickness, 0);
+  state.set(velocity, uOffset);
+  adoptStart(run, state, bad);
   const s = h.attributes.get("scenario");
   let scenario: string | null = null;
   if (typeof s === "string") { try { scenario = String((JSON.parse(s) as { name?: unknown }).name ?? "") || null; } catch { scenario = null; } }

@@ -10,6 +10,10 @@ import {
   type ItemProgress, type ReferenceRecord, type ReferenceSummary, type StabilityRequest, type SweepPlan, type SweepRequest, type SweepRow,
 } from "./studyWork.js";
 import { parseSteppers } from "./studyWork.js";
+import {
+  adoptMembers, finishStatisticsStudy, planStatisticsStudy, statisticsItem, statisticsMember, statisticsReference,
+  type StatisticsPlan, type StatisticsReferenceSummary, type StatisticsRequest, type StatisticsRow, type StatisticValues,
+} from "./statisticsWork.js";
 
 function failure(e: unknown): WorkerFailure {
   if (e && typeof e === "object" && (e as { name?: string }).name === "SolverError") {
@@ -55,6 +59,14 @@ const api = {
   adoptReference: guarded((record: ReferenceRecord) => { adoptReference(record); }),
   sweepItem: guarded((req: SweepRequest, plan: SweepPlan, k: number, onItem?: ItemProgress) => sweepItem(req, plan, k, throttled(onItem))),
   finishSweep: guarded((plan: SweepPlan, reference: ReferenceSummary, rows: SweepRow[]) => finishSweepStudy(plan, reference, rows)),
+  // statistics: ensemble members, then one item per stepper and Δt (fields come back for the maps)
+  planStatistics: guarded((req: StatisticsRequest) => planStatisticsStudy(req)),
+  statisticsMember: guarded((req: StatisticsRequest, plan: StatisticsPlan, m: number, onItem?: ItemProgress) => statisticsMember(req, plan, m, throttled(onItem))),
+  adoptMembers: guarded((records: ReferenceRecord[]) => { adoptMembers(records); }),
+  statisticsReference: guarded((req: StatisticsRequest, plan: StatisticsPlan) => statisticsReference(req, plan)),
+  statisticsItem: guarded((req: StatisticsRequest, plan: StatisticsPlan, k: number, onItem?: ItemProgress) => statisticsItem(req, plan, k, throttled(onItem))),
+  finishStatistics: guarded((plan: StatisticsPlan, summary: StatisticsReferenceSummary, floor: { max: StatisticValues; rms: StatisticValues }, rows: StatisticsRow[]) =>
+    finishStatisticsStudy(plan, summary, floor, rows)),
 };
 
 export type StudyApi = typeof api;

@@ -12,7 +12,14 @@ import type {
   ReferenceSummary, StabilityRequest, StabilityResult, SweepPlan, SweepRequest, SweepResult, SweepRow,
 } from "./studyWork.js";
 
+import type { StatisticFields, StatisticsPlan, StatisticsRequest, StatisticsResult, StatisticsRow } from "./statisticsWork.js";
+
 export type { StabilityRequest, StabilityResult, SweepPlan, SweepRequest, SweepResult, SweepRow, ReferenceSummary };
+export type { StatisticFields, StatisticsRequest, StatisticsResult, StatisticsRow };
+
+/** A statistics study's result with the time-mean fields of the reference (member 0) and of every row, for maps. */
+export interface StatisticsOutcome { result: StatisticsResult; reference: StatisticFields; rows: (StatisticFields | null)[] }
+export interface PartialStatistics { plan: StatisticsPlan | null; rows: (StatisticsRow | undefined)[] }
 
 export interface PoolProgress {
   /** Share of the work done, 0…1. */
@@ -169,6 +176,48 @@ export class StudyPool {
       if (isCancelled(e)) {
         const done = results.filter((r) => r !== undefined).length;
         return { status: "cancelled", partial: results, done, total: results.length, wallSeconds: track.seconds(), workers: n };
+      }
+      this.dispose();
+      throw e;
+    } finally {
+      this.end();
+    }
+  }
+
+  /** Statistics: the reference ensemble members in parallel, then one item per stepper and Δt, then the CLI's finish. */
+  async statistics(req: StatisticsRequest, onProgress: (p: PoolProgress) => void): Promise<StudyOutcome<StatisticsOutcome, PartialStatistics>> {
+    this.begin();
+    const partial: PartialStatistics = { plan: null, rows: [] };
+    let n = 1;
+    const t0 = performance.now();
+    try {
+      const first = this.ensure(1)[0];
+      const plan = await this.call(first, (r) => r.planStatistics(req));
+      partial.plan = plan;
+      const M = plan.ensemble.members;
+      partial.rows = new Array(plan.nItems).fill(undefined);
+      const fields: (StatisticFields | null)[] = new Array(plan.nItems).fill(null);
+      n = Math.min(this.size, Math.max(M, plan.nItems));
+      const slots = this.ensure(n);
+      // one weight list: members 0…M−1, then rows M…M+nItems−1 (each weighted by its steps)
+      const weights = [...Array.from({ length: M }, () => plan.reference.steps), ...Array.from({ length: plan.nItems }, (_, k) => plan.dts[k % plan.dts.length].steps)];
+      const track = this.tracker(weights, onProgress, n);
+      track.start();
+      const records: Awaited<ReturnType<Remote<StudyApi>["statisticsMember"]>>[] = new Array(M);
+      await this.runItems(slots.slice(0, Math.min(n, M)), Array.from({ length: M }, (_, m) => m), records,
+        (s, m, onItem) => s.remote.statisticsMember(req, plan, m, proxy(onItem)), track.item, track.done);
+      await Promise.all(slots.map((s) => this.call(s, (r) => r.adoptMembers(records))));
+      const ref = await this.call(first, (r) => r.statisticsReference(req, plan));
+      const items: { row: StatisticsRow; fields: StatisticFields | null }[] = new Array(plan.nItems);
+      const order = Array.from({ length: plan.nItems }, (_, k) => k).sort((a, b) => weights[M + b] - weights[M + a] || a - b);
+      await this.runItems(slots, order, items, (s, k, onItem) => s.remote.statisticsItem(req, plan, k, proxy(onItem)),
+        (k, f, what) => track.item(M + k, f, what), (k) => { partial.rows[k] = items[k].row; fields[k] = items[k].fields; track.done(M + k); });
+      const result = await this.call(first, (r) => r.finishStatistics(plan, ref.summary, ref.floor, partial.rows as StatisticsRow[]));
+      return { status: "completed", result: { result, reference: ref.fields, rows: fields }, wallSeconds: (performance.now() - t0) / 1000, workers: n };
+    } catch (e) {
+      if (isCancelled(e)) {
+        const done = partial.rows.filter((r) => r !== undefined).length;
+        return { status: "cancelled", partial, done, total: partial.rows.length, wallSeconds: (performance.now() - t0) / 1000, workers: n };
       }
       this.dispose();
       throw e;

@@ -1,6 +1,7 @@
 import { useEffect, useRef, useState } from "react";
-import type { Scenario, WorkerFailure } from "../../workers/protocol.js";
-import { isCancelled, StudyPool, type PoolProgress, type StabilityResult, type StudyOutcome, type SweepResult } from "../../workers/studyPool.js";
+import type { CellOutlines, Scenario, WorkerFailure } from "../../workers/protocol.js";
+import { isCancelled, StudyPool, type PoolProgress, type StabilityResult, type StatisticsOutcome, type SweepResult } from "../../workers/studyPool.js";
+import { StatisticsView } from "./StatisticsView.js";
 import { failureMessage } from "../../workers/client.js";
 import { StabilityView } from "./StabilityView.js";
 import { SweepView } from "./SweepView.js";
@@ -9,7 +10,7 @@ import { SweepView } from "./SweepView.js";
  * "Studies": the stability search and the convergence sweep with work-precision on the scenario loaded in the
  * sandbox, run in a pool of workers (one per core). The results are the CLI's for the same inputs.
  */
-type Kind = "stability" | "sweep";
+type Kind = "stability" | "sweep" | "statistics";
 
 interface Outcome {
   kind: Kind;
@@ -17,6 +18,9 @@ interface Outcome {
   status: "completed" | "cancelled";
   stability?: StabilityResult[];
   sweep?: SweepResult;
+  statistics?: StatisticsOutcome;
+  outlines?: CellOutlines;
+  nLayers?: number;
   done: number;
   total: number;
   wallSeconds: number;
@@ -41,7 +45,7 @@ function optionalNumber(text: string, field: string): number | undefined {
 
 const seconds = (s: number) => (!Number.isFinite(s) ? "—" : s < 60 ? `${s.toFixed(1)} s` : `${Math.floor(s / 60)} min ${Math.round(s % 60)} s`);
 
-export function StudiesPanel({ scenario, scenarioName }: { scenario: () => Scenario | null; scenarioName: string }) {
+export function StudiesPanel({ scenario, scenarioName, outlines }: { scenario: () => Scenario | null; scenarioName: string; outlines?: CellOutlines }) {
   const pool = useRef<StudyPool | null>(null);
   const [kind, setKind] = useState<Kind>("stability");
   const [steppers, setSteppers] = useState("rk4,ssprk3");
@@ -49,6 +53,11 @@ export function StudiesPanel({ scenario, scenarioName }: { scenario: () => Scena
   const [duration, setDuration] = useState("3600");
   const [trialDuration, setTrialDuration] = useState("");
   const [tolerance, setTolerance] = useState("0.02");
+  const [spinUp, setSpinUp] = useState("3600");
+  const [windowLength, setWindowLength] = useState("7200");
+  const [sampleEvery, setSampleEvery] = useState("");
+  const [ensemble, setEnsemble] = useState("3");
+  const [statDts, setStatDts] = useState("0.5,0.25");
   const [progress, setProgress] = useState<PoolProgress | null>(null);
   const [running, setRunning] = useState(false);
   const [error, setError] = useState<string | null>(null);
@@ -66,18 +75,29 @@ export function StudiesPanel({ scenario, scenarioName }: { scenario: () => Scena
     try {
       const p = thePool();
       const list = await p.parseSteppers(steppers);
-      let out: StudyOutcome<StabilityResult[] | SweepResult, unknown>;
       if (kind === "stability") {
         const options = { duration: optionalNumber(trialDuration, "trial duration"), tolerance: optionalNumber(tolerance, "tolerance") };
-        out = await p.stability({ scenario: s, steppers: list, options }, setProgress);
+        const out = await p.stability({ scenario: s, steppers: list, options }, setProgress);
         setOutcome(out.status === "completed"
-          ? { kind, scenario: s.name, status: "completed", stability: out.result as StabilityResult[], done: list.length, total: list.length, wallSeconds: out.wallSeconds, workers: out.workers }
-          : { kind, scenario: s.name, status: "cancelled", stability: (out.partial as (StabilityResult | undefined)[]).filter((r): r is StabilityResult => !!r), done: out.done, total: out.total, wallSeconds: out.wallSeconds, workers: out.workers });
+          ? { kind, scenario: s.name, status: "completed", stability: out.result, done: list.length, total: list.length, wallSeconds: out.wallSeconds, workers: out.workers }
+          : { kind, scenario: s.name, status: "cancelled", stability: out.partial.filter((r): r is StabilityResult => !!r), done: out.done, total: out.total, wallSeconds: out.wallSeconds, workers: out.workers });
+      } else if (kind === "statistics") {
+        const ens = optionalNumber(ensemble, "ensemble");
+        const definition = {
+          steppers: list, dtFactors: numberList(statDts, "Δt factors"), spinUp: spinUp.trim() === "" ? 0 : Number(spinUp),
+          window: optionalNumber(windowLength, "window") ?? NaN, sampleEvery: optionalNumber(sampleEvery, "sample interval"), ensemble: ens,
+        };
+        const o = outlines;
+        const nLayers = s.layers.length;
+        const res = await p.statistics({ scenario: s, definition }, setProgress);
+        setOutcome(res.status === "completed"
+          ? { kind, scenario: s.name, status: "completed", statistics: res.result, outlines: o, nLayers, done: res.result.result.rows.length, total: res.result.result.rows.length, wallSeconds: res.wallSeconds, workers: res.workers }
+          : { kind, scenario: s.name, status: "cancelled", done: res.done, total: res.total, wallSeconds: res.wallSeconds, workers: res.workers });
       } else {
         const definition = { steppers: list, dtFactors: numberList(factors, "Δt factors"), duration: optionalNumber(duration, "duration") };
-        out = await p.sweep({ scenario: s, definition }, setProgress);
+        const out = await p.sweep({ scenario: s, definition }, setProgress);
         setOutcome(out.status === "completed"
-          ? { kind, scenario: s.name, status: "completed", sweep: out.result as SweepResult, done: (out.result as SweepResult).rows.length, total: (out.result as SweepResult).rows.length, wallSeconds: out.wallSeconds, workers: out.workers }
+          ? { kind, scenario: s.name, status: "completed", sweep: out.result, done: out.result.rows.length, total: out.result.rows.length, wallSeconds: out.wallSeconds, workers: out.workers }
           : { kind, scenario: s.name, status: "cancelled", done: out.done, total: out.total, wallSeconds: out.wallSeconds, workers: out.workers });
       }
     } catch (e) {
@@ -92,11 +112,12 @@ export function StudiesPanel({ scenario, scenarioName }: { scenario: () => Scena
     <section className="card studies" aria-label="Studies" data-testid="studies-panel">
       <div className="card-head">
         <h2>Studies</h2>
-        <span className="hint">on <b>{scenarioName}</b> as loaded, in {thePool().size} worker{thePool().size > 1 ? "s" : ""} (one per core); the same numbers as the command line's <code>stability</code> and <code>sweep</code></span>
+        <span className="hint">on <b>{scenarioName}</b> as loaded, in {thePool().size} worker{thePool().size > 1 ? "s" : ""} (one per core); the same numbers as the command line's <code>stability</code>, <code>sweep</code> and <code>statistics</code></span>
       </div>
       <div className="study-form">
         <div role="tablist">
           <button role="tab" data-testid="study-kind-stability" aria-selected={kind === "stability"} className={kind === "stability" ? "active" : ""} onClick={() => setKind("stability")} disabled={running}>Stability search</button>
+          <button role="tab" data-testid="study-kind-statistics" aria-selected={kind === "statistics"} className={kind === "statistics" ? "active" : ""} onClick={() => setKind("statistics")} disabled={running}>Statistics</button>
           <button role="tab" data-testid="study-kind-sweep" aria-selected={kind === "sweep"} className={kind === "sweep" ? "active" : ""} onClick={() => setKind("sweep")} disabled={running}>Convergence &amp; work-precision</button>
         </div>
         <label>Steppers <input data-testid="study-steppers" value={steppers} onChange={(e) => setSteppers(e.target.value)} size={44} disabled={running}
@@ -106,6 +127,16 @@ export function StudiesPanel({ scenario, scenarioName }: { scenario: () => Scena
             <label>Trial length [s] <input data-testid="study-trial-duration" value={trialDuration} placeholder="default" onChange={(e) => setTrialDuration(e.target.value)} size={8} disabled={running}
               title="simulated length of every trial; default: the scenario's duration or 300 × the RK4 limit, whichever is shorter" /></label>
             <label>Bracket tolerance <input data-testid="study-tolerance" value={tolerance} onChange={(e) => setTolerance(e.target.value)} size={6} disabled={running} /></label>
+          </>
+        ) : kind === "statistics" ? (
+          <>
+            <label>Δt factors <input data-testid="study-stat-dt-factors" value={statDts} onChange={(e) => setStatDts(e.target.value)} size={12} disabled={running}
+              title="multiples of the scenario's RK4 gravity-wave limit" /></label>
+            <label>Spin-up [s] <input data-testid="study-spin-up" value={spinUp} onChange={(e) => setSpinUp(e.target.value)} size={8} disabled={running} /></label>
+            <label>Window [s] <input data-testid="study-window" value={windowLength} onChange={(e) => setWindowLength(e.target.value)} size={8} disabled={running} /></label>
+            <label>Sample every [s] <input data-testid="study-sample-every" value={sampleEvery} placeholder="default" onChange={(e) => setSampleEvery(e.target.value)} size={6} disabled={running} /></label>
+            <label>Ensemble <input data-testid="study-ensemble" value={ensemble} onChange={(e) => setEnsemble(e.target.value)} size={3} disabled={running}
+              title="reference runs started a round-off apart; their spread is the noise floor (1: no floor)" /></label>
           </>
         ) : (
           <>
@@ -131,12 +162,13 @@ export function StudiesPanel({ scenario, scenarioName }: { scenario: () => Scena
       {outcome && !running && (
         <p className="study-outcome" data-testid="study-outcome">
           {outcome.status === "completed"
-            ? `Done: ${outcome.total} ${outcome.kind === "sweep" ? "runs" : "searches"} on ${outcome.scenario} in ${seconds(outcome.wallSeconds)} with ${outcome.workers} worker${outcome.workers > 1 ? "s" : ""}.`
-            : `Cancelled after ${seconds(outcome.wallSeconds)}: ${outcome.done} of ${outcome.total} ${outcome.kind === "sweep" ? "runs" : "searches"} had finished${outcome.kind === "sweep" ? " (no fits on part of the rows)" : ""}.`}
+            ? `Done: ${outcome.total} ${outcome.kind === "stability" ? "searches" : "runs"} on ${outcome.scenario} in ${seconds(outcome.wallSeconds)} with ${outcome.workers} worker${outcome.workers > 1 ? "s" : ""}.`
+            : `Cancelled after ${seconds(outcome.wallSeconds)}: ${outcome.done} of ${outcome.total} ${outcome.kind === "stability" ? "searches" : "runs"} had finished${outcome.kind === "sweep" ? " (no fits on part of the rows)" : ""}.`}
         </p>
       )}
       {outcome?.stability && !running && <StabilityView results={outcome.stability} />}
       {outcome?.sweep && !running && <SweepView result={outcome.sweep} />}
+      {outcome?.statistics && outcome.outlines && !running && <StatisticsView outcome={outcome.statistics} outlines={outcome.outlines} nLayers={outcome.nLayers ?? 1} />}
     </section>
   );
 }
