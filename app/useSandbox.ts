@@ -17,7 +17,7 @@ import { START_STATES } from "../workers/startStateList.js";
  * history and the notices. Panels get plain data and callbacks from it.
  */
 
-export const DEFAULT_SCENARIO = "shelf-gyre-basin";
+export const DEFAULT_SCENARIO = "eddying-jets";
 /** Worker time per chunk the loop aims for [ms]: short enough for a snappy pause, long enough to amortise messages. */
 const CHUNK_TARGET_MS = 30;
 const HISTORY_LIMIT = 3000;

@@ -66,7 +66,7 @@ async function runFor(page: Page, ms: number) {
 
 describe("browser sandbox", () => {
   it("loads the main demo with every cell drawn, a colour bar with units, and no console error", async () => {
-    expect(await text(page, "scenario-name")).toContain("shelf-gyre-basin");
+    expect(await text(page, "scenario-name")).toContain("eddying-jets");
     const canvas = page.locator(byId("map-canvas"));
     const cells = Number(await canvas.getAttribute("data-cells"));
     expect(cells).toBeGreaterThan(1000);
@@ -326,7 +326,7 @@ describe("browser sandbox", () => {
     const tampered = hash.slice(0, i) + (hash[i] === "A" ? "B" : "A") + hash.slice(i + 1);
     await page.evaluate((h) => { window.location.hash = h; }, tampered);
     await expect.poll(() => text(page, "link-error"), { timeout: 30_000 }).toMatch(/shared link could not be used: .*(changed|damaged|JSON)/);
-    await expect.poll(() => text(page, "scenario-name"), { timeout: 30_000 }).toContain("shelf-gyre-basin");
+    await expect.poll(() => text(page, "scenario-name"), { timeout: 30_000 }).toContain("eddying-jets");
     await page.screenshot({ path: shot("09-broken-link") });
     // a link with a valid checksum but an invalid scenario names the field
     const s = smallScenario();

@@ -22,6 +22,8 @@ import { builtinScenario } from "../../solver/scenario/builtins";
 import { createRun } from "../../solver/driver/run";
 import { computeField, fieldWork } from "../../solver/diagnostics/fields";
 import { netcdfSnapshot } from "../../workers/netcdfSnapshot";
+import { decodeState } from "../../solver/io/stateFile";
+import { mapFingerprint, ROOT } from "./harness";
 import { byId, openApp, shot, startSandbox, type Sandbox } from "./harness";
 
 let sb: Sandbox;
@@ -91,6 +93,35 @@ async function runStudy(timeout = 240_000) {
   await page.click(byId("study-run"));
   await expect.poll(() => page.locator(byId("study-status")).getAttribute("data-state"), { timeout, interval: 500 }).not.toBe("running");
 }
+
+describe("the demo the page opens on", () => {
+  it("is eddying-jets started from its shipped day-20 state, and its eddies move within seconds of Run", async () => {
+    expect(await text("scenario-name")).toContain("eddying-jets");
+    expect(await text("start-state-info")).toMatch(/^Started from states\/eddying-jets-day20\.json \(eddying-jets, stored at 20\.000 d, step 11520\)/);
+    expect(await text("step-count")).toBe("0");
+    // the map shows the stored state: the same free-surface range as the state file decoded here
+    const run = createRun(builtinScenario("eddying-jets")!);
+    const { state } = decodeState(run.model, JSON.parse(readFileSync(path.join(ROOT, "public/states/eddying-jets-day20.json"), "utf8")), "state");
+    const eta = new Float64Array(run.mesh.nCells);
+    const r = computeField(eta, "surface", 0, run.model, state, fieldWork(run.model));
+    const shown = /max (\S+) m\s*min (\S+) m/.exec(await text("field-range"))!.slice(1).map(Number);
+    expect(shown).toEqual([Number(r.max.toPrecision(4)), Number(r.min.toPrecision(4))]);
+    // the scenario's own start is a smooth band; the stored state is eddying: its surface range is wider
+    const r0 = computeField(eta, "surface", 0, run.model, run.state, fieldWork(run.model));
+    expect(r.max - r.min).toBeGreaterThan(2 * (r0.max - r0.min));
+    await page.selectOption(byId("field-picker"), "vorticity");
+    await mapBox();
+    const before = await mapFingerprint(page);
+    await page.click(byId("run-button"));
+    await page.waitForTimeout(3000);
+    await page.click(byId("run-button"));
+    expect(Number(await text("step-count"))).toBeGreaterThan(0);
+    expect(await mapFingerprint(page)).not.toBe(before);
+    await page.locator(byId("field-map")).screenshot({ path: shot("38-demo-eddies") });
+    await page.selectOption(byId("field-picker"), "surface");
+    expect(errors).toEqual([]);
+  });
+});
 
 describe("studies in the page", () => {
   it("a stability search runs in the worker pool; its trials plot and tables export as SVG, PNG, CSV and JSON equal to the solver's", async () => {

@@ -368,7 +368,7 @@ describe("energy budget card and a busy worker", () => {
     await page.evaluate(() => { window.location.hash = ""; });
     await page.goto(sb.baseUrl);
     await page.waitForSelector('[data-testid="app"][data-ready="yes"]', { timeout: 60_000 });
-    expect(await text("scenario-name")).toContain("shelf-gyre-basin");
+    expect(await text("scenario-name")).toContain("eddying-jets");
     await page.click(byId("run-button"));
     await expect.poll(async () => Number(await page.locator(byId("budget-plot")).getAttribute("data-points")), { timeout: 60_000 }).toBeGreaterThan(5);
     await pause();
