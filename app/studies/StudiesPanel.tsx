@@ -112,7 +112,7 @@ export function StudiesPanel({ scenario, scenarioName, outlines }: { scenario: (
     <section className="card studies" aria-label="Studies" data-testid="studies-panel">
       <div className="card-head">
         <h2>Studies</h2>
-        <span className="hint">on <b>{scenarioName}</b> as loaded, in {thePool().size} worker{thePool().size > 1 ? "s" : ""} (one per core); the same numbers as the command line's <code>stability</code>, <code>sweep</code> and <code>statistics</code></span>
+        <span className="hint">on <b>{scenarioName}</b> from its initial state (not a stored start), in {thePool().size} worker{thePool().size > 1 ? "s" : ""} (one per core); the same numbers as the command line's <code>stability</code>, <code>sweep</code> and <code>statistics</code></span>
       </div>
       <div className="study-form">
         <div role="tablist">
