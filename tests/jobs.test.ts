@@ -96,7 +96,8 @@ describe("--jobs", () => {
   }, 240_000);
 
   it("a stop request stops every worker; the rows that finished are written, each as --jobs 1 computed it", async () => {
-    const common = ["sweep", scenario, "--methods", "rk4,ssprk3", "--dt-factors", "0.4,0.2,0.1,0.05", "--duration", "1200"];
+    // runs long enough that a stop asked for after the first finished row always lands before the last one
+    const common = ["sweep", scenario, "--methods", "rk4,ssprk3", "--dt-factors", "0.4,0.2,0.1,0.05", "--duration", "9600"];
     const full = join(dir, "stop-full.json");
     expect((await cli([...common, "--jobs", "1", "--json", full])).code).toBe(0);
     // ask to stop once the progress shows a row done (the reference counts 2 units: "3/10 runs"); the runs of

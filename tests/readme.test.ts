@@ -58,7 +58,8 @@ function commands(): { line: string; argv: string[] }[] {
 function shorten(argv: string[]): string[] {
   const a = [...argv];
   const d = a.indexOf("--duration");
-  if (d >= 0 && Number(a[d + 1]) > MAX_DURATION) a[d + 1] = String(MAX_DURATION);
+  const netcdf = a.includes("--netcdf") || a.includes("--restart"); // documented short already; restarts need the output times
+  if (d >= 0 && Number(a[d + 1]) > MAX_DURATION && !netcdf) a[d + 1] = String(MAX_DURATION);
   // runs that write or read NetCDF are documented short already (and a restart needs its output times)
   if (a[0] === "run" && !a.includes("--steps") && !a.includes("--netcdf") && !a.includes("--restart")) {
     if (d >= 0) a.splice(d, 2);

@@ -96,7 +96,7 @@ describe("work counters", () => {
 describe("registry", () => {
   it("lists every backend name once with a description", () => {
     const names = phiBackends.map((b) => b.name).sort();
-    expect(names).toEqual(["chebyshev", "dense", "krylov", "rational", "substep", "taylor"]);
+    expect(names).toEqual(["chebyshev", "dense", "krylov", "rational", "rational-damped", "substep", "taylor"]);
     for (const b of phiBackends) expect(b.description.length).toBeGreaterThan(20);
   });
   const expectBadInput = (f: () => unknown, field: string) => {
