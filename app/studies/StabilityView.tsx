@@ -43,9 +43,9 @@ export function StabilityView({ results }: { results: StabilityResult[] }) {
       </p>
       <div className="plot-row">
         <Plot title="Stability search: trials" testid="stability-trials" width={720} height={340} xLabel="Δt [s]" yLabel="energy growth (max E / scale − 1)" xLog yLog series={series}
-          include={{ y: [GROWTH_FLOOR * 10, top] }}
+          include={{ y: [GROWTH_FLOOR, top] }}
           marks={[{ x: rk4, y: null, label: "RK4 limit", colour: "#b00" }, { x: null, y: threshold, label: `threshold ${fmt(threshold)}`, colour: "#555" }]}
-          note={<>Dots: stable trials; crosses: unstable (at the top edge: blew up). Growth below {GROWTH_FLOOR} is drawn at {GROWTH_FLOOR}. The legend gives each stepper's largest stable Δt.</>} />
+          note={<>Dots: stable trials; crosses: unstable (at the top edge: blew up). Growth below {fmt(GROWTH_FLOOR)} is drawn at {fmt(GROWTH_FLOOR)}. The legend gives each stepper's largest stable Δt.</>} />
       </div>
       <h3>Largest stable Δt <TableExports stem="stability-results" header={STABILITY_COLUMNS} rows={() => stabilityCells(results)} json={() => results} /></h3>
       <table className="study-table" data-testid="stability-table">
