@@ -2,23 +2,22 @@ import { SolverError } from "../errors.js";
 import { checkListLength } from "../scenario/limits.js";
 import { buildScenario, type BuiltScenario } from "../scenario/build.js";
 import { parseScenario } from "../scenario/schema.js";
-import { isCancellation, StudyInterrupted } from "../studies/common.js";
 import { referenceCache, type ReferenceCache } from "../studies/reference.js";
 import { parseShard } from "../studies/shard.js";
 import {
-  runStatistics, STATISTICS, type InterruptedStatistics, type StatisticFields, type StatisticsDefinition, type StatisticsResult,
+  runStatistics, STATISTICS, type StatisticFields, type StatisticsDefinition, type StatisticsResult,
   type StatisticsRow, type WindowEnergy,
 } from "../studies/statistics.js";
 import { statisticsFile, type StatisticsFileInfo, type StatisticsRecord } from "../io/statisticsOutput.js";
 import { numberOption, rejectUnknown, stringOption, type ParsedArgs } from "./args.js";
-import { NEVER_STOP, STOP_EXIT_CODES, type CliContext } from "./context.js";
+import { NEVER_STOP, type CliContext } from "./context.js";
 import { fmt, loadScenarioArg, table, writeFileAtomic, writeJson, writeText } from "./io.js";
 import { LIMIT_OPTIONS, LIMIT_USAGE, limitsFromArgs } from "./limitArgs.js";
 import { userPath } from "./paths.js";
 import { cacheDirectory, DiskReferenceCache } from "./referenceStore.js";
 import { stepwellVersion } from "./runOutput.js";
 import { solverIdentity } from "./solverIdentity.js";
-import { numberList, parseMethodList, progressReporter, steppersFromArgs } from "./studyArgs.js";
+import { numberList, parseMethodList, progressReporter, reportInterrupted, steppersFromArgs } from "./studyArgs.js";
 
 export const STATISTICS_USAGE =
   "statistics SCENARIO (--methods LIST | --steppers FILE) (--dts d1,d2,… | --dt-factors f1,f2,…) --spin-up S --window S [--sample-every S] " +
@@ -158,17 +157,7 @@ export function statisticsCommand(args: ParsedArgs, out: (s: string) => void, er
     writeNetcdf(result);
     return 0;
   } catch (e) {
-    if (!isCancellation(e)) throw e;
-    const stop = ctx.stopReason() ?? "SIGINT";
-    const partial = e instanceof StudyInterrupted ? e.partial as InterruptedStatistics : undefined;
-    if (partial) {
-      printStatistics(partial.rows, out);
-      if (json) writeJson(json, { ...partial, interruptedBy: stop });
-      if (csv) writeText(csv, statisticsCsv(partial.rows), "--csv");
-    }
-    const finished = e instanceof StudyInterrupted ? `with ${e.done} of ${e.total} runs finished` : "before the reference runs finished";
-    err(`stepwell statistics: interrupted (${stop}) ${finished}${json && partial ? `; ${json} holds those` : ""}`);
-    return STOP_EXIT_CODES[stop];
+    return reportInterrupted(e, ctx, { command: "statistics", json, csv, what: "the reference runs", print: (rows) => printStatistics(rows, out), toCsv: statisticsCsv }, err);
   }
 }
 

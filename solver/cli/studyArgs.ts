@@ -1,5 +1,8 @@
 import { readFileSync } from "node:fs";
 import { dirname } from "node:path";
+import { isCancellation, StudyInterrupted } from "../studies/common.js";
+import { STOP_EXIT_CODES, type CliContext } from "./context.js";
+import { writeJson, writeText } from "./io.js";
 import { loadedModule } from "./modules.js";
 import { SolverError } from "../errors.js";
 import type { Scenario } from "../scenario/schema.js";
@@ -98,4 +101,26 @@ export function progressReporter(err: (s: string) => void, clock: () => number, 
       err(text);
     }
   };
+}
+
+/**
+ * A study stopped by Ctrl-C, SIGTERM or closed output: print and write the rows that finished (marked
+ * interrupted; a cut-short reference is not kept), say so in one line, and return the exit code. Rethrows anything
+ * that is not a cancellation.
+ */
+export function reportInterrupted<Row>(e: unknown, ctx: CliContext, o: {
+  command: string; json?: string; csv?: string; what: string;
+  print: (rows: Row[]) => void; toCsv: (rows: Row[]) => string;
+}, err: (s: string) => void): number {
+  if (!isCancellation(e)) throw e;
+  const stop = ctx.stopReason() ?? "SIGINT";
+  const partial = e instanceof StudyInterrupted ? e.partial as { rows: Row[] } : undefined;
+  if (partial) {
+    o.print(partial.rows);
+    if (o.json) writeJson(o.json, { ...partial, interruptedBy: stop });
+    if (o.csv) writeText(o.csv, o.toCsv(partial.rows), "--csv");
+  }
+  const finished = e instanceof StudyInterrupted ? `with ${e.done} of ${e.total} runs finished` : `before ${o.what} finished`;
+  err(`stepwell ${o.command}: interrupted (${stop}) ${finished}${o.json && partial ? `; ${o.json} holds those` : ""}`);
+  return STOP_EXIT_CODES[stop];
 }

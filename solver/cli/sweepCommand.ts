@@ -12,11 +12,11 @@ import type { BuiltScenario } from "../scenario/build.js";
 import { jobsForShard, runTasks } from "./jobs.js";
 import { referenceCache } from "../studies/reference.js";
 import { numberOption, rejectUnknown, stringOption, type ParsedArgs } from "./args.js";
-import { NEVER_STOP, STOP_EXIT_CODES, type CliContext } from "./context.js";
+import { NEVER_STOP, type CliContext } from "./context.js";
 import { fmt, loadScenarioArg, table, writeJson, writeText } from "./io.js";
 import { cacheDirectory, DiskReferenceCache } from "./referenceStore.js";
 import { solverIdentity } from "./solverIdentity.js";
-import { numberList, parseMethodList, progressReporter, steppersFromArgs } from "./studyArgs.js";
+import { numberList, parseMethodList, progressReporter, reportInterrupted, steppersFromArgs } from "./studyArgs.js";
 
 export const SWEEP_USAGE =
   "sweep SCENARIO (--methods LIST | --steppers FILE) (--dts d1,d2,… | --dt-factors f1,f2,…) [--reference-dt S] [--reference-method M] " +
@@ -205,17 +205,6 @@ export async function sweepCommand(args: ParsedArgs, out: (s: string) => void, e
     if (csv) writeText(csv, sweepCsv(result.rows), "--csv");
     return 0;
   } catch (e) {
-    if (!isCancellation(e)) throw e;
-    // stopped: the rows that finished, marked interrupted; a cut-short reference is not kept
-    const stop = ctx.stopReason() ?? "SIGINT";
-    const partial = e instanceof StudyInterrupted ? e.partial as InterruptedSweep : undefined;
-    if (partial) {
-      printSweep(partial.rows, out);
-      if (json) writeJson(json, { ...partial, interruptedBy: stop });
-      if (csv) writeText(csv, sweepCsv(partial.rows), "--csv");
-    }
-    const finished = e instanceof StudyInterrupted ? `with ${e.done} of ${e.total} runs finished` : "before the reference run finished";
-    err(`stepwell sweep: interrupted (${stop}) ${finished}${json && partial ? `; ${json} holds those` : ""}`);
-    return STOP_EXIT_CODES[stop];
+    return reportInterrupted(e, ctx, { command: "sweep", json, csv, what: "the reference run", print: (rows) => printSweep(rows, out), toCsv: sweepCsv }, err);
   }
 }
