@@ -91,6 +91,14 @@ describe("--jobs", () => {
     const b = readJson(two);
     expect(maskWall(b)).toEqual(maskWall(a));
     expect(b.cost.secondsPerSimDay).toBeGreaterThan(0);
+    // progress counts the report card's four parts (order, stability, conservation, RK4 cost), never "0/1 runs"
+    for (const r of [r1, r2]) {
+      const parts = [...r.err.matchAll(/assess (\d)\/(\d) parts/g)].map((m) => [Number(m[1]), Number(m[2])]);
+      expect(parts.length, r.err).toBeGreaterThan(0);
+      expect(parts.every(([, total]) => total === 4)).toBe(true);
+      expect(Math.max(...parts.map(([done]) => done))).toBeGreaterThanOrEqual(2);
+      expect(r.err).not.toMatch(/\d+\/\d+ runs/);
+    }
     // SSPRK3 is third order (Shu & Osher 1988)
     expect(Math.abs(b.order.observed - 3)).toBeLessThan(0.3);
   }, 240_000);

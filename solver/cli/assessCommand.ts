@@ -1,7 +1,7 @@
 import { buildScenario } from "../scenario/build.js";
 import { builtinScenario } from "../scenario/builtins.js";
 import { parseScenario } from "../scenario/schema.js";
-import { assess, assessOrder, assessStability, checkAssess, finishAssess, type AssessOptions } from "../studies/assess.js";
+import { ASSESS_PARTS, assess, assessOrder, assessStability, checkAssess, finishAssess, type AssessOptions } from "../studies/assess.js";
 import type { StabilityResult, StepperConfig } from "../studies/stability.js";
 import type { SweepResult } from "../studies/sweep.js";
 import type { Shard } from "../studies/shard.js";
@@ -68,7 +68,10 @@ export async function assessCommand(args: ParsedArgs, out: (s: string) => void, 
       checkAssess(built, config);
       const tasks = [1, 2].map((index) => ({ module: import.meta.url, fn: "assessPart", shard: { index, count: 2 }, payload: solver }));
       const outcomes = await runTasks<SweepResult | StabilityResult, unknown>(args, tasks, ctx,
-        ([a, b], item) => o.onProgress?.({ fraction: 0.25 * (a?.fraction ?? 0) + 0.5 * (b?.fraction ?? 0), done: 0, total: 1, item }), warn);
+        ([a, b], item) => o.onProgress?.({
+          fraction: 0.25 * (a?.fraction ?? 0) + 0.5 * (b?.fraction ?? 0),
+          done: [a, b].filter((p) => p !== undefined && p.fraction >= 1).length, total: ASSESS_PARTS, unit: "parts", item,
+        }), warn);
       const [order, stab] = outcomes;
       if (!("result" in order) || !("result" in stab)) throw new SolverError("cancelled", "assess cancelled");
       if (ctx.stopReason() !== null) throw new SolverError("cancelled", "assess cancelled");

@@ -83,7 +83,7 @@ export function progressReporter(err: (s: string) => void, clock: () => number, 
     const now = clock();
     const elapsed = now - t0;
     const eta = p.fraction > 0.01 ? (elapsed * (1 - p.fraction)) / p.fraction : NaN;
-    const text = `${what} ${p.done}/${p.total} runs, ${String(Math.round(p.fraction * 100)).padStart(3)}%, elapsed ${fmt(elapsed, "s", 3)}, ` +
+    const text = `${what} ${p.done}/${p.total} ${p.unit ?? "runs"}, ${String(Math.round(p.fraction * 100)).padStart(3)}%, elapsed ${fmt(elapsed, "s", 3)}, ` +
       `left ~${Number.isFinite(eta) ? fmt(eta, "s", 2) : "?"} — ${p.item}`;
     if (tty) {
       if (now - lastDraw < 0.1 && p.fraction < 1) return;

@@ -84,17 +84,18 @@ export function checkAssess(built: BuiltScenario, config: StepperConfig): string
   return new Run(built, { ...config, dt: 1 } as StepperSpec).stepper.label;
 }
 
-// progress: 4 phases with nominal weights (order sweep 25%, stability 50%, conservation 15%, RK4 cost 10%)
-const phase = (hooks: StudyHooks, start: number, width: number, name: string) => (p: StudyProgress) =>
-  hooks.onProgress?.({ fraction: start + width * p.fraction, done: 0, total: 1, item: `${name}: ${p.item}` });
+// progress: 4 parts with nominal weights (order sweep 25%, stability 50%, conservation 15%, RK4 cost 10%)
+export const ASSESS_PARTS = 4;
+const phase = (hooks: StudyHooks, start: number, width: number, name: string, done: number) => (p: StudyProgress) =>
+  hooks.onProgress?.({ fraction: start + width * p.fraction, done, total: ASSESS_PARTS, unit: "parts", item: `${name}: ${p.item}` });
 
 /** The whole report card in this thread: parts 1 and 2 (independent of each other; `--jobs` runs them side by side), then `finishAssess`. */
 export function assess(built: BuiltScenario, config: StepperConfig, o: AssessOptions): AssessReport {
   checkAssess(built, config);
   const tracker = new StudyTracker(o, 1);
-  const sweep = assessOrder(config, o, phase(o, 0, 0.25, "order"));
+  const sweep = assessOrder(config, o, phase(o, 0, 0.25, "order", 0));
   tracker.checkpoint();
-  const stab = assessStability(built, config, o, phase(o, 0.25, 0.5, "stability"));
+  const stab = assessStability(built, config, o, phase(o, 0.25, 0.5, "stability", 1));
   tracker.checkpoint();
   return finishAssess(built, config, o, sweep, stab);
 }
@@ -124,14 +125,14 @@ export function finishAssess(built: BuiltScenario, config: StepperConfig, o: Ass
   const steps = Math.max(10, Math.round(duration / dt));
   const run = new Run(built, { ...config, dt } as StepperSpec);
   const stop = () => o.shouldCancel?.() === true;
-  const r = execute(run, { steps, chunk: 1, clock: o.clock, onProgress: ({ fraction }) => { phase(hooks, 0.75, 0.15, "conservation")({ fraction, done: 0, total: 1, item: `${def.name} Δt = ${sig(dt)} s` }); return !stop(); } });
+  const r = execute(run, { steps, chunk: 1, clock: o.clock, onProgress: ({ fraction }) => { phase(hooks, 0.75, 0.15, "conservation", 2)({ fraction, done: 0, total: 1, item: `${def.name} Δt = ${sig(dt)} s` }); return !stop(); } });
   tracker.checkpoint();
   const limit = run.rk4DtLimit();
   const rk4Dt = 0.95 * limit;
   const rk4Steps = Math.max(10, Math.min(Math.round((r.simulatedSeconds || duration) / rk4Dt), 20000));
-  const rk4 = execute(new Run(built, { method: "rk4", dt: rk4Dt }), { steps: rk4Steps, chunk: 1, clock: o.clock, onProgress: ({ fraction }) => { phase(hooks, 0.9, 0.1, "RK4 cost")({ fraction, done: 0, total: 1, item: `rk4 Δt = ${sig(rk4Dt)} s` }); return !stop(); } });
+  const rk4 = execute(new Run(built, { method: "rk4", dt: rk4Dt }), { steps: rk4Steps, chunk: 1, clock: o.clock, onProgress: ({ fraction }) => { phase(hooks, 0.9, 0.1, "RK4 cost", 3)({ fraction, done: 0, total: 1, item: `rk4 Δt = ${sig(rk4Dt)} s` }); return !stop(); } });
   tracker.checkpoint();
-  hooks.onProgress?.({ fraction: 1, done: 1, total: 1, item: "done" });
+  hooks.onProgress?.({ fraction: 1, done: ASSESS_PARTS, total: ASSESS_PARTS, unit: "parts", item: "done" });
 
   const perDay = (x: RunResult) => (x.simulatedSeconds > 0 ? (x.wallSeconds * 86400) / x.simulatedSeconds : NaN);
   const spd = perDay(r), rk4Spd = perDay(rk4);

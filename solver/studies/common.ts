@@ -7,6 +7,8 @@ export interface StudyProgress {
   done: number;
   total: number;
   item: string;
+  /** What `done` and `total` count (default "runs"; the report card counts its four parts). */
+  unit?: string;
 }
 
 /** What every study accepts besides its own inputs. The engine never reads a clock or prints. */
