@@ -187,3 +187,65 @@ describe("shard jobs sharing one cache directory", () => {
     expect(JSON.parse(readFileSync(join(dir, "merged.json"), "utf8")).rows).toHaveLength(4);
   });
 });
+
+describe("a user's module saved outside an ES-module package (no package.json with \"type\": \"module\" above it)", () => {
+  // Node reads .ts/.js there as CommonJS (Node.js documentation, "Determining module system"); a stepper module is
+  // an ES module wherever it is saved, and so are the files it imports by relative path
+  const plain = join(dir, "plain");
+  mkdirSync(plain, { recursive: true });
+  writeFileSync(join(plain, "helper.ts"), "export const scale = (dt: number): number => dt;\n");
+  writeFileSync(join(plain, "euler.ts"), [
+    'import type { StepperDefinition } from "a-package-that-is-not-there";',
+    'import { scale } from "./helper.js";',
+    "const euler: StepperDefinition = {",
+    '  name: "outside-euler", order: 1, description: "forward Euler saved outside any package",',
+    "  create(problem) {",
+    "    const k: Float64Array = problem.newVector();",
+    "    return {",
+    "      step(x: Float64Array, t: number, dt: number): void {",
+    "        problem.tendency(k, x, t);",
+    '        if (t >= 40) throw new RangeError("deliberate fault");',
+    "        for (let i = 0; i < problem.n; i++) x[i] += scale(dt) * k[i];",
+    "      },",
+    "    };",
+    "  },",
+    "};",
+    "export default euler;",
+  ].join("\n") + "\n");
+  writeFileSync(join(plain, "euler.js"), 'export default { name: "outside-js", order: 1, description: "no-op", create() { return { step() {} }; } };\n');
+
+  it("a .ts module with a relative import and a .js module run; a fault is located in the file, line and column", async () => {
+    const ok = stepwell(["run", "ring-wave", "--stepper-module", join(plain, "euler.ts"), "--dt", "10", "--steps", "3", "--json", join(dir, "outside.json")]);
+    expect((await ok.done).code, ok.err()).toBe(0);
+    expect(JSON.parse(readFileSync(join(dir, "outside.json"), "utf8"))).toMatchObject({ status: "completed", method: "outside-euler", steps: 3 });
+    const js = stepwell(["run", "ring-wave", "--stepper-module", join(plain, "euler.js"), "--dt", "10", "--steps", "2"]);
+    expect((await js.done).code, js.err()).toBe(0);
+    const fault = stepwell(["run", "ring-wave", "--stepper-module", join(plain, "euler.ts"), "--dt", "10", "--steps", "6"]);
+    expect((await fault.done).code).toBe(2);
+    expect(fault.err()).toMatch(/step at t = 40 s threw: RangeError: deliberate fault \(at .*euler\.ts:10:\d+\)/);
+    expect(fault.err()).not.toMatch(/stepwell-module|CommonJS|require\(\)/);
+  });
+
+  it("unpack writes a sandbox export's code and a scenario naming it; run refuses the export itself with one line", async () => {
+    const exported = join(plain, "exported.json");
+    writeFileSync(exported, JSON.stringify({
+      name: "exported", mesh: { type: "periodic-hex", cellsX: 8, cellsY: 8, spacing: 20000 }, layers: [{ thickness: 500, density: 1025 }],
+      physics: { f0: 1e-4 }, initial: { type: "bump", amplitude: 1, radius: 60000 }, stepper: { module: "editor:outside-euler", method: "user-module", dt: 10 }, duration: 30,
+      stepperCode: { name: "outside-euler", language: "ts", source: readFileSync(join(plain, "euler.ts"), "utf8").replace('import { scale } from "./helper.js";', "const scale = (dt: number) => dt;") },
+    }));
+    const refused = stepwell(["run", exported]);
+    expect((await refused.done).code).toBe(2);
+    expect(refused.err().trim().split("\n")).toHaveLength(1);
+    expect(refused.err()).toMatch(/stepper\.module: "editor:outside-euler" is code from the sandbox's code panel.*stepwell unpack/);
+    const out = join(dir, "unpacked");
+    const u = stepwell(["unpack", exported, "--out", out]);
+    expect((await u.done).code, u.err()).toBe(0);
+    expect(readdirSync(out).sort()).toEqual(["exported-unpacked.json", "outside-euler.ts"]);
+    const again = stepwell(["unpack", exported, "--out", out]);
+    expect((await again.done).code).toBe(2);
+    expect(again.err()).toMatch(/--out: .*exists; choose another directory or add --force/);
+    const r = stepwell(["run", join(out, "exported-unpacked.json"), "--json", join(dir, "unpacked-run.json")]);
+    expect((await r.done).code, r.err()).toBe(0);
+    expect(JSON.parse(readFileSync(join(dir, "unpacked-run.json"), "utf8"))).toMatchObject({ status: "completed", method: "outside-euler", steps: 3 });
+  });
+});

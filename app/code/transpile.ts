@@ -6,7 +6,8 @@
 import { transform } from "sucrase";
 import { GREATEST_LOWER_BOUND, originalPositionFor, TraceMap } from "@jridgewell/trace-mapping";
 
-export type CodeLanguage = "ts" | "js";
+export type { CodeLanguage } from "../../solver/scenario/stepperCode.js";
+import type { CodeLanguage } from "../../solver/scenario/stepperCode.js";
 
 export interface Transpiled {
   ok: true;

@@ -4,29 +4,12 @@
  * scenario), and the spec that names a module loaded from it.
  */
 import type { StepperSpec } from "../../workers/protocol.js";
-import type { CodeLanguage } from "./transpile.js";
 
-export interface StepperCode {
-  /** The stepper's name as the editor last saw it (the key in local storage). */
-  name: string;
-  language: CodeLanguage;
-  source: string;
-}
+export { asStepperCode, declaredName, isEditorModule, MAX_SOURCE_CHARS, moduleKey, type StepperCode } from "../../solver/scenario/stepperCode.js";
+import { asStepperCode, isEditorModule, type StepperCode } from "../../solver/scenario/stepperCode.js";
 
-/** Longest source text the page accepts (from a link, a file or the editor) [characters]. */
-export const MAX_SOURCE_CHARS = 200_000;
 const STORE_PREFIX = "stepwell.code.";
 const LAST_KEY = "stepwell.code.last";
-
-/** Module keys of editor code: "editor:<name>" (never a path, so the CLI cannot mistake one for a file). */
-export const moduleKey = (name: string) => `editor:${name}`;
-export const isEditorModule = (spec: { module?: unknown } | undefined): boolean => typeof spec?.module === "string" && spec.module.startsWith("editor:");
-
-/** The `name: "…"` a module declares, read from its text (for storage before the code has ever run). */
-export function declaredName(source: string): string | null {
-  const m = /\bname\s*:\s*["'`]([a-z0-9-]+)["'`]/.exec(source);
-  return m ? m[1] : null;
-}
 
 export function saveCode(code: StepperCode): void {
   try {
@@ -51,14 +34,6 @@ export function lastCode(): StepperCode | null {
   } catch {
     return null;
   }
-}
-
-export function asStepperCode(v: unknown): StepperCode | null {
-  if (!v || typeof v !== "object") return null;
-  const c = v as Partial<StepperCode>;
-  if (typeof c.source !== "string" || c.source.length > MAX_SOURCE_CHARS) return null;
-  const language: CodeLanguage = c.language === "js" ? "js" : "ts";
-  return { name: typeof c.name === "string" && c.name ? c.name : declaredName(c.source) ?? "my-stepper", language, source: c.source };
 }
 
 /**

@@ -40,7 +40,7 @@ export async function main(
   try {
     if (rest.includes("--help")) { out(`usage: ${cmd.usage}\n  ${cmd.summary}`); return 0; }
     const parsed = parseArgs(rest, cmd.flags ?? []);
-    await preloadModules(parsed);
+    if (cmd.loadsModules !== false) await preloadModules(parsed);
     return await cmd.run(parsed, out, err, ctx);
   } catch (e) {
     if (e instanceof SolverError) {

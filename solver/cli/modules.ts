@@ -5,12 +5,14 @@
  * scenario, a `--steppers` file, a study slice — builds it like a built-in.
  */
 import { existsSync, readFileSync, statSync } from "node:fs";
+import { register as registerHooks } from "node:module";
 import { dirname, extname, isAbsolute, resolve } from "node:path";
 import { pathToFileURL } from "node:url";
 import { SolverError } from "../errors.js";
 import { registerModule } from "../time/userModules.js";
 import type { StepperDefinition } from "../time/interface.js";
 import { builtinScenario } from "../scenario/builtins.js";
+import { isEditorModule } from "../scenario/stepperCode.js";
 import type { ParsedArgs } from "./args.js";
 import { startDirectory } from "./paths.js";
 
@@ -34,10 +36,10 @@ export async function loadStepperModule(path: string, field: string, base?: stri
   if (!EXTENSIONS.includes(extname(abs))) throw new SolverError("bad-input", `${field}: ${abs} must be a .js, .mjs or .ts file`, field);
   let mod: Record<string, unknown>;
   try {
-    mod = (await import(pathToFileURL(abs).href)) as Record<string, unknown>;
+    mod = (await import(moduleUrl(abs))) as Record<string, unknown>;
   } catch (e) {
     const err = e as Error;
-    const at = /(\S+\.m?[jt]s):(\d+):(\d+)/.exec(err?.stack ?? "")?.slice(1, 4).join(":");
+    const at = /(\S+\.m?[jt]s)(?:\?[\w-]+)?:(\d+):(\d+)/.exec(err?.stack ?? "")?.slice(1, 4).join(":");
     throw new SolverError("bad-input", `${field}: cannot load ${abs}: ${err?.message?.split("\n")[0] ?? String(e)}${at ? ` (at ${at})` : ""}`, field);
   }
   if (mod.default === undefined) {
@@ -46,6 +48,25 @@ export async function loadStepperModule(path: string, field: string, base?: stri
   const definition = registerModule(abs, mod.default, abs);
   loaded.set(abs, definition);
   return { key: abs, definition };
+}
+
+/**
+ * A user's module is always an ES module, wherever it is saved: outside a package.json with "type": "module", Node
+ * would read a `.ts` or `.js` file as CommonJS, where `export default` fails. A resolve hook (moduleFormatHook.mjs, node:module
+ * `register`, registered once per thread) gives the format "module" to every URL carrying MODULE_QUERY and passes the query on
+ * to the files such a module imports by relative path; the TypeScript loader the CLI runs under then strips types as
+ * usual. Locations in messages drop the query (see time/instantiate.ts).
+ */
+export const MODULE_QUERY = "stepwell-module";
+let formatHook = false;
+function moduleUrl(abs: string): string {
+  const ext = extname(abs);
+  if (ext === ".mjs" || ext === ".mts") return pathToFileURL(abs).href;
+  if (!formatHook) {
+    formatHook = true;
+    try { registerHooks("./moduleFormatHook.mjs", import.meta.url); } catch { /* a host without module hooks: Node's own rule applies */ }
+  }
+  return `${pathToFileURL(abs).href}?${MODULE_QUERY}`;
 }
 
 /** A module loaded by `preloadModules`, looked up synchronously by the commands. */
@@ -94,6 +115,10 @@ export async function preloadModules(args: ParsedArgs): Promise<void> {
     const file = userPath(scenarioArg);
     const raw = readJson(file) as { stepper?: { module?: unknown } } | undefined;
     const m = raw?.stepper?.module;
+    if (typeof mod !== "string" && raw?.stepper && isEditorModule(raw.stepper)) {
+      throw new SolverError("bad-input", `stepper.module: "${String(m)}" is code from the sandbox's code panel, carried in this file as stepperCode; ` +
+        `the command line does not run code from inside a scenario — write it out with \`stepwell unpack ${scenarioArg}\`, read it, then run the file that prints`, "stepper.module");
+    }
     if (typeof m === "string" && typeof mod !== "string") await loadStepperModule(m, "stepper.module", dirname(file));
   }
 }

@@ -16,7 +16,7 @@ export function locateFault(err: unknown, origin?: string): string | undefined {
   for (const line of stack.split("\n")) {
     if (!line.includes(base) && !line.includes(origin)) continue;
     const m = /((?:file:\/\/)?[^\s()]+):(\d+):(\d+)/.exec(line);
-    if (m) return `${m[1].replace(/^file:\/\//, "")}:${m[2]}:${m[3]}`;
+    if (m) return `${m[1].replace(/^file:\/\//, "").replace(/\?[\w-]+$/, "")}:${m[2]}:${m[3]}`;
   }
   return undefined;
 }
