@@ -16,28 +16,11 @@ import type { Checkpoint, ChunkReport, InitResult, LoadedModule, MapView, Method
 import { probeCell } from "./probe.js";
 import { netcdfSnapshot } from "./netcdfSnapshot.js";
 import { startFromFile, type StartStateInfo } from "./startState.js";
+import { failure, guarded } from "./guarded.js";
 
 let run: Run | undefined;
 let work: FieldWork | undefined;
 
-function failure(e: unknown): WorkerFailure {
-  if (e && typeof e === "object" && (e as { name?: string }).name === "SolverError") {
-    const s = e as { code: string; field?: string; message: string };
-    return { name: "SolverError", code: s.code, field: s.field, message: s.message };
-  }
-  return { name: "WorkerError", code: "internal", message: e instanceof Error ? e.message : String(e) };
-}
-
-/** Run `f`, turning any exception into a rejected promise carrying a WorkerFailure. */
-function guarded<A extends unknown[], R>(f: (...a: A) => R): (...a: A) => R {
-  return (...a: A) => {
-    try {
-      return f(...a);
-    } catch (e) {
-      throw failure(e);
-    }
-  };
-}
 
 function current(): Run {
   if (!run) throw { name: "WorkerError", code: "no-run", message: "no scenario is loaded yet" } satisfies WorkerFailure;

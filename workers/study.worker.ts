@@ -4,7 +4,6 @@
  * every failure leaves as a plain WorkerFailure (comlink would keep only the message of a thrown Error).
  */
 import { expose, transfer } from "comlink";
-import type { WorkerFailure } from "./protocol.js";
 import {
   adoptReference, finishSweepStudy, planStability, planSweepStudy, stabilityItem, summarizeReference, sweepItem, sweepReference,
   type ItemProgress, type ReferenceRecord, type ReferenceSummary, type StabilityRequest, type SweepPlan, type SweepRequest, type SweepRow,
@@ -14,24 +13,8 @@ import {
   adoptMembers, finishStatisticsStudy, planStatisticsStudy, statisticsItem, statisticsMember, statisticsReference,
   type StatisticsPlan, type StatisticsReferenceSummary, type StatisticsRequest, type StatisticsRow, type StatisticValues,
 } from "./statisticsWork.js";
+import { failure, guarded } from "./guarded.js";
 
-function failure(e: unknown): WorkerFailure {
-  if (e && typeof e === "object" && (e as { name?: string }).name === "SolverError") {
-    const s = e as { code: string; field?: string; message: string };
-    return { name: "SolverError", code: s.code, field: s.field, message: s.message };
-  }
-  return { name: "WorkerError", code: "internal", message: e instanceof Error ? e.message : String(e) };
-}
-
-function guarded<A extends unknown[], R>(f: (...a: A) => R): (...a: A) => R {
-  return (...a: A) => {
-    try {
-      return f(...a);
-    } catch (e) {
-      throw failure(e);
-    }
-  };
-}
 
 /** Forward progress at most every 100 ms (each call is a message to the page). */
 function throttled(f?: ItemProgress): ItemProgress | undefined {
