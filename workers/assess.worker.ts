@@ -7,7 +7,7 @@ import { assess } from "../solver/studies/assess.js";
 import { buildScenario } from "../solver/scenario/build.js";
 import { builtinScenario } from "../solver/scenario/builtins.js";
 import { parseScenario } from "../solver/scenario/schema.js";
-import { registerModule } from "../solver/time/userModules.js";
+import { importUserModule, moduleUrl } from "./userModule.js";
 import type { StepperConfig } from "../solver/studies/stability.js";
 
 export interface AssessRequest {
@@ -32,10 +32,9 @@ const post = (m: AssessMessage) => (self as unknown as Worker).postMessage(m);
 
 self.onmessage = async (ev: MessageEvent<AssessRequest>) => {
   const q = ev.data;
-  const origin = URL.createObjectURL(new Blob([q.code], { type: "text/javascript" }));
+  const origin = moduleUrl(q.code);
   try {
-    const mod = (await import(/* @vite-ignore */ origin)) as { default?: unknown };
-    registerModule(q.key, mod.default, origin);
+    await importUserModule(q.key, origin);
     const clock = () => performance.now() / 1000;
     let last = 0;
     const report = assess(buildScenario(parseScenario(q.scenario)), { ...q.options, module: q.key, method: "user-module" } as StepperConfig, {

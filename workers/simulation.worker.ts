@@ -11,7 +11,7 @@ import { parseScenarioText, type StepperSpec } from "../solver/scenario/schema.j
 import { BUILTIN_SCENARIOS } from "../solver/scenario/builtins.js";
 import { listMethods } from "../solver/time/registry.js";
 import { describeOptions, optionChoices } from "../solver/time/optionChoices.js";
-import { registerModule } from "../solver/time/userModules.js";
+import { importUserModule, moduleUrl } from "./userModule.js";
 import type { Checkpoint, ChunkReport, InitResult, LoadedModule, MapView, MethodSummary, Snapshot, StepperInfo, StepperSpec as Spec, WorkerFailure } from "./protocol.js";
 import { probeCell } from "./probe.js";
 import { netcdfSnapshot } from "./netcdfSnapshot.js";
@@ -141,11 +141,10 @@ const api = {
   }),
   /** Import a user module's JavaScript through a Blob URL, check its default export and register it under `key`. */
   loadModule: async (key: string, code: string): Promise<LoadedModule> => {
-    const url = URL.createObjectURL(new Blob([code], { type: "text/javascript" }));
+    const origin = moduleUrl(code);
     try {
-      const mod = (await import(/* @vite-ignore */ url)) as { default?: unknown };
-      const def = registerModule(key, mod.default, url);
-      return { key, name: def.name, order: def.order, description: def.description, origin: url, choices: describeOptions(def, run?.model.params.nLayers ?? 1) };
+      const def = await importUserModule(key, origin);
+      return { key, name: def.name, order: def.order, description: def.description, origin, choices: describeOptions(def, run?.model.params.nLayers ?? 1) };
     } catch (e) {
       throw failure(e);
     }

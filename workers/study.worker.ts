@@ -14,6 +14,7 @@ import {
   type StatisticsPlan, type StatisticsReferenceSummary, type StatisticsRequest, type StatisticsRow, type StatisticValues,
 } from "./statisticsWork.js";
 import { failure, guarded } from "./guarded.js";
+import { importUserModule, moduleUrl } from "./userModule.js";
 
 
 /** Forward progress at most every 100 ms (each call is a message to the page). */
@@ -29,6 +30,16 @@ function throttled(f?: ItemProgress): ItemProgress | undefined {
 }
 
 const api = {
+  /** Load a user's module (the code panel's) under its key before a study that names it; returns the origin of fault places. */
+  loadModule: async (key: string, code: string): Promise<string> => {
+    const origin = moduleUrl(code);
+    try {
+      await importUserModule(key, origin);
+      return origin;
+    } catch (e) {
+      throw failure(e);
+    }
+  },
   parseSteppers: guarded((text: string) => parseSteppers(text)),
   planStability: guarded((req: StabilityRequest) => planStability(req)),
   stabilityItem: guarded((req: StabilityRequest, k: number, onItem?: ItemProgress) => stabilityItem(req, k, throttled(onItem))),

@@ -45,7 +45,8 @@ export type PartialStability = (StabilityResult | undefined)[];
 const CANCELLED: WorkerFailure = { name: "WorkerError", code: "cancelled", message: "study cancelled" };
 export const isCancelled = (e: unknown) => !!e && typeof e === "object" && (e as WorkerFailure).code === "cancelled";
 
-interface Slot { worker: Worker; remote: Remote<StudyApi>; died: Promise<never> }
+/** A worker, and the user modules it has loaded (key → code). */
+interface Slot { worker: Worker; remote: Remote<StudyApi>; died: Promise<never>; modules: Map<string, string> }
 
 export function poolSize(): number {
   const n = typeof navigator !== "undefined" ? navigator.hardwareConcurrency : 1;
@@ -70,9 +71,38 @@ export class StudyPool {
         }, { once: true });
       });
       died.catch(() => undefined);
-      this.slots.push({ worker, remote: wrap<StudyApi>(worker), died });
+      this.slots.push({ worker, remote: wrap<StudyApi>(worker), died, modules: new Map() });
     }
     return this.slots.slice(0, n);
+  }
+
+  private modules: { key: string; code: string }[] = [];
+  private origins: string[] = [];
+
+  /**
+   * The user modules (the code panel's, as JavaScript) that the steppers of the next study may name by key; every
+   * worker imports them before its first item. Nothing is imported until a study starts.
+   */
+  setModules(modules: { key: string; code: string }[]): void {
+    this.modules = modules;
+  }
+
+  /** The Blob URLs the workers imported user code from (fault messages name places in them). */
+  moduleOrigins(): readonly string[] {
+    return this.origins;
+  }
+
+  /** `n` workers, each with the current user modules loaded. */
+  private async ready(n: number): Promise<Slot[]> {
+    const slots = this.ensure(n);
+    await Promise.all(slots.map(async (slot) => {
+      for (const m of this.modules) {
+        if (slot.modules.get(m.key) === m.code) continue;
+        this.origins.push(await this.call(slot, (r) => r.loadModule(m.key, m.code)));
+        slot.modules.set(m.key, m.code);
+      }
+    }));
+    return slots;
   }
 
   /** The steppers of a study from the method-list syntax, parsed by the solver's own parser (errors name the field). */
@@ -166,7 +196,7 @@ export class StudyPool {
     const n = Math.min(this.size, Math.max(1, req.steppers.length));
     const track = this.tracker(req.steppers.map(() => 1), onProgress, n);
     try {
-      const slots = this.ensure(n);
+      const slots = await this.ready(n);
       await this.call(slots[0], (r) => r.planStability(req));
       track.start();
       await this.runItems(slots, req.steppers.map((_, k) => k), results,
@@ -191,14 +221,14 @@ export class StudyPool {
     let n = 1;
     const t0 = performance.now();
     try {
-      const first = this.ensure(1)[0];
+      const first = (await this.ready(1))[0];
       const plan = await this.call(first, (r) => r.planStatistics(req));
       partial.plan = plan;
       const M = plan.ensemble.members;
       partial.rows = new Array(plan.nItems).fill(undefined);
       const fields: (StatisticFields | null)[] = new Array(plan.nItems).fill(null);
       n = Math.min(this.size, Math.max(M, plan.nItems));
-      const slots = this.ensure(n);
+      const slots = await this.ready(n);
       // one weight list: members 0…M−1, then rows M…M+nItems−1 (each weighted by its steps)
       const weights = [...Array.from({ length: M }, () => plan.reference.steps), ...Array.from({ length: plan.nItems }, (_, k) => plan.dts[k % plan.dts.length].steps)];
       const track = this.tracker(weights, onProgress, n);
@@ -233,12 +263,12 @@ export class StudyPool {
     let n = 1;
     const t0 = performance.now();
     try {
-      const first = this.ensure(1)[0];
+      const first = (await this.ready(1))[0];
       const plan = await this.call(first, (r) => r.planSweep(req));
       partial.plan = plan;
       partial.rows = new Array(plan.nItems).fill(undefined);
       n = Math.min(this.size, plan.nItems);
-      const slots = this.ensure(n);
+      const slots = await this.ready(n);
       // weights: steps of each run; the reference (fine run + its check at twice the Δt) is item −1, shown first
       const weights = [...Array.from({ length: plan.nItems }, (_, k) => plan.dts[k % plan.dts.length].steps), 1.5 * plan.reference.steps];
       const REF = plan.nItems;

@@ -71,6 +71,9 @@ function moduleUrl(abs: string): string {
 
 /** A module loaded by `preloadModules`, looked up synchronously by the commands. */
 export function loadedModule(path: string, field: string, base?: string): { key: string; definition: StepperDefinition } {
+  if (isEditorModule({ module: path })) {
+    throw new SolverError("bad-input", `${field}: "${path}" names a stepper in the sandbox's code panel; on the command line give its module file instead (save the code as a .ts file)`, field);
+  }
   const key = userPath(path, base);
   const definition = loaded.get(key);
   if (!definition) throw new SolverError("bad-input", `${field}: stepper module file not found: ${key}`, field);

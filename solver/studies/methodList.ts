@@ -1,8 +1,10 @@
 /**
  * The method-list syntax of the study commands and the sandbox's study page:
- * `rk4,exprb32(linear=modes:1;backend=krylov)` → stepper configs. No I/O, so the browser's workers use it too.
+ * `rk4,exprb32(linear=modes:1;backend=krylov)` → stepper configs; `editor:NAME` names
+ * the sandbox's code-panel stepper NAME. No I/O, so the browser's workers use it too.
  */
 import { SolverError } from "../errors.js";
+import { EDITOR_MODULE_PREFIX } from "../scenario/stepperCode.js";
 import type { StepperConfig } from "./stability.js";
 
 /** Split at commas that are not inside parentheses. */
@@ -34,9 +36,10 @@ function optionValue(v: string): unknown {
 export function parseMethodList(text: string, field: string): StepperConfig[] {
   if (text.trim() === "") throw new SolverError("bad-input", `${field}: must be a comma-separated list of methods, e.g. rk4,ssprk3`, field);
   return splitTop(text, field).map((entry, i) => {
-    const m = /^\s*([A-Za-z0-9_.+-]+)\s*(?:\((.*)\))?\s*$/s.exec(entry);
+    const m = /^\s*((?:editor:)?[A-Za-z0-9_.+-]+)\s*(?:\((.*)\))?\s*$/s.exec(entry);
     if (!m) throw new SolverError("bad-input", `${field}: entry ${i + 1} "${entry}" is not METHOD or METHOD(key=value;…)`, field);
-    const spec: StepperConfig = { method: m[1] };
+    // "editor:<name>": the sandbox's code-panel stepper of that name (a user module loaded under that key)
+    const spec: StepperConfig = m[1].startsWith(EDITOR_MODULE_PREFIX) ? { method: "user-module", module: m[1] } : { method: m[1] };
     if (m[2] !== undefined && m[2].trim() !== "") {
       for (const pair of m[2].split(";")) {
         const eq = pair.indexOf("=");

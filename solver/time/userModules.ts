@@ -22,7 +22,10 @@ export function registerModule(key: string, exported: unknown, origin = key): St
 /** The definition registered under `key`; a clear error when it was never loaded. */
 export function moduleDefinition(key: string, field = "stepper.module"): Loaded {
   const m = table.get(key);
-  if (!m) throw new SolverError("bad-input", `${field}: stepper module "${key}" is not loaded`, field);
+  if (!m) {
+    const hint = key.startsWith("editor:") ? " (it names a stepper of the sandbox's code panel: in the page, write or open it there first; on the command line, give its module file instead)" : "";
+    throw new SolverError("bad-input", `${field}: stepper module "${key}" is not loaded${hint}`, field);
+  }
   return m;
 }
 
