@@ -146,7 +146,6 @@ export function statisticsMemberSlice(args: ParsedArgs, _shard: Shard, payload: 
   const work: MemberWork = { run: null, acc: null };
   const records: ReferenceRecord[] = [];
   for (const m of take(queue, [])) {
-    tracker.report(`reference member ${m + 1}/${plan.ensemble.members}`);
     records.push(computeMember(built, plan, m, tracker, solver, work));
     tracker.done++;
   }
