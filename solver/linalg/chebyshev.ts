@@ -281,7 +281,7 @@ export function chebyshevPhi(op: LinearOperator, opts: PhiOptions): ChebyshevPhi
       for (let i = 0; i < nT; i++) if (lastJ[i] < 0) outs[i].set(v[0]); else outs[i].fill(0);
       for (let j = 0; j <= Jmax; j++) {
         if (j >= 1) {
-          // P_j v_k from P_{j−1} (cur) and P_{j−2} (prev): into fwdA at j = 1 and 2 ... alternating buffers
+          // P_j v_k from P_{j−1} (cur) and P_{j−2} (prev): j = 1 into fwdA, j = 2 into fwdB, then over P_{j−2} in place
           for (let k = 0; k <= p; k++) {
             if (vZero[k]) continue;
             op.apply(tmp, cur[k]);
