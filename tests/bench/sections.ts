@@ -7,5 +7,6 @@ export interface BenchSection {
 import { demoSection, operatorSection, phiSection } from "./fastSteppers";
 import { scalingSection } from "./scaling";
 import { memorySection } from "./memory";
+import { phiSharingSection } from "./phiSharing";
 
-export const EXTRA_SECTIONS: BenchSection[] = [operatorSection, phiSection, demoSection, scalingSection, memorySection];
+export const EXTRA_SECTIONS: BenchSection[] = [operatorSection, phiSection, phiSharingSection, demoSection, scalingSection, memorySection];
