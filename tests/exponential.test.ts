@@ -2,10 +2,11 @@ import { describe, expect, it } from "vitest";
 import * as math from "mathjs";
 import { createRun, type Run } from "../solver/driver/run";
 import { createStepper, listMethods } from "../solver/time/registry";
-import { exponentialRk, tableMaxPhi } from "../solver/time/exponential";
+import { exponentialRk, phiPlan, tableMaxPhi } from "../solver/time/exponential";
 import { problemFor } from "../solver/model/problem";
 import * as tables from "../solver/time/expTables";
-import { checkExpTable, EXP_TABLES, type ExpRkTable } from "../solver/time/expTables";
+import { checkExpTable, ETDRK4, EXP_TABLES, parseExpTable, type ExpRkTable } from "../solver/time/expTables";
+import { execute } from "../solver/driver/execute";
 import { restLinearOperator } from "../solver/model/linear";
 import { phiReal } from "../solver/linalg/scalarPhi";
 import { seededRandom } from "../solver/mesh/hexLattice";
@@ -262,5 +263,84 @@ describe("matvecs and inner products are reported from the operator counters", (
       if (backend === "krylov") expect(st.stats.innerProducts).toBeGreaterThan(0);
       else if (backend !== "taylor") expect(st.stats.innerProducts).toBe(0);
     });
+  }
+});
+
+describe("φ-actions shared across stages (one basis for every τ of one vector set)", () => {
+  // Every exponential method in the registry: its table (custom-exp: ETD2RK of Cox & Matthews 2002 written as a user table).
+  const userTable = parseExpTable({ c: [0, 1], a: [[], [[{ k: 1, coef: 1 }]]], b: [[{ k: 1, coef: 1 }, { k: 2, coef: -1 }], [{ k: 2, coef: 1 }]], order: 2 });
+  const tableOf = (name: string) => (name === "custom-exp" ? userTable : EXP_TABLES.find((t) => t.name === name));
+  const allExponential = listMethods().filter((m) => m.family === "exponential" || m.family === "exponential-rosenbrock");
+  const exponentialMethods = allExponential.filter((m) => tableOf(m.name) !== undefined);
+
+  it("covers every exponential method in the registry (exp-ab2, a multistep method, has one φ-action per step and no table)", () => {
+    expect(exponentialMethods.length).toBe(EXP_TABLES.length + 1);
+    expect(allExponential.filter((m) => !tableOf(m.name)).map((m) => m.name)).toEqual(["exp-ab2"]);
+  });
+
+  // φ-actions per step from the table structure (row-sum form, Hochbruck & Ostermann 2010 §2.3): one per node of
+  // each row; F(x_n)-only rows share one. Cox & Matthews (2002) ETDRK4: stage 1 F0 at h/2, stage 2 F0 + D1 at h/2,
+  // stage 3 F0 at h and D2 at h/2 (a_41 = φ1(z) − φ1(z/2)), the weights at h: 5 → 4, stage 1 and stage 3's F0 one
+  // basis. Krogstad (2005): every stage after the first has D terms at its own node: 4 → 4. ETD2RK, exprb32 2;
+  // exprb43 (Hochbruck, Ostermann & Schweitzer 2009) 3; exponential Euler, exprb2 1.
+  const expected: Record<string, [number, number]> = {
+    "exp-euler": [1, 1], etd2rk: [2, 2], etdrk4: [5, 4], "etdrk4-krogstad": [4, 4],
+    exprb2: [1, 1], exprb32: [2, 2], exprb43: [3, 3], "custom-exp": [2, 2],
+  };
+  it("φ-actions per step: before → after sharing, as counted from the tables", () => {
+    for (const m of exponentialMethods) {
+      const t = tableOf(m.name)!;
+      expect([phiPlan(t, false).jobs.length, phiPlan(t).jobs.length], m.name).toEqual(expected[m.name]);
+    }
+    // the shared action of ETDRK4 is F(x_n) alone at τ = h/2 and h
+    const shared = phiPlan(ETDRK4).jobs.find((j) => j.ats.length > 1)!;
+    expect(shared.terms).toEqual([{ j: 0, k: 1, w: 1 }]);
+    expect(shared.ats).toEqual([0.5, 1]);
+  });
+
+  it("the problem counts 4 φ-actions per ETDRK4 step (5 before), 4 for Krogstad's", () => {
+    const run = createRun(scenario());
+    const perStep = (method: string, backend: string) => {
+      run.setStepper({ method, dt: 300, linear: "modes:1", backend } as Parameters<typeof run.setStepper>[0]);
+      run.reset();
+      return execute(run, { steps: 3 }).phiActionsPerStep;
+    };
+    expect(perStep("etdrk4", "krylov")).toBe(4);
+    expect(perStep("etdrk4", "chebyshev")).toBe(4);
+    expect(perStep("etdrk4", "taylor")).toBe(4); // fallback: one apply per τ inside, still one φ-action
+    expect(perStep("etdrk4-krogstad", "krylov")).toBe(4);
+  });
+
+  // Grouped against ungrouped evaluation (the engine before sharing), three steps of a nonlinear three-layer
+  // run at 20× the RK4 limit: both within the φ tolerance of each other (common practice, no source).
+  const run = createRun(scenario());
+  const model = run.model;
+  const x0 = Float64Array.from(run.state);
+  const dt = 20 * run.rk4DtLimit();
+  for (const m of exponentialMethods) {
+    const t = tableOf(m.name)!;
+    const combos: [string, string][] = t.linearPart === "jacobian"
+      ? [["jacobian", "krylov"], ["modes:1", "chebyshev"]]
+      : [["rest", "krylov"], ["modes:1", "krylov"], ["modes:1", "chebyshev"], ["rest", "taylor"]];
+    for (const [linear, backend] of combos) {
+      it(`${m.name}, linear ${linear}, ${backend}: shared and per-row φ-actions agree to 1e-9 over three steps`, () => {
+        const xs = [true, false].map((share) => {
+          const part = problemFor(model).linear(linear);
+          const step = exponentialRk(t, run.problem, part, part.phi({ backend, tolerance: 1e-11, maxPhi: tableMaxPhi(t) }), share);
+          const x = Float64Array.from(x0);
+          for (let s = 0; s < 3; s++) step(x, s * dt, dt);
+          return x;
+        });
+        const { uOffset } = model.layout;
+        let err = 0, scale = 0;
+        for (let i = 0; i < x0.length; i++) {
+          const d = (x0[i] - xs[1][i]) / (i < uOffset ? 1 : 0.01); // change over the steps, thickness in m, velocity in cm/s
+          scale = Math.max(scale, Math.abs(d));
+          err = Math.max(err, Math.abs(xs[0][i] - xs[1][i]) / (i < uOffset ? 1 : 0.01));
+        }
+        expect(scale).toBeGreaterThan(0);
+        expect(err / scale).toBeLessThan(1e-9);
+      });
+    }
   }
 });

@@ -155,17 +155,19 @@ export function chebyshevPhi(op: LinearOperator, opts: PhiOptions): ChebyshevPhi
     return J;
   }
 
-  function apply(out: Float64Array, tau: number, v: readonly Float64Array[]): void {
-    const mv0 = op.counters.matvecs;
+  /** Highest φ index in use and the zero flags of v; throws past maxPhi. */
+  function scan(v: readonly Float64Array[]): number {
     const p = highestNonZero(v);
     if (p > P) throw new SolverError("bad-input", `chebyshev: phi index ${p} exceeds maxPhi ${P}`, "phi.apply");
-    if (p < 0) { out.fill(0); terms = 0; stats.matvecs = 0; stats.errorEstimate = 0; return; }
     for (let k = 0; k <= p; k++) vZero[k] = isZero(v[k]) ? 1 : 0;
+    return p;
+  }
+
+  /** Coefficients a_{kj} (in coef, row stride cap) of the combination at τ > 0; returns the last term J. */
+  function coefficients(tau: number, p: number): number {
     const R = tau * rho!;
-    if (R === 0) { out.set(v[0]); terms = 0; stats.matvecs = 0; stats.errorEstimate = 0; return; }
     let J: number;
-    const besselOnly = p === 0 && !filter;
-    if (besselOnly) {
+    if (p === 0 && !filter) {
       const start = millerStart(R, 0);
       ensure(start + 2);
       besselJInto(bessel, R, start);
@@ -185,7 +187,12 @@ export function chebyshevPhi(op: LinearOperator, opts: PhiOptions): ChebyshevPhi
         N *= 2;
       }
     }
-    // Clenshaw: b_j = u_j + (2/ρ) A b_{j+1} + b_{j+2};  out = u_0 + (1/ρ) A b_1 + b_2
+    return J;
+  }
+
+  /** out = Σ_j P_j(A) u_j, u_j = Σ_k a_{kj} v_k with a_{kj} = c[base + k·stride + j], by Clenshaw. */
+  function clenshaw(out: Float64Array, v: readonly Float64Array[], p: number, J: number, c: Float64Array, base: number, stride: number): void {
+    // b_j = u_j + (2/ρ) A b_{j+1} + b_{j+2};  out = u_0 + (1/ρ) A b_1 + b_2
     let b1 = bA, b2 = bB; // b_{j+1}, b_{j+2}
     b1.fill(0); b2.fill(0);
     const alpha = 2 / rho!;
@@ -195,7 +202,7 @@ export function chebyshevPhi(op: LinearOperator, opts: PhiOptions): ChebyshevPhi
       // new b_j written over b_{j+2}
       for (let i = 0; i < n; i++) {
         let u = 0;
-        for (let k = 0; k <= p; k++) if (!vZero[k]) u += coef[k * cap + j] * v[k][i];
+        for (let k = 0; k <= p; k++) if (!vZero[k]) u += c[base + k * stride + j] * v[k][i];
         b2[i] = u + (haveB1 ? alpha * tmp[i] : 0) + b2[i];
       }
       const t = b1; b1 = b2; b2 = t;
@@ -205,10 +212,101 @@ export function chebyshevPhi(op: LinearOperator, opts: PhiOptions): ChebyshevPhi
     const inv = 1 / rho!;
     for (let i = 0; i < n; i++) {
       let u = 0;
-      for (let k = 0; k <= p; k++) if (!vZero[k]) u += coef[k * cap] * v[k][i];
+      for (let k = 0; k <= p; k++) if (!vZero[k]) u += c[base + k * stride] * v[k][i];
       out[i] = J >= 1 ? u + inv * tmp[i] + b2[i] : u;
     }
+  }
+
+  function apply(out: Float64Array, tau: number, v: readonly Float64Array[]): void {
+    const mv0 = op.counters.matvecs;
+    const p = scan(v);
+    if (p < 0) { out.fill(0); terms = 0; stats.matvecs = 0; stats.errorEstimate = 0; return; }
+    if (tau * rho! === 0) { out.set(v[0]); terms = 0; stats.matvecs = 0; stats.errorEstimate = 0; return; }
+    const J = coefficients(tau, p);
+    clenshaw(out, v, p, J, coef, 0, cap);
     terms = J;
+    stats.matvecs = op.counters.matvecs - mv0;
+  }
+
+  // multi-time work: coefficients of every time (grown rarely), and the forward Chebyshev vectors of each v_k
+  let multiCoef = new Float64Array(0);
+  let lastJ = new Int32Array(0), offsets = new Int32Array(0);
+  const fwdA: Float64Array[] = [], fwdB: Float64Array[] = [];
+  const cur: Float64Array[] = [], prev: Float64Array[] = [];
+
+  /**
+   * outs[i] = Σ_k τ_i^k φ_k(τ_i A) v_k for every τ_i. The Chebyshev vectors P_j(A) v_k do not depend on τ: when
+   * (non-zero v_k) × (largest term count) matvecs are fewer than one Clenshaw sum per time, they are formed once
+   * by the forward recurrence P_{j+1} = (2/ρ) A P_j + P_{j−1} (bounded: ‖P_j(A)‖ ≤ 1 for the skew A) and every
+   * time sums its own coefficients over them; otherwise each time is summed by Clenshaw with its coefficients.
+   */
+  function applyTimes(outs: readonly Float64Array[], taus: readonly number[], v: readonly Float64Array[]): void {
+    const nT = taus.length;
+    if (outs.length < nT) throw new SolverError("bad-input", `chebyshev: ${nT} times but ${outs.length} outputs`, "phi.applyTimes");
+    const mv0 = op.counters.matvecs;
+    const p = scan(v);
+    stats.errorEstimate = 0;
+    if (p < 0) { for (let i = 0; i < nT; i++) outs[i].fill(0); terms = 0; stats.matvecs = 0; return; }
+    if (lastJ.length < nT) { lastJ = new Int32Array(nT); offsets = new Int32Array(nT); }
+    // coefficients of each time, rows k = 0..p of length J_i + 1
+    let used = 0, Jmax = 0, sumJ = 0, nonZero = 0, est = 0;
+    for (let k = 0; k <= p; k++) if (!vZero[k]) nonZero++;
+    for (let i = 0; i < nT; i++) {
+      const tau = taus[i];
+      if (!(Number.isFinite(tau) && tau >= 0)) throw new SolverError("bad-input", `chebyshev: time ${tau} must be finite and ≥ 0`, "phi.applyTimes");
+      if (tau * rho! === 0) { lastJ[i] = -1; continue; }
+      const J = coefficients(tau, p);
+      est = Math.max(est, stats.errorEstimate);
+      const size = (p + 1) * (J + 1);
+      if (multiCoef.length < used + size) {
+        const grown = new Float64Array(Math.max(used + size, Math.ceil(multiCoef.length * 1.5)));
+        grown.set(multiCoef.subarray(0, used));
+        multiCoef = grown;
+      }
+      for (let k = 0; k <= p; k++) for (let j = 0; j <= J; j++) multiCoef[used + k * (J + 1) + j] = vZero[k] ? 0 : coef[k * cap + j];
+      offsets[i] = used; lastJ[i] = J;
+      used += size; Jmax = Math.max(Jmax, J); sumJ += J;
+    }
+    if (nonZero * Jmax >= sumJ) {
+      for (let i = 0; i < nT; i++) {
+        if (lastJ[i] < 0) outs[i].set(v[0]);
+        else clenshaw(outs[i], v, p, lastJ[i], multiCoef, offsets[i], lastJ[i] + 1);
+      }
+    } else {
+      for (let k = 0; k <= p; k++) {
+        if (fwdA.length <= k) { fwdA.push(new Float64Array(n)); fwdB.push(new Float64Array(n)); }
+        cur[k] = v[k]; prev[k] = v[k];
+      }
+      cur.length = p + 1; prev.length = p + 1;
+      for (let i = 0; i < nT; i++) if (lastJ[i] < 0) outs[i].set(v[0]); else outs[i].fill(0);
+      for (let j = 0; j <= Jmax; j++) {
+        if (j >= 1) {
+          // P_j v_k from P_{j−1} (cur) and P_{j−2} (prev): j = 1 into fwdA, j = 2 into fwdB, then over P_{j−2} in place
+          for (let k = 0; k <= p; k++) {
+            if (vZero[k]) continue;
+            op.apply(tmp, cur[k]);
+            const target = j === 1 ? fwdA[k] : j === 2 ? fwdB[k] : prev[k];
+            if (j === 1) for (let q = 0; q < n; q++) target[q] = tmp[q] / rho!;
+            else for (let q = 0; q < n; q++) target[q] = (2 / rho!) * tmp[q] + prev[k][q];
+            prev[k] = cur[k]; cur[k] = target;
+          }
+        }
+        for (let i = 0; i < nT; i++) {
+          const J = lastJ[i];
+          if (j > J) continue;
+          const o = outs[i], base = offsets[i] + j, stride = J + 1;
+          for (let k = 0; k <= p; k++) {
+            if (vZero[k]) continue;
+            const a = multiCoef[base + k * stride];
+            if (a === 0) continue;
+            const pk = cur[k];
+            for (let q = 0; q < n; q++) o[q] += a * pk[q];
+          }
+        }
+      }
+    }
+    terms = Jmax;
+    stats.errorEstimate = est;
     stats.matvecs = op.counters.matvecs - mv0;
   }
 
@@ -217,5 +315,6 @@ export function chebyshevPhi(op: LinearOperator, opts: PhiOptions): ChebyshevPhi
     stats,
     get terms() { return terms; },
     apply,
+    applyTimes,
   };
 }

@@ -313,22 +313,50 @@ export function krylovPhi(op: LinearOperator, opts: KrylovOptions): KrylovPhiAct
     }
   }
 
-  function run(out: Float64Array, tau: number, v: readonly Float64Array[]): void {
+  /** target = u(t + r) when no φ part is left: Σ_{l<p} r^l/l! w_l (exact). */
+  function polynomial(target: Float64Array, r: number): void {
+    target.fill(0);
+    for (let l = 0; l < p; l++) if (!wZero[l]) axpy(Math.pow(r, l) * inverseFactorial(l), W[l], target);
+    if (p === 0 && !wZero[0]) target.set(W[0]);
+  }
+
+  // the times of one call in ascending order, and those whose check failed with the shared basis
+  let order = new Int32Array(4);
+  let retry = new Uint8Array(4);
+  const oneOut: Float64Array[] = [new Float64Array(0)];
+  const oneTau: number[] = [0];
+
+  /**
+   * outs[i] = u(τ_i) for every τ_i, from one sequence of sub-steps over [0, max τ]: a time inside a sub-step
+   * [t, t+h] is read from that sub-step's basis, u(τ_i) = Σ_{l<p} s^l/l! w_l + β V s^p φ_p(sH) e_1 with
+   * s = τ_i − t, if the estimate at s passes the sub-step test scaled to τ_i (err ≤ ½ tol (s/τ_i) ‖u(τ_i)‖);
+   * otherwise that time is computed again on its own afterwards.
+   */
+  function run(outs: readonly Float64Array[], taus: readonly number[], v: readonly Float64Array[]): void {
+    const nT = taus.length;
+    if (nT === 0) return;
+    if (order.length < nT) { order = new Int32Array(nT); retry = new Uint8Array(nT); }
+    for (let i = 0; i < nT; i++) {
+      if (nT > 1 && !(Number.isFinite(taus[i]) && taus[i] >= 0)) throw new SolverError("bad-input", `krylov: time ${taus[i]} must be finite and ≥ 0`, "phi.apply");
+      let q = i;
+      while (q > 0 && taus[order[q - 1]] > taus[i]) { order[q] = order[q - 1]; q--; }
+      order[q] = i;
+      retry[i] = 0;
+    }
+    const tau = taus[order[nT - 1]];
     const top = highestNonZero(v);
-    if (top < 0) { out.fill(0); stats.errorEstimate = 0; return; }
+    if (top < 0) { for (let i = 0; i < nT; i++) outs[i].fill(0); stats.errorEstimate = 0; return; }
     if (top > P) throw new SolverError("bad-input", `krylov: phi index ${top} exceeds maxPhi ${P}`, "phi.apply");
     p = top;
     W[0].set(v[0]);
     derivatives(v);
     let forcingIsInput = true;
-    let t = 0, errSum = 0, lastScale = 0;
+    let t = 0, errSum = 0, lastScale = 0, errMax = 0, next = 0;
     while (true) {
       const rem = tau - t;
       if (wZero[p] || rem === 0) {
         // no φ part left: the polynomial is exact
-        out.fill(0);
-        for (let l = 0; l < p; l++) if (!wZero[l]) axpy(Math.pow(rem, l) * inverseFactorial(l), W[l], out);
-        if (p === 0 && !wZero[0]) out.set(W[0]);
+        for (; next < nT; next++) polynomial(outs[order[next]], taus[order[next]] - t);
         break;
       }
       for (let i = 0; i < p; i++) for (let j = 0; j <= i; j++) {
@@ -368,13 +396,27 @@ export function krylovPhi(op: LinearOperator, opts: KrylovOptions): KrylovPhiAct
       }
       if (restarted) continue; // fell back to full Arnoldi: redo this sub-step
       if (skewMode && eigRows !== m) decompose(true);
+      // earlier times that fall inside this sub-step, from the same basis
+      for (; next < nT && taus[order[next]] - t < h; next++) {
+        const i = order[next], si = taus[i] - t;
+        if (si <= 0) { polynomial(outs[i], 0); continue; }
+        smallFunctions(si, 0);
+        const ev = evaluate(si, true);
+        if (breakdown || opts.fixedDim !== undefined || ev.err <= SAFETY * tol * (si / taus[i]) * ev.scale) {
+          combine(outs[i], 0, si);
+          if (ev.scale > 0) errMax = Math.max(errMax, (errSum + ev.err) / ev.scale);
+        } else retry[i] = 1;
+      }
       smallFunctions(h, 0);
       lastScale = evaluate(h, true).scale;
       errSum += err;
       stats.substeps++;
       if (breakdown) stats.happyBreakdown = true;
       if (h >= rem) {
-        combine(out, 0, h);
+        // the times left all equal the largest
+        const first = outs[order[next]];
+        combine(first, 0, h);
+        for (next++; next < nT; next++) outs[order[next]].set(first);
         break;
       }
       // restart at t+h: u(t+h) from the basis, forcing re-expanded about t+h (exact), then
@@ -389,7 +431,17 @@ export function krylovPhi(op: LinearOperator, opts: KrylovOptions): KrylovPhiAct
       derivatives(F);
       t += h;
     }
-    stats.errorEstimate = lastScale > 0 ? errSum / lastScale : 0;
+    stats.errorEstimate = Math.max(errMax, lastScale > 0 ? errSum / lastScale : 0);
+    if (nT === 1) return;
+    // times the shared basis could not give to the tolerance: on their own (rare; the one-time call only
+    // touches order[0] and retry[0], which this ascending loop has passed)
+    for (let i = 0; i < nT; i++) {
+      if (!retry[i]) continue;
+      const est = stats.errorEstimate;
+      oneOut[0] = outs[i]; oneTau[0] = taus[i];
+      run(oneOut, oneTau, v);
+      stats.errorEstimate = Math.max(est, stats.errorEstimate);
+    }
   }
 
   /** Largest h ≤ rem passing the accept-test with the basis at hand (bisection). */
@@ -404,18 +456,27 @@ export function krylovPhi(op: LinearOperator, opts: KrylovOptions): KrylovPhiAct
     return lo > 0 ? lo : hi;
   }
 
+  function measured(outs: readonly Float64Array[], taus: readonly number[], v: readonly Float64Array[]): void {
+    const mv0 = op.counters.matvecs;
+    innerProducts = 0;
+    stats.substeps = 0; stats.happyBreakdown = false; stats.errorEstimate = NaN;
+    run(outs, taus, v);
+    stats.matvecs = op.counters.matvecs - mv0;
+    stats.innerProducts = innerProducts;
+    op.counters.innerProducts += innerProducts;
+  }
+
   return {
     name: "krylov",
     stats,
     get mode() { return skewMode ? "lanczos" as const : "arnoldi" as const; },
     apply(out, tau, v) {
-      const mv0 = op.counters.matvecs;
-      innerProducts = 0;
-      stats.substeps = 0; stats.happyBreakdown = false; stats.errorEstimate = NaN;
-      run(out, tau, v);
-      stats.matvecs = op.counters.matvecs - mv0;
-      stats.innerProducts = innerProducts;
-      op.counters.innerProducts += innerProducts;
+      oneOut[0] = out; oneTau[0] = tau;
+      measured(oneOut, oneTau, v);
+    },
+    applyTimes(outs, taus, v) {
+      if (outs.length < taus.length) throw new SolverError("bad-input", `krylov: ${taus.length} times but ${outs.length} outputs`, "phi.applyTimes");
+      measured(outs, taus, v);
     },
   };
 }

@@ -55,6 +55,15 @@ export interface PhiAction {
   readonly name: string;
   readonly stats: PhiStats;
   apply(out: Float64Array, tau: number, v: readonly Float64Array[]): void;
+  /**
+   * outs[i] = Σ_{k=0}^{p} τ_i^k φ_k(τ_i A) v[k] for every τ_i of `taus` (one vector set, several times, in
+   * any order; outs[i] must not alias any v[k] or each other). Backends that can build one basis for all
+   * times implement it (krylov: one Krylov space, the error estimate checked per τ; chebyshev: the
+   * Chebyshev vectors shared, coefficients per τ); `applyAtTimes` (phiTimes.ts) falls back to one `apply`
+   * per τ for the others. The problem counts one call as one φ-action. `stats` then describe the whole call
+   * (errorEstimate: the largest over the times).
+   */
+  applyTimes?(outs: readonly Float64Array[], taus: readonly number[], v: readonly Float64Array[]): void;
 }
 
 /** Optional damping of the highest resolved frequencies (an exponential filter; common practice, no source); off by default. */

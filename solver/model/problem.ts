@@ -18,6 +18,7 @@
 import { SolverError } from "../errors.js";
 import type { LinearOperator, OperatorCounters, PhiAction, PhiBackendName, PhiFilter, PhiOptions } from "../linalg/types.js";
 import { createPhiAction, parsePhiFilter, phiBackends } from "../linalg/registry.js";
+import { applyAtTimes, growVectors } from "../linalg/phiTimes.js";
 import type { FastSlowSplit, LinearPart, PhiRequest, Problem, ProblemCounters, StateLayout } from "../time/interface.js";
 import { divergence, gradient } from "../mesh/operators.js";
 import type { Mesh } from "../mesh/types.js";
@@ -39,13 +40,24 @@ function similarityPhi(inner: PhiAction, n: number, maxPhi: number, to: (o: Floa
   for (let k = 0; k <= maxPhi; k++) w.push(new Float64Array(n));
   const z = new Float64Array(n);
   const wv: Float64Array[] = [];
+  const zs: Float64Array[] = [];
+  const into = (v: readonly Float64Array[]) => {
+    wv.length = 0;
+    for (let k = 0; k < v.length; k++) { to(w[k], v[k]); wv.push(w[k]); }
+  };
   return {
     name: inner.name, stats: inner.stats,
     apply(out, tau, v) {
-      wv.length = 0;
-      for (let k = 0; k < v.length; k++) { to(w[k], v[k]); wv.push(w[k]); }
+      into(v);
       inner.apply(z, tau, wv);
       from(out, z);
+    },
+    // S v_k does not depend on τ: one multi-time call of the inner action
+    applyTimes(outs, taus, v) {
+      into(v);
+      growVectors(zs, taus.length, n);
+      applyAtTimes(inner, zs, taus, wv);
+      for (let i = 0; i < taus.length; i++) from(outs[i], zs[i]);
     },
   };
 }
@@ -303,6 +315,11 @@ function buildProblem(model: ShallowWaterModel): ModelProblem {
     apply(out, tau, v) {
       tally.phiActions++;
       phi.apply(out, tau, v);
+    },
+    /** One vector set at several times: one φ-action (a shared basis where the backend has one). */
+    applyTimes(outs, taus, v) {
+      tally.phiActions++;
+      applyAtTimes(phi, outs, taus, v);
     },
   });
   let rest: RestLinearOperator | undefined;

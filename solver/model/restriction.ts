@@ -33,6 +33,7 @@ import { SolverError } from "../errors.js";
 import type { LinearOperator, OperatorCounters, PhiAction, PhiStats } from "../linalg/types.js";
 import { hexSpectralBound, verticalModes } from "./modes.js";
 import { inverseFactorial } from "../linalg/scalarPhi.js";
+import { applyAtTimes, growVectors } from "../linalg/phiTimes.js";
 import { KernelMemoryBuilder, padStencil, type Placed } from "../kernels/wasm.js";
 import type { Mesh } from "../mesh/types.js";
 import type { ShallowWaterModel, StateLayout } from "./shallowWater.js";
@@ -485,28 +486,45 @@ export function restrictedPhiAction(r: ModalRestriction, modalPhi: PhiAction, ma
   const z = new Float64Array(nModal);
   const lifted = new Float64Array(r.layout.n);
   const stats: PhiStats = { matvecs: 0, innerProducts: 0, substeps: 0, errorEstimate: NaN, happyBreakdown: false };
+  const zs: Float64Array[] = [];
+  const oneZ: Float64Array[] = [z];
+  const oneTau: number[] = [0];
+  const oneOut: Float64Array[] = [z];
+  /** outs[i] = Σ_k τ_i^k v_k/k! + Π̃ L P z_i for every time; w_{k+1} = R v_k does not depend on τ. */
+  function run(outs: readonly Float64Array[], taus: readonly number[], v: readonly Float64Array[], zOut: readonly Float64Array[]): void {
+    if (v.length > maxPhi + 1) throw new SolverError("bad-input", `phi index ${v.length - 1} exceeds maxPhi ${maxPhi}`, "phi.apply");
+    w[0].fill(0);
+    for (let k = 0; k <= maxPhi; k++) {
+      if (k < v.length) r.restrict(w[k + 1], v[k]);
+      else w[k + 1].fill(0);
+    }
+    if (taus.length === 1) modalPhi.apply(zOut[0], taus[0], w);
+    else applyAtTimes(modalPhi, zOut, taus, w);
+    for (let i = 0; i < taus.length; i++) {
+      const out = outs[i], tau = taus[i];
+      out.fill(0);
+      for (let k = 0; k < v.length; k++) {
+        const c = Math.pow(tau, k) * inverseFactorial(k), vk = v[k];
+        for (let q = 0; q < out.length; q++) out[q] += c * vk[q];
+      }
+      r.liftApply(lifted, zOut[i]);
+      for (let q = 0; q < out.length; q++) out[q] += lifted[q];
+    }
+    stats.matvecs = modalPhi.stats.matvecs + taus.length;
+    stats.innerProducts = modalPhi.stats.innerProducts;
+    stats.substeps = modalPhi.stats.substeps;
+    stats.errorEstimate = modalPhi.stats.errorEstimate;
+    stats.happyBreakdown = modalPhi.stats.happyBreakdown;
+  }
   return {
     name: `${modalPhi.name} on ${r.modes} mode${r.modes === 1 ? "" : "s"}`,
     stats,
     apply(out, tau, v) {
-      if (v.length > maxPhi + 1) throw new SolverError("bad-input", `phi index ${v.length - 1} exceeds maxPhi ${maxPhi}`, "phi.apply");
-      out.fill(0);
-      w[0].fill(0);
-      for (let k = 0; k <= maxPhi; k++) {
-        if (k < v.length) {
-          const c = Math.pow(tau, k) * inverseFactorial(k), vk = v[k];
-          for (let q = 0; q < out.length; q++) out[q] += c * vk[q];
-          r.restrict(w[k + 1], vk);
-        } else w[k + 1].fill(0);
-      }
-      modalPhi.apply(z, tau, w);
-      r.liftApply(lifted, z);
-      for (let q = 0; q < out.length; q++) out[q] += lifted[q];
-      stats.matvecs = modalPhi.stats.matvecs + 1;
-      stats.innerProducts = modalPhi.stats.innerProducts;
-      stats.substeps = modalPhi.stats.substeps;
-      stats.errorEstimate = modalPhi.stats.errorEstimate;
-      stats.happyBreakdown = modalPhi.stats.happyBreakdown;
+      oneOut[0] = out; oneTau[0] = tau;
+      run(oneOut, oneTau, v, oneZ);
+    },
+    applyTimes(outs, taus, v) {
+      run(outs, taus, v, growVectors(zs, taus.length, nModal));
     },
   };
 }

@@ -627,43 +627,60 @@ export interface ReferenceMember {
  * (`packStatistics`) and whose `floor` is 0 (an ensemble, not a Δt halving, measures these references).
  */
 export function referenceMembers(built: BuiltScenario, plan: StatisticsPlan, cache: ReferenceCache, tracker: StudyTracker, solver = ""): ReferenceMember[] {
-  const { nLayers: L, nCells: nc } = built.model.layout;
-  const r = plan.reference;
   const out: ReferenceMember[] = [];
-  let run: Run | null = null;
-  let acc: StatisticsAccumulator | null = null;
+  const work: MemberWork = { run: null, acc: null };
   for (let m = 0; m < plan.ensemble.members; m++) {
-    const key = memberKey(built, plan, m, solver);
-    const hit = cache.get(key);
-    if (hit && hit.state.length === (2 + 2 * L) * nc + ENERGY_STATISTICS.length) {
-      out.push({ key, ...unpackStatistics(hit.state, nc, L) });
+    const hit = cachedMember(built, plan, cache, m, solver);
+    if (hit) {
+      out.push(hit);
       tracker.done++;
       continue;
     }
-    tracker.checkpoint();
-    const initial = memberInitialState(built.initial, L * nc, m, plan.ensemble.perturbation, plan.ensemble.seed);
-    run ??= new Run({ ...built, initial }, { ...r.spec, dt: r.dt } as StepperSpec);
-    acc ??= new StatisticsAccumulator(built.model);
-    // a fresh stepper for every member: nothing a stepper carries between steps passes from one member to the next
-    run.setStepper({ ...r.spec, dt: r.dt } as StepperSpec, "--reference-method");
-    run.reset();
-    run.state.set(initial);
-    run.lastGood.set(initial);
-    const what = `reference ${r.label}${plan.ensemble.members > 1 ? ` member ${m + 1}/${plan.ensemble.members}` : ""}`;
-    const w = sampleWindow(run, r, acc, plan.samples, tracker, what);
-    if (w.status !== "completed") {
-      const u = w.unstable!;
-      throw new SolverError("bad-input", `--reference-dt: the ${what} (Δt = ${sig(r.dt)} s) became unstable at step ${u.step}: ${u.reason}; choose a smaller reference Δt`, "--reference-dt");
-    }
-    const record: ReferenceRecord = {
-      key, solver, method: r.spec.method, label: r.label, spec: r.spec, dt: r.dt, steps: r.steps, duration: r.steps * r.dt,
-      floor: { surface: 0, thickness: 0, velocity: 0 }, order: run.stepper.order, state: packStatistics(w.fields!, w.energy!),
-    };
-    cache.set(key, record);
-    out.push({ key, fields: w.fields!, energy: w.energy! });
+    const record = computeMember(built, plan, m, tracker, solver, work);
+    cache.set(record.key, record);
+    out.push({ key: record.key, ...unpackStatistics(record.state, built.model.layout.nCells, built.model.layout.nLayers) });
     tracker.done++;
   }
   return out;
+}
+
+/** Member m from the cache, or null when it is not there (or not a statistics record of this mesh). */
+export function cachedMember(built: BuiltScenario, plan: StatisticsPlan, cache: ReferenceCache, m: number, solver = ""): ReferenceMember | null {
+  const { nLayers: L, nCells: nc } = built.model.layout;
+  const key = memberKey(built, plan, m, solver);
+  const hit = cache.get(key);
+  if (!hit || hit.state.length !== (2 + 2 * L) * nc + ENERGY_STATISTICS.length) return null;
+  return { key, ...unpackStatistics(hit.state, nc, L) };
+}
+
+/** A run and an accumulator reused by one caller for the members it computes. */
+export interface MemberWork { run: Run | null; acc: StatisticsAccumulator | null }
+
+/** Member m computed: spun up from its (perturbed) initial state and sampled; a record for the cache. */
+export function computeMember(built: BuiltScenario, plan: StatisticsPlan, m: number, tracker: StudyTracker, solver = "",
+  work: MemberWork = { run: null, acc: null }): ReferenceRecord {
+  const { nLayers: L, nCells: nc } = built.model.layout;
+  const r = plan.reference;
+  const key = memberKey(built, plan, m, solver);
+  tracker.checkpoint();
+  const initial = memberInitialState(built.initial, L * nc, m, plan.ensemble.perturbation, plan.ensemble.seed);
+  const run = (work.run ??= new Run({ ...built, initial }, { ...r.spec, dt: r.dt } as StepperSpec));
+  const acc = (work.acc ??= new StatisticsAccumulator(built.model));
+  // a fresh stepper for every member: nothing a stepper carries between steps passes from one member to the next
+  run.setStepper({ ...r.spec, dt: r.dt } as StepperSpec, "--reference-method");
+  run.reset();
+  run.state.set(initial);
+  run.lastGood.set(initial);
+  const what = `reference ${r.label}${plan.ensemble.members > 1 ? ` member ${m + 1}/${plan.ensemble.members}` : ""}`;
+  const w = sampleWindow(run, r, acc, plan.samples, tracker, what);
+  if (w.status !== "completed") {
+    const u = w.unstable!;
+    throw new SolverError("bad-input", `--reference-dt: the ${what} (Δt = ${sig(r.dt)} s) became unstable at step ${u.step}: ${u.reason}; choose a smaller reference Δt`, "--reference-dt");
+  }
+  return {
+    key, solver, method: r.spec.method, label: r.label, spec: r.spec, dt: r.dt, steps: r.steps, duration: r.steps * r.dt,
+    floor: { surface: 0, thickness: 0, velocity: 0 }, order: run.stepper.order, state: packStatistics(w.fields!, w.energy!),
+  };
 }
 
 const finiteOr = (v: number): number | null => (Number.isFinite(v) ? v : null);
@@ -672,7 +689,7 @@ const finiteOr = (v: number): number | null => (Number.isFinite(v) ? v : null);
 export type FieldsHook = (row: { label: string; dt: number } | null, fields: StatisticFields, energy: WindowEnergy) => void;
 
 /** Run the work items of a plan (item k = stepper ⌊k / nΔt⌋ at Δt k mod nΔt). Each run starts from the scenario's initial state, so any subset gives the same rows. */
-export function statisticsRows(built: BuiltScenario, plan: StatisticsPlan, ref: ReferenceMember, floor: StatisticValues, items: readonly number[],
+export function statisticsRows(built: BuiltScenario, plan: StatisticsPlan, ref: ReferenceMember, floor: StatisticValues, items: Iterable<number>,
   tracker: StudyTracker, rows: StatisticsRow[] = [], onFields?: FieldsHook): StatisticsRow[] {
   const run = new Run(built, { ...plan.steppers[0].spec, dt: plan.dts[0].dt } as StepperSpec);
   const acc = new StatisticsAccumulator(built.model);

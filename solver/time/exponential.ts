@@ -11,11 +11,15 @@
  * x_n + h φ1(hA) F0 + h Σ_{j≥1} b_j(hA) D_j. φ-functions only ever act on tendencies and differences of
  * tendencies, whose layer masses are zero, and every backend returns c·v + A(…) of such vectors, whose
  * thickness part is a layer divergence: layer mass is exact to round-off, whatever the φ tolerance.
- * Terms of a row with the same node fraction `at` share one φ-combination call at τ = at·h
- * (h coef φ_k(τA) D_j = τ^k φ_k(τA)·(h coef/τ^k) D_j); a row that mixes nodes (Cox–Matthews a_41) makes two calls.
+ * Terms of a row with the same node fraction `at` share one φ-combination at τ = at·h
+ * (h coef φ_k(τA) D_j = τ^k φ_k(τA)·(h coef/τ^k) D_j); a row that mixes nodes (Cox–Matthews a_41) makes two.
+ * Combinations of different rows with the same vector set (always the F(x_n)-only ones) are one multi-time
+ * φ-action (`applyTimes`: one Krylov space or one set of Chebyshev vectors for every τ; Saad 1992, SIAM J.
+ * Numer. Anal. 29; Hochbruck & Lubich 1997, SIAM J. Numer. Anal. 34), counted as one φ-action (`phiPlan`).
  */
 import { phiBackends } from "../linalg/registry.js";
 import { parsePhiFilter } from "../linalg/registry.js";
+import { applyAtTimes } from "../linalg/phiTimes.js";
 import { parseLinearName } from "./options.js";
 import { checkExpTable, type ExpRkTable } from "./expTables.js";
 import type { LinearPart, OptionChoice, OptionDeclarations, OptionSpec, PhiAction, Problem, StepperDefinition, StepperInstance } from "./interface.js";
@@ -27,45 +31,98 @@ export function tableMaxPhi(t: ExpRkTable): number {
   return p;
 }
 
-interface Group { at: number; withF0: boolean; terms: { j: number; k: number; coef: number }[] }
+/** One term of a φ-action's vector set: v_k += w · h^{1−k} · D_j (D_0 = F(x_n)), the same for every τ = at·h. */
+interface JobTerm { readonly j: number; readonly k: number; readonly w: number }
 
-/** Terms of one row grouped by node fraction; the implied first column c φ1(c z) F0 joins the group at = c. */
-function groupRow(row: readonly (readonly { k: number; coef: number; at: number }[])[], c: number): Group[] {
-  const groups: Group[] = [];
-  const get = (at: number) => {
-    let g = groups.find((x) => Math.abs(x.at - at) < 1e-15);
-    if (!g) { g = { at, withF0: false, terms: [] }; groups.push(g); }
-    return g;
-  };
-  if (c > 0) get(c).withF0 = true;
-  for (let j = 1; j < row.length; j++) for (const t of row[j]) if (t.coef !== 0) get(t.at).terms.push({ j, k: t.k, coef: t.coef });
-  return groups.filter((g) => g.withF0 || g.terms.length > 0);
+/**
+ * One φ-action of a step: a vector set evaluated at one or more node fractions `ats` (one shared basis), first
+ * needed by row `row` (stages 1…s−1, the new state s), whose D_j it reads are known by then.
+ */
+export interface PhiJob { readonly terms: readonly JobTerm[]; readonly ats: number[]; readonly row: number }
+/** A row adds scale · (result of job at slot) for each of its uses. */
+interface Use { readonly job: number; readonly slot: number; readonly scale: number }
+
+export interface PhiPlan { readonly jobs: readonly PhiJob[]; readonly uses: readonly (readonly Use[])[] }
+
+const SAME = 1e-14;
+const same = (a: number, b: number) => Math.abs(a - b) <= SAME * Math.max(1, Math.abs(a), Math.abs(b));
+
+/**
+ * The φ-actions of a step, from the table. Each row (the stages i ≥ 1 and the new state) groups its terms by
+ * node fraction: h coef φ_k(at·hA) D_j = τ^k φ_k(τA) (coef/at^k) h^{1−k} D_j, τ = at·h, so a group is one vector
+ * set (terms (j, k, coef/at^k), the implied first column c_i φ1(c_i hA) F0 as (0, 1, 1)) at one τ.
+ * With `share`, groups of any rows whose vector sets are equal up to one factor are one φ-action evaluated at
+ * all their τ (a Krylov space or Chebyshev vectors serve every τ): the F(x_n)-only groups of the stages always
+ * are (Cox–Matthews ETDRK4: stage 1 at h/2 and stage 3 at h, four actions instead of five). Without `share`
+ * every group is its own action (the engine before multi-time actions; kept for the tests).
+ */
+export function phiPlan(table: ExpRkTable, share = true): PhiPlan {
+  const s = table.b.length;
+  const jobs: (PhiJob & { ats: number[] })[] = [];
+  const uses: Use[][] = [];
+  for (let r = 1; r <= s; r++) {
+    const row = r < s ? table.a[r] : table.b, c = r < s ? table.c[r] : 1;
+    const groups: { at: number; terms: JobTerm[] }[] = [];
+    const add = (at: number, term: JobTerm) => {
+      let g = groups.find((x) => same(x.at, at));
+      if (!g) { g = { at, terms: [] }; groups.push(g); }
+      const t = g.terms.find((x) => x.j === term.j && x.k === term.k);
+      if (t) (t as { w: number }).w += term.w; else g.terms.push({ ...term });
+    };
+    add(c, { j: 0, k: 1, w: 1 });
+    for (let j = 1; j < row.length; j++) for (const t of row[j]) if (t.coef !== 0) add(t.at, { j, k: t.k, w: t.coef / Math.pow(t.at, t.k) });
+    const rowUses: Use[] = [];
+    for (const g of groups) {
+      const terms = g.terms.filter((t) => t.w !== 0).sort((a, b) => a.j - b.j || a.k - b.k);
+      if (terms.length === 0) continue;
+      const scale = terms[0].w;
+      const normal = terms.map((t) => ({ j: t.j, k: t.k, w: t.w / scale }));
+      let job = share ? jobs.findIndex((x) => x.terms.length === normal.length && x.terms.every((t, q) => t.j === normal[q].j && t.k === normal[q].k && same(t.w, normal[q].w))) : -1;
+      if (job < 0) { jobs.push({ terms: normal, ats: [], row: r }); job = jobs.length - 1; }
+      const ats = jobs[job].ats;
+      let slot = ats.findIndex((a) => same(a, g.at));
+      if (slot < 0) { ats.push(g.at); slot = ats.length - 1; }
+      rowUses.push({ job, slot, scale });
+    }
+    uses[r] = rowUses;
+  }
+  return { jobs, uses };
 }
 
-/** The engine: one stepper for any table, linear part and φ-action. All work arrays are allocated here. */
-export function exponentialRk(table: ExpRkTable, problem: Pick<Problem, "n" | "tendency">, lin: Pick<LinearPart, "apply" | "linearize">, phi: PhiAction): (x: Float64Array, t: number, h: number) => void {
+/**
+ * The engine: one stepper for any table, linear part and φ-action. All work arrays are allocated here.
+ * `share` = false evaluates every row's groups on their own (the previous engine; for the tests).
+ */
+export function exponentialRk(table: ExpRkTable, problem: Pick<Problem, "n" | "tendency">, lin: Pick<LinearPart, "apply" | "linearize">, phi: PhiAction, share = true): (x: Float64Array, t: number, h: number) => void {
   checkExpTable(table);
   const n = problem.n;
   const s = table.b.length;
   const maxPhi = tableMaxPhi(table);
-  const stageGroups = table.a.map((row, i) => (i === 0 ? [] : groupRow(row, table.c[i])));
-  const finalGroups = groupRow(table.b, 1);
+  const plan = phiPlan(table, share);
   const F0 = new Float64Array(n), Fi = new Float64Array(n), U = new Float64Array(n), diff = new Float64Array(n), Ad = new Float64Array(n);
-  const tmp = new Float64Array(n);
-  const D = Array.from({ length: s }, (_, j) => new Float64Array(j === 0 ? 0 : n));
+  const D = Array.from({ length: s }, (_, j) => (j === 0 ? F0 : new Float64Array(n)));
   const v = Array.from({ length: maxPhi + 1 }, () => new Float64Array(n));
+  const results = plan.jobs.map((job) => job.ats.map(() => new Float64Array(n)));
+  const taus = plan.jobs.map((job) => job.ats.map(() => 0));
+  const jobsOfRow = Array.from({ length: s + 1 }, (_, r) => plan.jobs.flatMap((job, q) => (job.row === r ? [q] : [])));
 
-  function addGroups(target: Float64Array, groups: Group[], h: number): void {
-    for (const g of groups) {
-      const tau = g.at * h;
+  /** The φ-actions first needed by row r, then target += Σ scale · result over the row's uses. */
+  function addRow(target: Float64Array, r: number, h: number): void {
+    for (const q of jobsOfRow[r]) {
+      const job = plan.jobs[q];
       for (let k = 0; k <= maxPhi; k++) v[k].fill(0);
-      if (g.withF0) v[1].set(F0);
-      for (const t of g.terms) {
-        const f = (h * t.coef) / Math.pow(tau, t.k), dj = D[t.j], vk = v[t.k];
-        for (let q = 0; q < n; q++) vk[q] += f * dj[q];
+      for (const t of job.terms) {
+        const f = t.w * Math.pow(h, 1 - t.k), dj = D[t.j], vk = v[t.k];
+        for (let i = 0; i < n; i++) vk[i] += f * dj[i];
       }
-      phi.apply(tmp, tau, v);
-      for (let q = 0; q < n; q++) target[q] += tmp[q];
+      const tq = taus[q];
+      for (let i = 0; i < tq.length; i++) tq[i] = job.ats[i] * h;
+      if (tq.length === 1) phi.apply(results[q][0], tq[0], v);
+      else applyAtTimes(phi, results[q], tq, v);
+    }
+    for (const u of plan.uses[r]) {
+      const y = results[u.job][u.slot], c = u.scale;
+      for (let i = 0; i < n; i++) target[i] += c * y[i];
     }
   }
 
@@ -74,14 +131,14 @@ export function exponentialRk(table: ExpRkTable, problem: Pick<Problem, "n" | "t
     problem.tendency(F0, x, t);
     for (let i = 1; i < s; i++) {
       U.set(x);
-      addGroups(U, stageGroups[i], h);
+      addRow(U, i, h);
       problem.tendency(Fi, U, t + table.c[i] * h);
       for (let q = 0; q < n; q++) diff[q] = U[q] - x[q];
       lin.apply(Ad, diff);
       const Di = D[i];
       for (let q = 0; q < n; q++) Di[q] = Fi[q] - F0[q] - Ad[q];
     }
-    addGroups(x, finalGroups, h);
+    addRow(x, s, h);
   };
 }
 

@@ -8,5 +8,6 @@ import { demoSection, operatorSection, phiSection } from "./fastSteppers";
 import { scalingSection } from "./scaling";
 import { memorySection } from "./memory";
 import { parallelSection } from "./parallel";
+import { phiSharingSection } from "./phiSharing";
 
-export const EXTRA_SECTIONS: BenchSection[] = [operatorSection, phiSection, demoSection, scalingSection, memorySection, parallelSection];
+export const EXTRA_SECTIONS: BenchSection[] = [operatorSection, phiSection, phiSharingSection, demoSection, scalingSection, memorySection, parallelSection];

@@ -4,6 +4,7 @@ import { densePhi } from "../../solver/linalg/dense";
 import type { PhiBackendName } from "../../solver/linalg/types";
 import { seededRandom, weightedSkewOperator } from "./fixtures";
 import { mathjsPhiCombination, relativeError } from "./reference";
+import { applyAtTimes } from "../../solver/linalg/phiTimes";
 
 // Random 30×30 operator, skew-adjoint in a diagonal weighted inner product, eigenvalues ±iω with
 // max ω = ρ = 1 and two zero eigenvalues (spectrum known by construction, fixtures.ts).
@@ -124,5 +125,54 @@ describe("registry", () => {
     expectBadInput(() => createPhiAction("chebyshev", fx.op, { tol: 1e-8, maxPhi: 1, filter: { cutoff: 0, order: 8, strength: 36 } }), "phi.filter.cutoff");
     // a caller names its own field prefix, e.g. the stepper's options
     expectBadInput(() => createPhiAction("krylov", fx.op, { tol: 0, maxPhi: 1, field: "stepper" }), "stepper.tolerance");
+  });
+});
+
+describe("one vector set at several times (applyTimes): one basis for every τ", () => {
+  // Saad 1992 (SIAM J. Numer. Anal. 29, 209–228): K_m(A, v) does not depend on τ, so φ_k(τA)v ≈ β V φ_k(τH) e_1 for
+  // every τ from one space; Tal-Ezer & Kosloff 1984: the Chebyshev vectors P_j(A)v do not depend on τ either.
+  // Reference: mathjs expm of the augmented matrix at each τ (reference.ts), independent of the backends.
+  const times = [38.4, 1.53, 19.2, 38.4, 0]; // unsorted, a repeat and τ = 0 on purpose
+  for (const backend of ["krylov", "chebyshev", "taylor"] as PhiBackendName[]) {
+    for (const c of cases) {
+      it(`${backend}: ${c.name} at τρ = ${times.join(", ")}: each within 10·tol of mathjs expm${backend === "taylor" ? " (fallback: one apply per τ)" : ", no more matvecs than one call per τ"}`, () => {
+        const action = createPhiAction(backend, fx.op, { tol: TOL, maxPhi: 3 });
+        const outs = times.map(() => new Float64Array(n));
+        const taus = times.map((tr) => tr / fx.rho);
+        const mv0 = fx.op.counters.matvecs;
+        applyAtTimes(action, outs, taus, c.v);
+        const shared = fx.op.counters.matvecs - mv0;
+        if (backend !== "taylor") expect(action.applyTimes).toBeDefined();
+        let separate = 0;
+        const one = new Float64Array(n);
+        times.forEach((tr, i) => {
+          if (tr === 0) expect(Array.from(outs[i])).toEqual(Array.from(c.v[0])); // φ_0(0) = I, τ^k = 0 for k ≥ 1
+          else expect(relativeError(outs[i], mathjsPhiCombination(fx.op.matrix, n, taus[i], c.v), fx.weights), `${backend} τρ=${tr}`).toBeLessThan(10 * TOL);
+          const m0 = fx.op.counters.matvecs;
+          action.apply(one, taus[i], c.v);
+          separate += fx.op.counters.matvecs - m0;
+          if (tr !== 0) expect(relativeError(outs[i], one, fx.weights)).toBeLessThan(10 * TOL);
+        });
+        if (backend === "taylor") expect(shared).toBe(separate);
+        // chebyshev with several non-zero v_k forms P_j(A) v_k per k only when that is cheaper than one sum per τ
+        else if (backend === "chebyshev" && c.v.length > 2) expect(shared).toBeLessThanOrEqual(separate);
+        else expect(shared).toBeLessThan(separate);
+      });
+    }
+  }
+
+  it("krylov with a capped basis (maxDim 20, τρ up to 60: sub-steps): times inside every sub-step within 10·tol of mathjs expm", () => {
+    const action = createPhiAction("krylov", fx.op, { tol: TOL, maxPhi: 3, maxKrylovDim: 20 });
+    const trs = [3, 17.5, 31, 44.2, 60];
+    const outs = trs.map(() => new Float64Array(n));
+    const v = cases[2].v;
+    action.applyTimes!(outs, trs.map((tr) => tr / fx.rho), v);
+    expect(action.stats.substeps).toBeGreaterThan(1);
+    trs.forEach((tr, i) => expect(relativeError(outs[i], mathjsPhiCombination(fx.op.matrix, n, tr / fx.rho, v), fx.weights), `τρ=${tr}`).toBeLessThan(10 * TOL));
+  });
+
+  it("refuses more times than outputs with the field named", () => {
+    const action = createPhiAction("krylov", fx.op, { tol: TOL, maxPhi: 3 });
+    expect(() => action.applyTimes!([new Float64Array(n)], [1, 2], cases[1].v)).toThrow(/phi\.applyTimes|outputs/);
   });
 });
