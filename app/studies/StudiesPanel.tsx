@@ -5,6 +5,8 @@ import { StatisticsView } from "./StatisticsView.js";
 import { failureMessage } from "../../workers/client.js";
 import { StabilityView } from "./StabilityView.js";
 import { SweepView } from "./SweepView.js";
+import { lastCode, loadCode } from "../code/userCode.js";
+import { locateInSource, transpile, type Transpiled } from "../code/transpile.js";
 
 /**
  * "Studies": the stability search and the convergence sweep with work-precision on the scenario loaded in the
@@ -43,6 +45,27 @@ function optionalNumber(text: string, field: string): number | undefined {
   return v;
 }
 
+/**
+ * The code-panel steppers a study names (`editor:NAME`): their code as saved by the code panel, types stripped, for
+ * every study worker to import; one message naming the field when a name has no code or the code does not compile.
+ */
+function studyModules(list: readonly Record<string, unknown>[]): { modules: { key: string; code: string }[]; maps: Map<string, Transpiled> } {
+  const modules: { key: string; code: string }[] = [];
+  const maps = new Map<string, Transpiled>();
+  for (const spec of list) {
+    const key = typeof spec.module === "string" ? spec.module : null;
+    if (!key || maps.has(key)) continue;
+    const name = key.slice("editor:".length);
+    const code = loadCode(name);
+    if (!code) throw { name: "SolverError", code: "bad-input", field: "steppers", message: `steppers: ${key}: the code panel holds no stepper named "${name}" (write or open it there; it is kept once applied)` } satisfies WorkerFailure;
+    const t = transpile(code.source, code.language, name);
+    if (!t.ok) throw { name: "SolverError", code: "bad-input", field: "steppers", message: `steppers: ${key}: line ${t.line}, column ${t.column} of your code: ${t.message}` } satisfies WorkerFailure;
+    modules.push({ key, code: t.code });
+    maps.set(key, t);
+  }
+  return { modules, maps };
+}
+
 const seconds = (s: number) => (!Number.isFinite(s) ? "—" : s < 60 ? `${s.toFixed(1)} s` : `${Math.floor(s / 60)} min ${Math.round(s % 60)} s`);
 
 export function StudiesPanel({ scenario, scenarioName, outlines }: { scenario: () => Scenario | null; scenarioName: string; outlines?: CellOutlines }) {
@@ -72,9 +95,13 @@ export function StudiesPanel({ scenario, scenarioName, outlines }: { scenario: (
     setError(null);
     setProgress(null);
     setRunning(true);
+    let maps = new Map<string, Transpiled>();
     try {
       const p = thePool();
       const list = await p.parseSteppers(steppers);
+      const user = studyModules(list);
+      maps = user.maps;
+      p.setModules(user.modules);
       if (kind === "stability") {
         const options = { duration: optionalNumber(trialDuration, "trial duration"), tolerance: optionalNumber(tolerance, "tolerance") };
         const out = await p.stability({ scenario: s, steppers: list, options }, setProgress);
@@ -101,13 +128,24 @@ export function StudiesPanel({ scenario, scenarioName, outlines }: { scenario: (
           : { kind, scenario: s.name, status: "cancelled", done: out.done, total: out.total, wallSeconds: out.wallSeconds, workers: out.workers });
       }
     } catch (e) {
-      if (!isCancelled(e)) setError(failureMessage(e));
+      if (!isCancelled(e)) {
+        // a fault in the user's code names a place in a worker's Blob URL: name the place in the user's text instead
+        let message = failureMessage(e);
+        for (const origin of pool.current?.moduleOrigins() ?? []) {
+          for (const t of maps.values()) {
+            const at = locateInSource(message, origin, t);
+            if (at) { message = at.text; break; }
+          }
+        }
+        setError(message);
+      }
     } finally {
       setRunning(false);
     }
   };
 
   const f = progress?.fraction ?? 0;
+  const mine = lastCode()?.name;
   return (
     <section className="card studies" aria-label="Studies" data-testid="studies-panel">
       <div className="card-head">
@@ -121,7 +159,8 @@ export function StudiesPanel({ scenario, scenarioName, outlines }: { scenario: (
           <button role="tab" data-testid="study-kind-sweep" aria-selected={kind === "sweep"} className={kind === "sweep" ? "active" : ""} onClick={() => setKind("sweep")} disabled={running}>Convergence &amp; work-precision</button>
         </div>
         <label>Steppers <input data-testid="study-steppers" value={steppers} onChange={(e) => setSteppers(e.target.value)} size={44} disabled={running}
-          title="comma-separated, options in parentheses: rk4,etdrk4(linear=modes:1;backend=krylov)" /></label>
+          title="comma-separated, options in parentheses: rk4,etdrk4(linear=modes:1;backend=krylov); editor:NAME for the code panel's stepper NAME" /></label>
+        {mine && <span className="hint" data-testid="study-own-stepper">your stepper: <code>editor:{mine}</code></span>}
         {kind === "stability" ? (
           <>
             <label>Trial length [s] <input data-testid="study-trial-duration" value={trialDuration} placeholder="default" onChange={(e) => setTrialDuration(e.target.value)} size={8} disabled={running}

@@ -165,6 +165,45 @@ describe("studies in the page", () => {
     expect(errors).toEqual([]);
   });
 
+  it("a study takes the code panel's stepper as editor:NAME, with the solver's numbers; a fault is placed in the user's text", async () => {
+    // the code panel keeps code in local storage per stepper name; put Kutta's third-order example there
+    const source = readFileSync(path.join(ROOT, "public/steppers/kutta3.ts"), "utf8");
+    const faulty = source.replace('name: "kutta3"', 'name: "kutta3-faulty"').replace(/step\(x, t, dt\) \{/, 'step(x, t, dt) {\n        if (t > 0) throw new RangeError("deliberate");');
+    expect(faulty).toContain("deliberate");
+    await page.evaluate(([a, b]) => {
+      localStorage.setItem("stepwell.code.kutta3", JSON.stringify({ name: "kutta3", language: "ts", source: a }));
+      localStorage.setItem("stepwell.code.kutta3-faulty", JSON.stringify({ name: "kutta3-faulty", language: "ts", source: b }));
+    }, [source, faulty]);
+    await loadLink(tiny, "tiny-study");
+    await page.click(byId("study-kind-stability"));
+    await page.fill(byId("study-steppers"), "editor:kutta3");
+    await page.fill(byId("study-trial-duration"), "1200");
+    await page.fill(byId("study-tolerance"), "0.05");
+    await runStudy();
+    expect(await page.locator(byId("study-error")).count()).toBe(0);
+    expect(await text("study-outcome")).toMatch(/^Done: 1 searches on tiny-study/);
+    const json = JSON.parse((await downloaded("stability-results-json")).body.toString("utf8"));
+    // the same module through the solver in Node, registered under the same key
+    const { registerModule } = await import("../../solver/time/userModules");
+    registerModule("editor:kutta3", (await import("../../public/steppers/kutta3")).default);
+    const direct = runStability(buildScenario(parseScenario(tiny)), [{ method: "user-module", module: "editor:kutta3" }], { duration: 1200, tolerance: 0.05 }, { field: "steppers" });
+    expect(withoutWall(json)).toEqual(withoutWall(direct));
+    // Kutta's third-order method reaches √3 on the imaginary axis, RK4 2√2 (Hairer & Wanner 1996, IV.2): the ratio of
+    // the two searches on the same scenario is √3/2√2 ≈ 0.612, within the brackets of 5 % each
+    const [rk4] = runStability(buildScenario(parseScenario(tiny)), [{ method: "rk4" }], { duration: 1200, tolerance: 0.05 }, { field: "steppers" });
+    expect(Math.abs(direct[0].maxStableDt / rk4.maxStableDt / (Math.sqrt(3) / (2 * Math.SQRT2)) - 1)).toBeLessThan(0.1);
+
+    await page.fill(byId("study-steppers"), "rk4,editor:kutta3-faulty");
+    await runStudy();
+    const line = faulty.split("\n").findIndex((l) => l.includes("deliberate")) + 1;
+    expect(await text("study-error")).toMatch(new RegExp(`stepper "kutta3-faulty": step at t = [\\d.]+ s threw: RangeError: deliberate \\(at line ${line}, column \\d+ of your code\\)`));
+
+    await page.fill(byId("study-steppers"), "editor:nothing-here");
+    await page.click(byId("study-run"));
+    await expect.poll(() => text("study-error"), { timeout: 30_000 }).toMatch(/^steppers: editor:nothing-here: the code panel holds no stepper named "nothing-here"/);
+    expect(errors).toEqual([]);
+  });
+
   it("a sweep gives the solver's rows, orders and work-precision; its three plots and tables export", async () => {
     await page.click(byId("study-kind-sweep"));
     await page.fill(byId("study-steppers"), "rk4,ssprk3");
