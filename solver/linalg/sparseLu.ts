@@ -10,6 +10,16 @@
  * 2013, §4.4), with element growth bounded in terms of the skew part (ibid.). A symmetric
  * permutation keeps that property, so any fill-reducing ordering may be used.
  *
+ * Complex shifts σI − K (the poles of the rational φ backend): K skew-adjoint in the weights has its field of
+ * values on the segment [−iρ, iρ], so that of σI − K is the vertical segment σ − [−iρ, iρ], at a distance
+ * δ(σ) > 0 from 0 whenever σ is off the segment. A unimodular rotation e^{−iψ}(σI − K) then has Hermitian part
+ * ≥ δ I (after the diagonal similarity), so LU without pivoting exists (same argument), the pivots being those of
+ * the rotated matrix times e^{iψ}; the element growth is bounded in terms of ‖K‖/δ (Golub & Van Loan,
+ * "Unsymmetric positive definite linear systems", Linear Algebra Appl. 28, 1979, 85–97; bound from memory).
+ * δ is smallest for poles near Re σ = 0 just beyond the ends ±iρ, so the callers measure the growth (ComplexLu
+ * `growth`) and check residuals. The same holds for the real 2×2-block form [[Re, −Im], [Im, Re]] (the rotation
+ * is a block-diagonal orthogonal factor, which block LU carries through).
+ *
  * Algorithm: elimination tree and row patterns by the up-looking method of Davis (Direct Methods for Sparse
  * Linear Systems, SIAM 2006, ch. 4: etree, ereach, up-looking Cholesky), here with two value sets — the
  * strictly lower part L (unit diagonal, stored by columns) and the strictly upper part U (stored by rows, same
@@ -677,4 +687,120 @@ function update3(xu: Float64Array, xl: Float64Array, lower: Float64Array, upper:
     xl[jb + 3] -= l3 * b0 + l4 * b3 + l5 * b6; xl[jb + 4] -= l3 * b1 + l4 * b4 + l5 * b7; xl[jb + 5] -= l3 * b2 + l4 * b5 + l5 * b8;
     xl[jb + 6] -= l6 * b0 + l7 * b3 + l8 * b6; xl[jb + 7] -= l6 * b1 + l7 * b4 + l8 * b7; xl[jb + 8] -= l6 * b2 + l7 * b5 + l8 * b8;
   }
+}
+
+/**
+ * Complex factors A = (I + L)(D + U) of a complex matrix on a scalar symmetric pattern (real and imaginary parts
+ * in separate arrays); `index` is fixed by the pattern, so factorizations of one pattern may share it.
+ */
+export interface ComplexLu {
+  readonly n: number;
+  readonly lColPtr: Int32Array;
+  readonly index: Int32Array;
+  readonly lowerRe: Float64Array; readonly lowerIm: Float64Array;
+  readonly upperRe: Float64Array; readonly upperIm: Float64Array;
+  /** 1/D. */
+  readonly pivotInvRe: Float64Array; readonly pivotInvIm: Float64Array;
+  /** Largest |U_ij| or |D_i| over the largest |A_ij| (the element growth of the elimination). */
+  growth: number;
+}
+
+export interface ComplexLuWork {
+  s: Int32Array; mark: Int32Array; stack: Int32Array; next: Int32Array;
+  xuR: Float64Array; xuI: Float64Array; xlR: Float64Array; xlI: Float64Array;
+}
+export function complexLuWork(n: number): ComplexLuWork {
+  return {
+    s: new Int32Array(n), mark: new Int32Array(n), stack: new Int32Array(n), next: new Int32Array(n),
+    xuR: new Float64Array(n), xuI: new Float64Array(n), xlR: new Float64Array(n), xlI: new Float64Array(n),
+  };
+}
+
+/**
+ * Up-looking LU without pivoting of the complex matrix with values (valRe + i valIm)[p] = A(rowIdx[p], column of p)
+ * on a symmetric pattern: `numericLu` in complex arithmetic. `index` may be shared with other factorizations of
+ * the same pattern (every factorization writes the same numbers into it).
+ */
+export function numericComplexLu(
+  pattern: { n: number; colPtr: Int32Array; rowIdx: Int32Array; transposeSlot: Int32Array },
+  sym: SymbolicLu, valRe: Float64Array, valIm: Float64Array, work: ComplexLuWork, index: Int32Array, into?: ComplexLu,
+): ComplexLu {
+  const { n, colPtr, rowIdx, transposeSlot: ts } = pattern;
+  const { parent, lColPtr } = sym;
+  const lowerRe = into?.lowerRe ?? new Float64Array(sym.nnzL), lowerIm = into?.lowerIm ?? new Float64Array(sym.nnzL);
+  const upperRe = into?.upperRe ?? new Float64Array(sym.nnzL), upperIm = into?.upperIm ?? new Float64Array(sym.nnzL);
+  const pivotInvRe = into?.pivotInvRe ?? new Float64Array(n), pivotInvIm = into?.pivotInvIm ?? new Float64Array(n);
+  const { s, mark, stack, next, xuR, xuI, xlR, xlI } = work;
+  mark.fill(-1);
+  next.set(lColPtr.subarray(0, n));
+  xuR.fill(0); xuI.fill(0); xlR.fill(0); xlI.fill(0);
+  let maxA = 0, maxU = 0;
+  for (let p = 0; p < valRe.length; p++) maxA = Math.max(maxA, Math.hypot(valRe[p], valIm[p]));
+  for (let k = 0; k < n; k++) {
+    const top = ereach(colPtr, rowIdx, k, parent, s, mark, stack);
+    for (let p = colPtr[k]; p < colPtr[k + 1]; p++) {
+      const i = rowIdx[p];
+      if (i <= k) { xuR[i] = valRe[p]; xuI[i] = valIm[p]; xlR[i] = valRe[ts[p]]; xlI[i] = valIm[ts[p]]; }
+    }
+    let dR = xuR[k], dI = xuI[k];
+    xuR[k] = 0; xuI[k] = 0; xlR[k] = 0; xlI[k] = 0;
+    for (let t = top; t < n; t++) {
+      const i = s[t];
+      const uR = xuR[i], uI = xuI[i];
+      const aR = xlR[i], aI = xlI[i], qR = pivotInvRe[i], qI = pivotInvIm[i];
+      const lR = aR * qR - aI * qI, lI = aR * qI + aI * qR;
+      xuR[i] = 0; xuI[i] = 0; xlR[i] = 0; xlI[i] = 0;
+      const end = next[i];
+      for (let p = lColPtr[i]; p < end; p++) {
+        const j = index[p];
+        const mR = lowerRe[p], mI = lowerIm[p], vR = upperRe[p], vI = upperIm[p];
+        xuR[j] -= mR * uR - mI * uI; xuI[j] -= mR * uI + mI * uR;
+        xlR[j] -= lR * vR - lI * vI; xlI[j] -= lR * vI + lI * vR;
+      }
+      dR -= lR * uR - lI * uI; dI -= lR * uI + lI * uR;
+      const p = next[i]++;
+      index[p] = k; lowerRe[p] = lR; lowerIm[p] = lI; upperRe[p] = uR; upperIm[p] = uI;
+      const au = Math.hypot(uR, uI);
+      if (au > maxU) maxU = au;
+    }
+    const d2 = dR * dR + dI * dI;
+    if (!(d2 > 0) || !Number.isFinite(d2)) throw new SolverError("breakdown", `sparse complex LU: zero or non-finite pivot at ${k} of ${n}`);
+    pivotInvRe[k] = dR / d2; pivotInvIm[k] = -dI / d2;
+    const ad = Math.sqrt(d2);
+    if (ad > maxU) maxU = ad;
+  }
+  const growth = maxU / maxA;
+  if (into) { into.growth = growth; return into; }
+  return { n, lColPtr, index, lowerRe, lowerIm, upperRe, upperIm, pivotInvRe, pivotInvIm, growth };
+}
+
+/** Solve A y = r in place (y = yRe + i yIm) with complex factors. */
+export function complexLuSolveInPlace(f: ComplexLu, yRe: Float64Array, yIm: Float64Array): void {
+  const { n, lColPtr: cp, index: ix, lowerRe: lr, lowerIm: li, upperRe: ur, upperIm: ui, pivotInvRe: dr, pivotInvIm: di } = f;
+  for (let j = 0; j < n; j++) {
+    const aR = yRe[j], aI = yIm[j];
+    if (aR === 0 && aI === 0) continue;
+    const end = cp[j + 1];
+    for (let p = cp[j]; p < end; p++) {
+      const i = ix[p];
+      yRe[i] -= lr[p] * aR - li[p] * aI;
+      yIm[i] -= lr[p] * aI + li[p] * aR;
+    }
+  }
+  for (let j = n - 1; j >= 0; j--) {
+    let sR = yRe[j], sI = yIm[j];
+    const end = cp[j + 1];
+    for (let p = cp[j]; p < end; p++) {
+      const i = ix[p], xR = yRe[i], xI = yIm[i];
+      sR -= ur[p] * xR - ui[p] * xI;
+      sI -= ur[p] * xI + ui[p] * xR;
+    }
+    yRe[j] = sR * dr[j] - sI * di[j];
+    yIm[j] = sR * di[j] + sI * dr[j];
+  }
+}
+
+/** blockTransposeSlot for callers that factor a block pattern by other routines (e.g. `numericComplexLu` with b = 1). */
+export function blockPatternTransposeSlot(pattern: BlockPattern): Int32Array {
+  return blockTransposeSlot(pattern);
 }

@@ -9,14 +9,19 @@
  * dissection and factored by `sparseLu.ts` without pivoting (see there why that is safe for I − γK with K
  * skew-adjoint in a diagonal inner product).
  *
+ * Complex shifts (σI − K) x = r, for the poles of the rational φ backend, use the same probed matrix and ordering:
+ * a complex LU for one component per node, the real 2×2-block form otherwise, one factorization per σ, kept up to
+ * a memory bound that `reserve` checks for a whole set of poles before any is factored.
+ *
  * Cost is counted in matrix-vector-product equivalents of K (multiply-adds of the work / multiply-adds of one
  * product), added to the operator's own counter.
  */
 import { SolverError } from "../errors.js";
 import type { LinearOperator } from "../linalg/types.js";
 import {
-  blockLuSolveInPlace, blockLuWork, blockPattern, distance2Colouring, nestedDissection, numericBlockLu, symbolicBlockLu,
-  symmetricGraph, type BlockLu, type BlockPattern, type NodeGraph, type SymbolicLu,
+  blockLuSolveInPlace, blockLuWork, blockPattern, blockPatternTransposeSlot, complexLuSolveInPlace, complexLuWork,
+  distance2Colouring, nestedDissection, numericBlockLu, numericComplexLu, symbolicBlockLu,
+  symmetricGraph, type BlockLu, type BlockLuWork, type BlockPattern, type ComplexLu, type ComplexLuWork, type NodeGraph, type SymbolicLu,
 } from "../linalg/sparseLu.js";
 import type { Mesh } from "../mesh/types.js";
 
@@ -46,6 +51,43 @@ export interface ShiftedSolverOptions {
   maxWork?: number;
   /** Factorizations kept for distinct γ (default 4; the least recently used is dropped). */
   cacheSize?: number;
+  /**
+   * Complex shifts: largest total of stored factor numbers over the kept complex factorizations, counted as real
+   * numbers of the lower factor (the upper one holds as many): default 1e8, about 1.6 GB for both.
+   */
+  maxComplexFill?: number;
+  /** Complex shifts: largest multiply-adds of the factorizations one `reserve` may ask for (default 2e11). */
+  maxComplexWork?: number;
+}
+
+export interface ComplexShiftedSolveStats {
+  /** Real numbers of the lower factor of one complex factorization (the upper one holds as many). */
+  readonly fillPerFactorization: number;
+  /** Complex factorizations kept at most (the memory bound over the fill of one). */
+  readonly capacity: number;
+  factorizations: number;
+  solves: number;
+  /** Cost of one complex solve in products with K (real multiply-adds / those of one product). */
+  readonly matvecsPerSolve: number;
+  readonly matvecsPerFactorization: number;
+  /** Largest element growth max|U|/max|A| over the factorizations done (no pivoting; see sparseLu.ts). */
+  largestGrowth: number;
+}
+
+/**
+ * Solver for (σI − K) x = r with complex σ, one factorization per σ, cached (least recently used dropped beyond
+ * `capacity`). Single-component operators use a complex LU; several components the real 2×2-block form
+ * [[Re, −Im], [Im, Re]] of each node's block (twice the block size, on the block LU).
+ */
+export interface ComplexShiftedSolver {
+  /**
+   * Refuses, with one line naming the field, when `count` complex factorizations would not fit the memory bound
+   * or would exceed the work bound (call before a set of solves with `count` distinct shifts).
+   */
+  reserve(count: number, what?: string): void;
+  /** x = (σI − K)⁻¹ r, σ = sr + i·si; x may alias r. */
+  solve(xRe: Float64Array, xIm: Float64Array, rRe: Float64Array, rIm: Float64Array, sr: number, si: number): void;
+  readonly stats: ComplexShiftedSolveStats;
 }
 
 /** Solver for (I − γK) y = c with K the given operator in its own variables. */
@@ -53,6 +95,8 @@ export interface OperatorShiftedSolver {
   /** y = (I − γK)⁻¹ c; y and c may alias. */
   solve(y: Float64Array, c: Float64Array, gamma: number): void;
   readonly stats: ShiftedSolveStats;
+  /** The complex shifted solves on the same ordering and probed matrix. */
+  readonly complex: ComplexShiftedSolver;
 }
 
 /** The node graph of the wave operators: cells 0..nCells−1, edges nCells..nCells+nEdges−1. */
@@ -157,8 +201,132 @@ export function operatorShiftedSolver(
     unknowns: n, probeProducts: 0, fill: 0, factorizations: 0, solves: 0, matvecsPerSolve: NaN, matvecsPerFactorization: NaN,
   };
 
+  // complex shifts ------------------------------------------------------------------------------------------
+  const maxComplexFill = opts.maxComplexFill ?? 1e8, maxComplexWork = opts.maxComplexWork ?? 2e11;
+  const b2 = 2 * nComp, bb2 = b2 * b2;
+  const cStats: { -readonly [K in keyof ComplexShiftedSolveStats]: ComplexShiftedSolveStats[K] } = {
+    fillPerFactorization: NaN, capacity: 0, factorizations: 0, solves: 0, matvecsPerSolve: NaN, matvecsPerFactorization: NaN, largestGrowth: 0,
+  };
+  let cWork: ComplexLuWork | undefined, cIndex: Int32Array | undefined, cTs: Int32Array | undefined;
+  let cRe: Float64Array | undefined, cIm: Float64Array | undefined; // b = 1: values of σI − K
+  let pattern2: BlockPattern | undefined, work2: BlockLuWork | undefined, values2: Float64Array | undefined; // b > 1: real form
+  let factorWork = NaN;
+  const cCache: { sr: number; si: number; f: ComplexLu | BlockLu }[] = [];
+  const permRe = new Float64Array(nComp === 1 ? n : 0), permIm = new Float64Array(nComp === 1 ? n : 0);
+  const perm2 = new Float64Array(nComp === 1 ? 0 : 2 * n), tmp2 = new Float64Array(b2);
+
+  function complexSetup(): void {
+    if (!pattern) setup();
+    const pat = pattern!, s = sym!;
+    if (nComp === 1) {
+      cStats.fillPerFactorization = 2 * s.nnzL;
+      factorWork = 4 * s.factorMultiplyAdds;
+      cStats.matvecsPerSolve = (4 * (2 * s.nnzL + pat.n)) / multiplyAddsPerMatvec;
+    } else {
+      const nodeNnz = s.nnzL; // symbolicBlockLu counts node blocks
+      cStats.fillPerFactorization = nodeNnz * bb2;
+      factorWork = 8 * s.factorMultiplyAdds;
+      cStats.matvecsPerSolve = (2 * nodeNnz * bb2 + pat.order.length * bb2) / multiplyAddsPerMatvec;
+    }
+    cStats.matvecsPerFactorization = factorWork / multiplyAddsPerMatvec;
+    cStats.capacity = Math.max(0, Math.floor(maxComplexFill / cStats.fillPerFactorization));
+  }
+
+  function complexFactor(sr: number, si: number): ComplexLu | BlockLu {
+    for (let i = cCache.length - 1; i >= 0; i--) {
+      const e = cCache[i];
+      if (e.sr === sr && e.si === si) {
+        if (i !== cCache.length - 1) { cCache.splice(i, 1); cCache.push(e); }
+        return e.f;
+      }
+    }
+    if (!(cStats.capacity >= 1)) complexSetup();
+    if (cStats.capacity < 1) complexRefuse(1, "a complex shifted solve");
+    const pat = pattern!, kv = kValues!, dg = diagSlot!;
+    const evicted = cCache.length >= cStats.capacity ? cCache.shift()!.f : undefined;
+    let f: ComplexLu | BlockLu;
+    if (nComp === 1) {
+      cWork ??= complexLuWork(pat.n);
+      cTs ??= blockPatternTransposeSlot(pat);
+      cIndex ??= new Int32Array(sym!.nnzL);
+      cRe ??= new Float64Array(kv.length); cIm ??= new Float64Array(kv.length);
+      for (let p = 0; p < kv.length; p++) { cRe[p] = sr * dg[p] - kv[p]; cIm[p] = si * dg[p]; }
+      f = numericComplexLu(
+        { n: pat.n, colPtr: pat.blockOffset, rowIdx: pat.blockIndex, transposeSlot: cTs }, sym!, cRe, cIm, cWork, cIndex,
+        evicted as ComplexLu | undefined,
+      );
+      cStats.largestGrowth = Math.max(cStats.largestGrowth, (f as ComplexLu).growth);
+    } else {
+      pattern2 ??= { ...pat, nComp: b2 };
+      work2 ??= blockLuWork(pat.order.length, b2);
+      values2 ??= new Float64Array(pat.blockIndex.length * bb2);
+      const v2 = values2;
+      let maxA = 0;
+      for (let q = 0; q < pat.blockIndex.length; q++) {
+        for (let d = 0; d < nComp; d++) {
+          for (let c = 0; c < nComp; c++) {
+            const src = q * bb + d * nComp + c, dst = q * bb2;
+            const re = sr * dg[src] - kv[src], im = si * dg[src];
+            v2[dst + d * b2 + c] = re; v2[dst + (nComp + d) * b2 + nComp + c] = re;
+            v2[dst + d * b2 + nComp + c] = -im; v2[dst + (nComp + d) * b2 + c] = im;
+            maxA = Math.max(maxA, Math.hypot(re, im));
+          }
+        }
+      }
+      f = numericBlockLu(pattern2, sym!, v2, work2, evicted as BlockLu | undefined);
+      let maxU = 0;
+      const up = (f as BlockLu).upper;
+      for (let p = 0; p < up.length; p++) { const a = Math.abs(up[p]); if (a > maxU) maxU = a; }
+      cStats.largestGrowth = Math.max(cStats.largestGrowth, maxU / maxA);
+    }
+    cCache.push({ sr, si, f });
+    cStats.factorizations++;
+    op.counters.matvecs += cStats.matvecsPerFactorization;
+    return f;
+  }
+
+  function complexRefuse(count: number, what: string): never {
+    const fill = count * cStats.fillPerFactorization;
+    throw new SolverError("bad-input", `${field}: ${what} needs ${count} complex factorizations holding ${fill.toExponential(2)} factor entries, more than the bound ${maxComplexFill.toExponential(2)}; use a smaller Δt·ρ, a smaller mesh or another backend`, field);
+  }
+
+  const complex: ComplexShiftedSolver = {
+    stats: cStats,
+    reserve(count, what = "the contour") {
+      if (!(cStats.capacity >= 1)) complexSetup();
+      if (count * cStats.fillPerFactorization > maxComplexFill) complexRefuse(count, what);
+      const w = count * factorWork;
+      if (w > maxComplexWork) {
+        throw new SolverError("bad-input", `${field}: ${what} needs ${count} complex factorizations taking ${w.toExponential(2)} multiply-adds, more than the bound ${maxComplexWork.toExponential(2)}; use a smaller Δt·ρ, a smaller mesh or another backend`, field);
+      }
+    },
+    solve(xRe, xIm, rRe, rIm, sr, si) {
+      if (!Number.isFinite(sr) || !Number.isFinite(si)) throw new SolverError("bad-input", `${field}: complex shift ${sr} + ${si}i must be finite`, field);
+      const f = complexFactor(sr, si);
+      const order = pattern!.order;
+      if (nComp === 1) {
+        for (let P = 0; P < order.length; P++) { const i = order[P]; permRe[P] = rRe[i]; permIm[P] = rIm[i]; }
+        complexLuSolveInPlace(f as ComplexLu, permRe, permIm);
+        for (let P = 0; P < order.length; P++) { const i = order[P]; xRe[i] = permRe[P]; xIm[i] = permIm[P]; }
+      } else {
+        for (let P = 0; P < order.length; P++) {
+          const node = order[P];
+          for (let d = 0; d < nComp; d++) { const o = orig(node, d); perm2[P * b2 + d] = rRe[o]; perm2[P * b2 + nComp + d] = rIm[o]; }
+        }
+        blockLuSolveInPlace(f as BlockLu, perm2, tmp2);
+        for (let P = 0; P < order.length; P++) {
+          const node = order[P];
+          for (let d = 0; d < nComp; d++) { const o = orig(node, d); xRe[o] = perm2[P * b2 + d]; xIm[o] = perm2[P * b2 + nComp + d]; }
+        }
+      }
+      cStats.solves++;
+      op.counters.matvecs += cStats.matvecsPerSolve;
+    },
+  };
+
   return {
     stats,
+    complex,
     solve(y, c, gamma) {
       if (!Number.isFinite(gamma)) throw new SolverError("bad-input", `${field}: shift γ = ${gamma} must be finite`, field);
       const f = factorFor(gamma);
