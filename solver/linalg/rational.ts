@@ -209,7 +209,7 @@ export function rationalPhi(op: LinearOperator, opts: RationalOptions): PhiActio
       for (let i = 0; i < N2; i++) r[i] = (rhs[i] - r[i]) * inv;
       resid = (tau * Math.sqrt(dot2(r, r))) / bnorm;
       if (!(resid > rtol) || step >= refinementSteps) break;
-      // r holds the scaled residual; its correction lands in rhs's place only through x
+      // correction d = (z/τ − A)⁻¹ (residual/τ), x += d
       solver.solve(tmpA, tmpB, rRe, rIm, zr * inv, zi * inv);
       for (let i = 0; i < n; i++) { xRe[i] += tmpA[i]; xIm[i] += tmpB[i]; }
       stats.refinements++;
