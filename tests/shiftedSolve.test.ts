@@ -232,7 +232,8 @@ describe("complex shifted solves (σI − K) x = r for the poles of the rational
   };
   const ops: { name: string; make: () => { op: LinearOperator; complex: () => ComplexShiftedSolver } }[] = [
     { name: "modes:1, basin with seamount and β (complex LU)", make: () => { const r = modalRestriction(basinWithTopography(), 1); return { op: r.operator, complex: () => r.shiftedSolver().complex }; } },
-    { name: "rest, three layers, periodic (real 2×2-block form)", make: () => { const L = restLinearOperator(model()); return { op: L.interfaceForm, complex: () => L.shiftedSolver().complex }; } },
+    { name: "modes:2, periodic (complex block LU, 2×2 blocks)", make: () => { const r = modalRestriction(model(), 2); return { op: r.operator, complex: () => r.shiftedSolver().complex }; } },
+    { name: "rest, three layers, periodic (complex block LU)", make: () => { const L = restLinearOperator(model()); return { op: L.interfaceForm, complex: () => L.shiftedSolver().complex }; } },
   ];
   for (const c of ops) {
     for (const [tauRho, which] of [[10, "real"], [100, "imaginary"], [300, "imaginary"]] as const) {

@@ -10,7 +10,7 @@
  * skew-adjoint in a diagonal inner product).
  *
  * Complex shifts (σI − K) x = r, for the poles of the rational φ backend, use the same probed matrix and ordering:
- * a complex LU for one component per node, the real 2×2-block form otherwise, one factorization per σ, kept up to
+ * a complex LU (complex b×b blocks for b components per node), one factorization per σ, kept up to
  * a memory bound that `reserve` checks for a whole set of poles before any is factored.
  *
  * Cost is counted in matrix-vector-product equivalents of K (multiply-adds of the work / multiply-adds of one
@@ -19,9 +19,10 @@
 import { SolverError } from "../errors.js";
 import type { LinearOperator } from "../linalg/types.js";
 import {
-  blockLuSolveInPlace, blockLuWork, blockPattern, blockPatternTransposeSlot, complexLuSolveInPlace, complexLuWork,
-  distance2Colouring, nestedDissection, numericBlockLu, numericComplexLu, symbolicBlockLu,
-  symmetricGraph, type BlockLu, type BlockLuWork, type BlockPattern, type ComplexLu, type ComplexLuWork, type NodeGraph, type SymbolicLu,
+  blockLuSolveInPlace, blockLuWork, blockPattern, blockPatternTransposeSlot, complexBlockLuSolveInPlace, complexBlockLuWork,
+  complexLuSolveInPlace, complexLuWork, distance2Colouring, nestedDissection, numericBlockLu, numericComplexBlockLu, numericComplexLu,
+  symbolicBlockLu, symmetricGraph, type BlockLu, type BlockPattern, type ComplexBlockLu, type ComplexBlockLuWork, type ComplexLu,
+  type ComplexLuWork, type NodeGraph, type SymbolicLu,
 } from "../linalg/sparseLu.js";
 import type { Mesh } from "../mesh/types.js";
 
@@ -76,8 +77,7 @@ export interface ComplexShiftedSolveStats {
 
 /**
  * Solver for (σI − K) x = r with complex σ, one factorization per σ, cached (least recently used dropped beyond
- * `capacity`). Single-component operators use a complex LU; several components the real 2×2-block form
- * [[Re, −Im], [Im, Re]] of each node's block (twice the block size, on the block LU).
+ * `capacity`). Single-component operators use a scalar complex LU, several components a complex block LU.
  */
 export interface ComplexShiftedSolver {
   /**
@@ -203,36 +203,28 @@ export function operatorShiftedSolver(
 
   // complex shifts ------------------------------------------------------------------------------------------
   const maxComplexFill = opts.maxComplexFill ?? 1e8, maxComplexWork = opts.maxComplexWork ?? 2e11;
-  const b2 = 2 * nComp, bb2 = b2 * b2;
   const cStats: { -readonly [K in keyof ComplexShiftedSolveStats]: ComplexShiftedSolveStats[K] } = {
     fillPerFactorization: NaN, capacity: 0, factorizations: 0, solves: 0, matvecsPerSolve: NaN, matvecsPerFactorization: NaN, largestGrowth: 0,
   };
   let cWork: ComplexLuWork | undefined, cIndex: Int32Array | undefined, cTs: Int32Array | undefined;
-  let cRe: Float64Array | undefined, cIm: Float64Array | undefined; // b = 1: values of σI − K
-  let pattern2: BlockPattern | undefined, work2: BlockLuWork | undefined, values2: Float64Array | undefined; // b > 1: real form
+  let cRe: Float64Array | undefined, cIm: Float64Array | undefined; // values of σI − K on the block pattern
+  let cbWork: ComplexBlockLuWork | undefined; // b > 1
   let factorWork = NaN;
-  const cCache: { sr: number; si: number; f: ComplexLu | BlockLu }[] = [];
-  const permRe = new Float64Array(nComp === 1 ? n : 0), permIm = new Float64Array(nComp === 1 ? n : 0);
-  const perm2 = new Float64Array(nComp === 1 ? 0 : 2 * n), tmp2 = new Float64Array(b2);
+  const cCache: { sr: number; si: number; f: ComplexLu | ComplexBlockLu }[] = [];
+  const permRe = new Float64Array(n), permIm = new Float64Array(n), tmp2 = new Float64Array(2 * nComp);
 
   function complexSetup(): void {
     if (!pattern) setup();
     const pat = pattern!, s = sym!;
-    if (nComp === 1) {
-      cStats.fillPerFactorization = 2 * s.nnzL;
-      factorWork = 4 * s.factorMultiplyAdds;
-      cStats.matvecsPerSolve = (4 * (2 * s.nnzL + pat.n)) / multiplyAddsPerMatvec;
-    } else {
-      const nodeNnz = s.nnzL; // symbolicBlockLu counts node blocks
-      cStats.fillPerFactorization = nodeNnz * bb2;
-      factorWork = 8 * s.factorMultiplyAdds;
-      cStats.matvecsPerSolve = (2 * nodeNnz * bb2 + pat.order.length * bb2) / multiplyAddsPerMatvec;
-    }
+    // s.nnzL counts node blocks (b² numbers each), s.factorMultiplyAdds real ones: a complex multiply-add is 4
+    cStats.fillPerFactorization = 2 * s.nnzL * bb;
+    factorWork = 4 * s.factorMultiplyAdds;
+    cStats.matvecsPerSolve = (4 * (2 * s.nnzL * bb + pat.order.length * bb)) / multiplyAddsPerMatvec;
     cStats.matvecsPerFactorization = factorWork / multiplyAddsPerMatvec;
     cStats.capacity = Math.max(0, Math.floor(maxComplexFill / cStats.fillPerFactorization));
   }
 
-  function complexFactor(sr: number, si: number): ComplexLu | BlockLu {
+  function complexFactor(sr: number, si: number): ComplexLu | ComplexBlockLu {
     for (let i = cCache.length - 1; i >= 0; i--) {
       const e = cCache[i];
       if (e.sr === sr && e.si === si) {
@@ -244,41 +236,23 @@ export function operatorShiftedSolver(
     if (cStats.capacity < 1) complexRefuse(1, "a complex shifted solve");
     const pat = pattern!, kv = kValues!, dg = diagSlot!;
     const evicted = cCache.length >= cStats.capacity ? cCache.shift()!.f : undefined;
-    let f: ComplexLu | BlockLu;
+    let f: ComplexLu | ComplexBlockLu;
+    cRe ??= new Float64Array(kv.length); cIm ??= new Float64Array(kv.length);
+    for (let p = 0; p < kv.length; p++) { cRe[p] = sr * dg[p] - kv[p]; cIm[p] = si * dg[p]; }
     if (nComp === 1) {
       cWork ??= complexLuWork(pat.n);
       cTs ??= blockPatternTransposeSlot(pat);
       cIndex ??= new Int32Array(sym!.nnzL);
-      cRe ??= new Float64Array(kv.length); cIm ??= new Float64Array(kv.length);
-      for (let p = 0; p < kv.length; p++) { cRe[p] = sr * dg[p] - kv[p]; cIm[p] = si * dg[p]; }
       f = numericComplexLu(
         { n: pat.n, colPtr: pat.blockOffset, rowIdx: pat.blockIndex, transposeSlot: cTs }, sym!, cRe, cIm, cWork, cIndex,
         evicted as ComplexLu | undefined,
       );
-      cStats.largestGrowth = Math.max(cStats.largestGrowth, (f as ComplexLu).growth);
     } else {
-      pattern2 ??= { ...pat, nComp: b2 };
-      work2 ??= blockLuWork(pat.order.length, b2);
-      values2 ??= new Float64Array(pat.blockIndex.length * bb2);
-      const v2 = values2;
-      let maxA = 0;
-      for (let q = 0; q < pat.blockIndex.length; q++) {
-        for (let d = 0; d < nComp; d++) {
-          for (let c = 0; c < nComp; c++) {
-            const src = q * bb + d * nComp + c, dst = q * bb2;
-            const re = sr * dg[src] - kv[src], im = si * dg[src];
-            v2[dst + d * b2 + c] = re; v2[dst + (nComp + d) * b2 + nComp + c] = re;
-            v2[dst + d * b2 + nComp + c] = -im; v2[dst + (nComp + d) * b2 + c] = im;
-            maxA = Math.max(maxA, Math.hypot(re, im));
-          }
-        }
-      }
-      f = numericBlockLu(pattern2, sym!, v2, work2, evicted as BlockLu | undefined);
-      let maxU = 0;
-      const up = (f as BlockLu).upper;
-      for (let p = 0; p < up.length; p++) { const a = Math.abs(up[p]); if (a > maxU) maxU = a; }
-      cStats.largestGrowth = Math.max(cStats.largestGrowth, maxU / maxA);
+      cbWork ??= complexBlockLuWork(pat.order.length, nComp);
+      cIndex ??= new Int32Array(sym!.nnzL);
+      f = numericComplexBlockLu(pat, sym!, cRe, cIm, cbWork, cIndex, evicted as ComplexBlockLu | undefined);
     }
+    cStats.largestGrowth = Math.max(cStats.largestGrowth, f.growth);
     cCache.push({ sr, si, f });
     cStats.factorizations++;
     op.counters.matvecs += cStats.matvecsPerFactorization;
@@ -311,12 +285,12 @@ export function operatorShiftedSolver(
       } else {
         for (let P = 0; P < order.length; P++) {
           const node = order[P];
-          for (let d = 0; d < nComp; d++) { const o = orig(node, d); perm2[P * b2 + d] = rRe[o]; perm2[P * b2 + nComp + d] = rIm[o]; }
+          for (let d = 0; d < nComp; d++) { const o = orig(node, d); permRe[P * nComp + d] = rRe[o]; permIm[P * nComp + d] = rIm[o]; }
         }
-        blockLuSolveInPlace(f as BlockLu, perm2, tmp2);
+        complexBlockLuSolveInPlace(f as ComplexBlockLu, permRe, permIm, tmp2);
         for (let P = 0; P < order.length; P++) {
           const node = order[P];
-          for (let d = 0; d < nComp; d++) { const o = orig(node, d); xRe[o] = perm2[P * b2 + d]; xIm[o] = perm2[P * b2 + nComp + d]; }
+          for (let d = 0; d < nComp; d++) { const o = orig(node, d); xRe[o] = permRe[P * nComp + d]; xIm[o] = permIm[P * nComp + d]; }
         }
       }
       cStats.solves++;
