@@ -326,6 +326,24 @@ describe("complex shifted solves (σI − K) x = r for the poles of the rational
     expect(s.stats.factorizations).toBe(2);
   });
 
+  it("beyond its memory bound the least recently used factorization is replaced, and solves stay right", () => {
+    const r = modalRestriction(model(), 1);
+    const probe = modalRestriction(model(), 1).shiftedSolver().complex;
+    probe.reserve(1);
+    const s = r.shiftedSolver({ maxComplexFill: 2.5 * probe.stats.fillPerFactorization }).complex; // room for two
+    const op = r.operator, n = op.n, rho = op.spectralBound!;
+    const rnd = seededRandom(8);
+    const rr = Float64Array.from({ length: n }, () => rnd() - 0.5), ri = new Float64Array(n), xr = new Float64Array(n), xi = new Float64Array(n);
+    const shifts: [number, number][] = [[0.5 * rho, 1.5 * rho], [0.2 * rho, -1.1 * rho], [1.3 * rho, 0.4 * rho]];
+    for (const [sr, si] of [...shifts, shifts[2], shifts[0], shifts[1]]) {
+      s.solve(xr, xi, rr, ri, sr, si);
+      expect(complexResidual(op, xr, xi, rr, ri, sr, si)).toBeLessThan(1e-11);
+    }
+    // 1, 2, 3 (drops 1), 3 (kept), 1 (drops 2), 2 (drops 3): five factorizations
+    expect(s.stats.capacity).toBe(2);
+    expect(s.stats.factorizations).toBe(5);
+  });
+
   it("reserve refuses a set of poles above the work or memory bound before factoring, naming the field", () => {
     const L = restLinearOperator(model());
     const s = L.shiftedSolver({ maxComplexWork: 1e6, field: "stepper.linear" }).complex;

@@ -210,7 +210,8 @@ export function operatorShiftedSolver(
   let cRe: Float64Array | undefined, cIm: Float64Array | undefined; // values of σI − K on the block pattern
   let cbWork: ComplexBlockLuWork | undefined; // b > 1
   let factorWork = NaN;
-  const cCache: { sr: number; si: number; f: ComplexLu | ComplexBlockLu }[] = [];
+  const cCache: { sr: number; si: number; f: ComplexLu | ComplexBlockLu; used: number }[] = [];
+  let clock = 0;
   const permRe = new Float64Array(n), permIm = new Float64Array(n), tmp2 = new Float64Array(2 * nComp);
 
   function complexSetup(): void {
@@ -225,17 +226,22 @@ export function operatorShiftedSolver(
   }
 
   function complexFactor(sr: number, si: number): ComplexLu | ComplexBlockLu {
+    clock++;
     for (let i = cCache.length - 1; i >= 0; i--) {
       const e = cCache[i];
-      if (e.sr === sr && e.si === si) {
-        if (i !== cCache.length - 1) { cCache.splice(i, 1); cCache.push(e); }
-        return e.f;
-      }
+      if (e.sr === sr && e.si === si) { e.used = clock; return e.f; }
     }
     if (!(cStats.capacity >= 1)) complexSetup();
     if (cStats.capacity < 1) complexRefuse(1, "a complex shifted solve");
     const pat = pattern!, kv = kValues!, dg = diagSlot!;
-    const evicted = cCache.length >= cStats.capacity ? cCache.shift()!.f : undefined;
+    // beyond capacity the least recently used factorization gives its arrays to the new one
+    let slot = -1;
+    if (cCache.length >= cStats.capacity) {
+      slot = 0;
+      for (let i = 1; i < cCache.length; i++) if (cCache[i].used < cCache[slot].used) slot = i;
+    }
+    const evicted = slot >= 0 ? cCache[slot].f : undefined;
+    if (slot >= 0) cCache[slot].sr = NaN; // overwritten below: never matched, even if the factorization fails
     let f: ComplexLu | ComplexBlockLu;
     cRe ??= new Float64Array(kv.length); cIm ??= new Float64Array(kv.length);
     for (let p = 0; p < kv.length; p++) { cRe[p] = sr * dg[p] - kv[p]; cIm[p] = si * dg[p]; }
@@ -253,7 +259,7 @@ export function operatorShiftedSolver(
       f = numericComplexBlockLu(pat, sym!, cRe, cIm, cbWork, cIndex, evicted as ComplexBlockLu | undefined);
     }
     cStats.largestGrowth = Math.max(cStats.largestGrowth, f.growth);
-    cCache.push({ sr, si, f });
+    if (slot >= 0) { const e = cCache[slot]; e.sr = sr; e.si = si; e.f = f; e.used = clock; } else cCache.push({ sr, si, f, used: clock });
     cStats.factorizations++;
     op.counters.matvecs += cStats.matvecsPerFactorization;
     return f;
