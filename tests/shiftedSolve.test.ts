@@ -5,11 +5,14 @@ import { restLinearOperator } from "../solver/model/linear";
 import { modalRestriction } from "../solver/model/restriction";
 import { luSolve } from "../solver/linalg/dense";
 import {
-  blockPattern, luSolveInPlace, nestedDissection, numericLu, symbolicLu, symmetricGraph,
+  blockPattern, blockPatternTransposeSlot, complexBlockLuSolveInPlace, complexBlockLuWork, complexLuSolveInPlace, complexLuWork,
+  luSolveInPlace, nestedDissection, numericComplexBlockLu, numericComplexLu, numericLu, symbolicBlockLu, symbolicLu, symmetricGraph,
 } from "../solver/linalg/sparseLu";
 import { seededRandom } from "../solver/mesh/hexLattice";
 import type { ShallowWaterModel } from "../solver/model/shallowWater";
 import type { LinearOperator } from "../solver/linalg/types";
+import { contourParameters } from "../solver/linalg/rational";
+import type { ComplexShiftedSolver } from "../solver/model/shiftedSolve";
 
 const threeLayers = [{ thickness: 300, density: 1025 }, { thickness: 700, density: 1026.4 }, { thickness: 3000, density: 1027.6 }];
 
@@ -97,6 +100,51 @@ describe("sparse LU without pivoting (Davis 2006 up-looking factorization, neste
     const ref = (math.lusolve(rows, b) as number[][]).map((r) => r[0]);
     expect(relDiff(y, Float64Array.from(ref))).toBeLessThan(1e-11);
   });
+
+  for (const nComp of [1, 2]) {
+    it(`complex, ${nComp === 1 ? "scalar" : "2×2 blocks"}: σI − S (S skew, σ = 0.1 + 2i, near the imaginary axis) like mathjs.lusolve in complex arithmetic`, () => {
+      const rnd = seededRandom(19);
+      const nNodes = 50;
+      const pairs: [number, number][] = [];
+      for (let i = 0; i < nNodes; i++) pairs.push([i, (i + 1) % nNodes], [i, Math.floor(rnd() * nNodes)]);
+      const g = symmetricGraph(nNodes, (add) => { for (const [a, c] of pairs) add(a, c); });
+      const pat = blockPattern(g, nestedDissection(g, 8), nComp);
+      const b = nComp, bb = b * b, n = pat.n, sr = 0.1, si = 2;
+      // dense A = σI − S in the position order; S skew with entries of size up to 25 on the block pattern
+      const S = new Float64Array(n * n);
+      for (let P = 0; P < nNodes; P++) for (let q = pat.blockOffset[P]; q < pat.blockOffset[P + 1]; q++) {
+        const Q = pat.blockIndex[q];
+        for (let d = 0; d < b; d++) for (let c = 0; c < b; c++) {
+          const i = Q * b + d, j = P * b + c;
+          if (i < j) { const v = 50 * (rnd() - 0.5); S[i * n + j] = v; S[j * n + i] = -v; }
+        }
+      }
+      const valRe = new Float64Array(pat.blockIndex.length * bb), valIm = new Float64Array(valRe.length);
+      for (let P = 0; P < nNodes; P++) for (let q = pat.blockOffset[P]; q < pat.blockOffset[P + 1]; q++) {
+        const Q = pat.blockIndex[q];
+        for (let d = 0; d < b; d++) for (let c = 0; c < b; c++) {
+          const i = Q * b + d, j = P * b + c;
+          valRe[q * bb + d * b + c] = (i === j ? sr : 0) - S[i * n + j];
+          valIm[q * bb + d * b + c] = i === j ? si : 0;
+        }
+      }
+      const sym = symbolicBlockLu(pat, { maxFill: 1e7, maxWork: 1e10, field: "test" });
+      const yRe = Float64Array.from({ length: n }, () => rnd() - 0.5), yIm = Float64Array.from({ length: n }, () => rnd() - 0.5);
+      const rhs = Array.from({ length: n }, (_, i) => math.complex(yRe[i], yIm[i]));
+      if (nComp === 1) {
+        const f = numericComplexLu({ n, colPtr: pat.blockOffset, rowIdx: pat.blockIndex, transposeSlot: blockPatternTransposeSlot(pat) }, sym, valRe, valIm, complexLuWork(n), new Int32Array(sym.nnzL));
+        complexLuSolveInPlace(f, yRe, yIm);
+      } else {
+        const f = numericComplexBlockLu(pat, sym, valRe, valIm, complexBlockLuWork(nNodes, b), new Int32Array(sym.nnzL));
+        complexBlockLuSolveInPlace(f, yRe, yIm, new Float64Array(2 * b));
+      }
+      const rows = Array.from({ length: n }, (_, i) => Array.from({ length: n }, (_, j) => math.complex((i === j ? sr : 0) - S[i * n + j], i === j ? si : 0)));
+      const ref = (math.lusolve(rows as never, rhs as never) as unknown as math.Complex[][]).map((r) => r[0]);
+      let d = 0, m = 0;
+      for (let i = 0; i < n; i++) { d = Math.max(d, Math.hypot(yRe[i] - ref[i].re, yIm[i] - ref[i].im)); m = Math.max(m, Math.hypot(ref[i].re, ref[i].im)); }
+      expect(d / m).toBeLessThan(1e-10);
+    });
+  }
 
   it("refuses a factorization above its fill bound before doing it, naming the field", () => {
     const g = symmetricGraph(200, (add) => { for (let i = 0; i < 200; i++) for (let j = i + 1; j < 200; j += 7) add(i, j); });
@@ -189,3 +237,120 @@ describe("shifted solves (I − γL) x = b of the fixed linear parts", () => {
     expect(cost1).toBeCloseTo(s.matvecsPerSolve + 1, 12); // substitutions + the lift product
   });
 });
+
+/** ‖(σI − A)x − r‖ / ‖r‖ (complex, real and imaginary parts apart), the product taken by the operator itself. */
+function complexResidual(A: LinearOperator, xr: Float64Array, xi: Float64Array, rr: Float64Array, ri: Float64Array, sr: number, si: number): number {
+  const ar = new Float64Array(A.n), ai = new Float64Array(A.n);
+  A.apply(ar, xr); A.apply(ai, xi);
+  let d = 0, nb = 0;
+  for (let q = 0; q < A.n; q++) {
+    d += (sr * xr[q] - si * xi[q] - ar[q] - rr[q]) ** 2 + (si * xr[q] + sr * xi[q] - ai[q] - ri[q]) ** 2;
+    nb += rr[q] ** 2 + ri[q] ** 2;
+  }
+  return Math.sqrt(d / nb);
+}
+
+/** Dense real form [[σr − A, −σi], [σi, σr − A]] of σI − A: rows/columns (re, im), 2n × 2n, row-major. */
+function denseComplexShifted(A: LinearOperator, sr: number, si: number): Float64Array {
+  const n = A.n, N = 2 * n, out = new Float64Array(N * N), e = new Float64Array(n), col = new Float64Array(n);
+  for (let j = 0; j < n; j++) {
+    e.fill(0); e[j] = 1;
+    A.apply(col, e);
+    for (let i = 0; i < n; i++) {
+      const a = (i === j ? sr : 0) - col[i];
+      out[i * N + j] = a; out[(n + i) * N + n + j] = a;
+      if (i === j) { out[i * N + n + j] = -si; out[(n + i) * N + j] = si; }
+    }
+  }
+  return out;
+}
+
+describe("complex shifted solves (σI − K) x = r for the poles of the rational backend", () => {
+  // poles z_j/τ on the ellipse of the rational backend (Trefethen, Weideman & Schmelzer 2006), at the node nearest
+  // Re z = 0 (smallest distance δ of the field of values from 0, the hardest case for LU without pivoting) and at
+  // the node nearest the real axis
+  const pole = (rho: number, tauRho: number, which: "imaginary" | "real") => {
+    const c = contourParameters(tauRho, 1e-8);
+    const j = which === "imaginary" ? Math.floor(c.nodes / 4) : 0;
+    const th = (2 * Math.PI * (j + 0.5)) / c.nodes;
+    const tau = tauRho / rho;
+    return { sr: (c.a * Math.cos(th)) / tau, si: (c.b * Math.sin(th)) / tau };
+  };
+  const ops: { name: string; make: () => { op: LinearOperator; complex: () => ComplexShiftedSolver } }[] = [
+    { name: "modes:1, basin with seamount and β (complex LU)", make: () => { const r = modalRestriction(basinWithTopography(), 1); return { op: r.operator, complex: () => r.shiftedSolver().complex }; } },
+    { name: "modes:2, periodic (complex block LU, 2×2 blocks)", make: () => { const r = modalRestriction(model(), 2); return { op: r.operator, complex: () => r.shiftedSolver().complex }; } },
+    { name: "rest, three layers, periodic (complex block LU)", make: () => { const L = restLinearOperator(model()); return { op: L.interfaceForm, complex: () => L.shiftedSolver().complex }; } },
+  ];
+  for (const c of ops) {
+    for (const [tauRho, which] of [[10, "real"], [100, "imaginary"], [300, "imaginary"]] as const) {
+      it(`${c.name}, pole of τρ = ${tauRho} nearest the ${which} axis: residual ≤ 1e-11, equals a dense LU solve (dense.ts)`, () => {
+        const { op, complex } = c.make();
+        const { sr, si } = pole(op.spectralBound!, tauRho, which);
+        const rnd = seededRandom(17);
+        const rr = Float64Array.from({ length: op.n }, () => rnd() - 0.5), ri = Float64Array.from({ length: op.n }, () => rnd() - 0.5);
+        const xr = new Float64Array(op.n), xi = new Float64Array(op.n);
+        const s = complex();
+        s.solve(xr, xi, rr, ri, sr, si);
+        // residual against the tolerance of a direct solve (common practice, no source: ~100 ulp × growth)
+        expect(complexResidual(op, xr, xi, rr, ri, sr, si)).toBeLessThan(1e-11);
+        // the pivots stay healthy without pivoting (sparseLu.ts; Golub & Van Loan 1979 for the bound)
+        expect(s.stats.largestGrowth).toBeLessThan(100);
+        // dense Gaussian elimination with partial pivoting (Golub & Van Loan 2013, §3.4) on the real 2n form
+        const n = op.n, a = denseComplexShifted(op, sr, si);
+        const rhs = new Float64Array(2 * n); rhs.set(rr); rhs.set(ri, n);
+        luSolve(a, rhs, 2 * n, 1, new Int32Array(2 * n));
+        const x = new Float64Array(2 * n); x.set(xr); x.set(xi, n);
+        expect(relDiff(x, rhs)).toBeLessThan(1e-10);
+      });
+    }
+  }
+
+  it("one factorization per pole, reused; each solve adds its cost in products with K to the operator's counter", () => {
+    const r = modalRestriction(model(), 1);
+    const s = r.shiftedSolver().complex;
+    const { n, counters } = r.operator;
+    const rr = new Float64Array(n).fill(1), ri = new Float64Array(n), xr = new Float64Array(n), xi = new Float64Array(n);
+    const rho = r.operator.spectralBound!;
+    s.solve(xr, xi, rr, ri, 0.3 * rho, 1.2 * rho);
+    expect(s.stats.factorizations).toBe(1);
+    const before = counters.matvecs;
+    s.solve(xr, xi, rr, ri, 0.3 * rho, 1.2 * rho);
+    expect(s.stats.factorizations).toBe(1);
+    expect(counters.matvecs - before).toBeCloseTo(s.stats.matvecsPerSolve, 12);
+    // a complex solve costs 4 real substitution passes' multiply-adds: more than the real solve, less than 5×
+    const real = r.shiftedSolver().stats;
+    r.solve(new Float64Array(m0n(r)), new Float64Array(m0n(r)), 1 / rho);
+    expect(s.stats.matvecsPerSolve / real.matvecsPerSolve).toBeGreaterThan(3);
+    expect(s.stats.matvecsPerSolve / real.matvecsPerSolve).toBeLessThan(5);
+    s.solve(xr, xi, rr, ri, 0.3 * rho, -1.2 * rho);
+    expect(s.stats.factorizations).toBe(2);
+  });
+
+  it("beyond its memory bound the least recently used factorization is replaced, and solves stay right", () => {
+    const r = modalRestriction(model(), 1);
+    const probe = modalRestriction(model(), 1).shiftedSolver().complex;
+    probe.reserve(1);
+    const s = r.shiftedSolver({ maxComplexFill: 2.5 * probe.stats.fillPerFactorization }).complex; // room for two
+    const op = r.operator, n = op.n, rho = op.spectralBound!;
+    const rnd = seededRandom(8);
+    const rr = Float64Array.from({ length: n }, () => rnd() - 0.5), ri = new Float64Array(n), xr = new Float64Array(n), xi = new Float64Array(n);
+    const shifts: [number, number][] = [[0.5 * rho, 1.5 * rho], [0.2 * rho, -1.1 * rho], [1.3 * rho, 0.4 * rho]];
+    for (const [sr, si] of [...shifts, shifts[2], shifts[0], shifts[1]]) {
+      s.solve(xr, xi, rr, ri, sr, si);
+      expect(complexResidual(op, xr, xi, rr, ri, sr, si)).toBeLessThan(1e-11);
+    }
+    // 1, 2, 3 (drops 1), 3 (kept), 1 (drops 2), 2 (drops 3): five factorizations
+    expect(s.stats.capacity).toBe(2);
+    expect(s.stats.factorizations).toBe(5);
+  });
+
+  it("reserve refuses a set of poles above the work or memory bound before factoring, naming the field", () => {
+    const L = restLinearOperator(model());
+    const s = L.shiftedSolver({ maxComplexWork: 1e6, field: "stepper.linear" }).complex;
+    expect(() => s.reserve(50, "fifty poles")).toThrow(/^stepper\.linear: fifty poles needs 50 complex factorizations taking .* multiply-adds, more than the bound/);
+    expect(() => s.reserve(1e9)).toThrow(/^stepper\.linear: the contour needs 1000000000 complex factorizations holding .* more than the bound/);
+    expect(s.stats.factorizations).toBe(0);
+  });
+});
+
+const m0n = (r: { layout: { n: number } }) => r.layout.n;

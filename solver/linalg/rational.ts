@@ -8,13 +8,23 @@
  * integrand is analytic in a strip of half-width η around the contour, so N nodes give an error of about
  * e^{−Nη}, the growth of e^z beyond Γ adds a second term (see contourParameters) [D]; |g| ≤ e^{a} on Γ
  * amplifies rounding, so a is capped (e^{a} ≤ √(tol/ε)). Nodes come in conjugate pairs, so N/2
- * complex solves; each (z − B) x = r is solved matrix-free by restarted GMRES (Saad & Schultz 1986,
- * SIAM J. Sci. Stat. Comput. 7, 856–869) on the equivalent real system of size 2n, two matvecs per step.
- * Limits: the number of solves grows linearly with τρ and the GMRES iterations per solve grow with the
- * conditioning near the ends of the segment, so this backend is for small problems and cross-checks.
+ * complex solves (the weights of a real operator and real data at z̄ are the conjugates of those at z).
+ *
+ * Solves. When the operator offers complex shifted solves (`complexShiftedSolver`: the fixed linear parts, a
+ * sparse LU per pole, cached — the poles depend only on τρ and the tolerance, so a fixed Δt reuses them every
+ * step), (z − B) x = r is solved as (z/τ − A) x = r/τ with them; the set of N/2 factorizations is checked
+ * against the operator's memory and work bound before the first is made. LU without pivoting is safe for these
+ * poles but its growth rises near Re z = 0 (sparseLu.ts), so the residual is checked (two products) and up to
+ * two steps of iterative refinement are taken while it is above the target (Wilkinson's iterative refinement;
+ * Golub & Van Loan, Matrix Computations, 4th ed. 2013, §3.5.3). Otherwise each solve is matrix-free restarted
+ * GMRES (Saad & Schultz 1986, SIAM J. Sci. Stat. Comput. 7, 856–869) on the equivalent real system of size 2n,
+ * two matvecs per step.
+ * Limits: the number of poles grows linearly with τρ. With GMRES the iterations per solve grow with the
+ * conditioning near the ends of the segment (small problems and cross-checks only); with factorizations the
+ * memory grows as N/2 × the fill of one.
  */
 import { SolverError } from "../errors.js";
-import type { LinearOperator, PhiAction, PhiOptions, PhiStats } from "./types.js";
+import type { ComplexShifts, LinearOperator, PhiAction, PhiOptions, PhiStats } from "./types.js";
 import { phiComplexAll } from "./scalarPhi.js";
 import { highestNonZero, isZero } from "./vector.js";
 
@@ -61,6 +71,18 @@ export interface RationalOptions extends PhiOptions {
   restart?: number;
   /** Maximum GMRES restarts per solve (default 40). */
   maxRestarts?: number;
+  /** Use the operator's complex shifted solves when it has them (default true; false forces GMRES). */
+  direct?: boolean;
+  /** Iterative-refinement steps allowed per direct solve (default 2). */
+  refinementSteps?: number;
+}
+
+/** Per-call detail of the rational backend (the last `apply`). */
+export interface RationalStats extends PhiStats {
+  /** "direct" (factorizations) or "gmres". */
+  solver: "direct" | "gmres";
+  /** Refinement steps taken over all poles. */
+  refinements: number;
 }
 
 export function rationalPhi(op: LinearOperator, opts: RationalOptions): PhiAction {
@@ -83,12 +105,20 @@ export function rationalPhi(op: LinearOperator, opts: RationalOptions): PhiActio
   const H = new Float64Array((mg + 1) * mg);
   const cs = new Float64Array(mg), sn = new Float64Array(mg), g = new Float64Array(mg + 1), yk = new Float64Array(mg);
   const x = new Float64Array(N2), r = new Float64Array(N2), rhs = new Float64Array(N2), tmpA = new Float64Array(n), tmpB = new Float64Array(n);
-  const xRe = x.subarray(0, n), xIm = x.subarray(n, N2);
+  const xRe = x.subarray(0, n), xIm = x.subarray(n, N2), rRe = r.subarray(0, n), rIm = r.subarray(n, N2);
   const vZero = new Uint8Array(P + 1);
   const contour: ContourParameters = { eta: 0, nodes: 0, a: 0, b: 0 };
   const cr = new Float64Array(P + 1), ci = new Float64Array(P + 1);
   const wr = new Float64Array(P + 1), wi = new Float64Array(P + 1);
-  const stats: PhiStats = { matvecs: 0, innerProducts: 0, substeps: 0, errorEstimate: NaN, happyBreakdown: false };
+  const direct: ComplexShifts | undefined = opts.direct === false ? undefined : op.complexShiftedSolver?.();
+  const refinementSteps = Math.max(0, opts.refinementSteps ?? 2);
+  const pf = opts.field ?? "phi";
+  // the last two τ values and their pole counts: their factorizations must fit together, so that a stepper
+  // alternating two step sizes (e.g. h/2 and h) does not refactor every call
+  let tauA = NaN, polesA = 0, tauB = NaN, polesB = 0;
+  const stats: RationalStats = {
+    matvecs: 0, innerProducts: 0, substeps: 0, errorEstimate: NaN, happyBreakdown: false, solver: direct ? "direct" : "gmres", refinements: 0,
+  };
   let ips = 0;
   let worstResidual = 0;
 
@@ -166,6 +196,27 @@ export function rationalPhi(op: LinearOperator, opts: RationalOptions): PhiActio
     worstResidual = Math.max(worstResidual, resid / bnorm);
   }
 
+  /** Solve M x = rhs (M as in applyShifted) with the operator's factorizations, refining while the residual is above rtol. */
+  function directSolve(solver: ComplexShifts, zr: number, zi: number, tau: number, rtol: number): void {
+    const inv = 1 / tau;
+    for (let i = 0; i < N2; i++) r[i] = rhs[i] * inv;
+    solver.solve(xRe, xIm, rRe, rIm, zr * inv, zi * inv);
+    const bnorm = Math.sqrt(dot2(rhs, rhs));
+    if (bnorm === 0) return;
+    let resid = Infinity;
+    for (let step = 0; ; step++) {
+      applyShifted(r, x, xRe, xIm, zr, zi, tau);
+      for (let i = 0; i < N2; i++) r[i] = (rhs[i] - r[i]) * inv;
+      resid = (tau * Math.sqrt(dot2(r, r))) / bnorm;
+      if (!(resid > rtol) || step >= refinementSteps) break;
+      // correction d = (z/τ − A)⁻¹ (residual/τ), x += d
+      solver.solve(tmpA, tmpB, rRe, rIm, zr * inv, zi * inv);
+      for (let i = 0; i < n; i++) { xRe[i] += tmpA[i]; xIm[i] += tmpB[i]; }
+      stats.refinements++;
+    }
+    worstResidual = Math.max(worstResidual, resid);
+  }
+
   function apply(out: Float64Array, tau: number, v: readonly Float64Array[]): void {
     const mv0 = op.counters.matvecs;
     ips = 0; worstResidual = 0;
@@ -178,6 +229,14 @@ export function rationalPhi(op: LinearOperator, opts: RationalOptions): PhiActio
     const nodes = contour.nodes, a = contour.a, b = contour.b;
     for (let k = 0; k <= p; k++) vZero[k] = isZero(v[k]) ? 1 : 0;
     const rtol = Math.max(1e-15, 0.01 * tol * Math.exp(-a));
+    stats.refinements = 0;
+    if (direct && tau !== tauA && tau !== tauB) {
+      const other = Number.isNaN(tauA) ? 0 : polesA;
+      direct.reserve(nodes / 2 + other, `the rational backend (${pf}.backend) at τρ = ${R.toPrecision(3)}${other ? ` and ${(tauA * rho!).toPrecision(3)}` : ""}`);
+      tauB = tauA; polesB = polesA; tauA = tau; polesA = nodes / 2;
+    } else if (direct && tau === tauB) {
+      const t = tauA, p2 = polesA; tauA = tauB; polesA = polesB; tauB = t; polesB = p2;
+    }
     for (let j = 0; j < nodes / 2; j++) {
       const th = (2 * Math.PI * (j + 0.5)) / nodes;
       const zr = a * Math.cos(th), zi = b * Math.sin(th);
@@ -196,7 +255,8 @@ export function rationalPhi(op: LinearOperator, opts: RationalOptions): PhiActio
         const vk = v[k];
         for (let i = 0; i < n; i++) { rhs[i] += wr[k] * vk[i]; rhs[n + i] += wi[k] * vk[i]; }
       }
-      gmres(zr, zi, tau, rtol);
+      if (direct) directSolve(direct, zr, zi, tau, rtol);
+      else gmres(zr, zi, tau, rtol);
       for (let i = 0; i < n; i++) out[i] += x[i];
     }
     stats.matvecs = op.counters.matvecs - mv0;

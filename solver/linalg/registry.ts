@@ -22,7 +22,7 @@ export const phiBackends: readonly PhiBackendInfo[] = [
   { name: "taylor", description: "truncated Taylor series with scaling (Al-Mohy & Higham 2011); needs only a norm bound" },
   { name: "chebyshev", description: "Chebyshev/Bessel expansion for spectra in i[-rho, rho]; needs spectralBound; supports the filter" },
   { name: "substep", description: "RK4 sub-steps of the polynomial-forced linear ODE (split-explicit analogue); no inner products" },
-  { name: "rational", description: "elliptic-contour quadrature with GMRES shifted solves; skew operators, small problems only" },
+  { name: "rational", description: "elliptic-contour quadrature, hρ-proportional poles; a cached sparse complex factorization per pole on a fixed linear part (memory grows with hρ, bounded), GMRES solves otherwise (small problems only); skew operators" },
   { name: "rational-damped", description: "non-resolving: waves below filter.cutoff kept to the tolerance, faster ones damped, by Lanczos on (I − c²A²)⁻¹ with two cached sparse factorizations; cost does not grow with hρ; needs a fixed skew linear part and filter { cutoff }" },
   { name: "dense", description: "augmented-matrix exponential of the assembled matrix (Al-Mohy & Higham 2011, Thm 2.1); tests only" },
 ];

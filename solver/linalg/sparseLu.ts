@@ -10,6 +10,16 @@
  * 2013, §4.4), with element growth bounded in terms of the skew part (ibid.). A symmetric
  * permutation keeps that property, so any fill-reducing ordering may be used.
  *
+ * Complex shifts σI − K (the poles of the rational φ backend): K skew-adjoint in the weights has its field of
+ * values on the segment [−iρ, iρ], so that of σI − K is the vertical segment σ − [−iρ, iρ], at a distance
+ * δ(σ) > 0 from 0 whenever σ is off the segment. A unimodular rotation e^{−iψ}(σI − K) then has Hermitian part
+ * ≥ δ I (after the diagonal similarity), so LU without pivoting exists (same argument), the pivots being those of
+ * the rotated matrix times e^{iψ}; the element growth is bounded in terms of ‖K‖/δ (Golub & Van Loan,
+ * "Unsymmetric positive definite linear systems", Linear Algebra Appl. 28, 1979, 85–97; bound from memory).
+ * δ is smallest for poles near Re σ = 0 just beyond the ends ±iρ, so the callers measure the growth (ComplexLu
+ * `growth`) and check residuals. The complex factorizations below are `numericLu` and `numericBlockLu` in
+ * complex arithmetic (half the memory and flops of the real 2×2-block form of the same system).
+ *
  * Algorithm: elimination tree and row patterns by the up-looking method of Davis (Direct Methods for Sparse
  * Linear Systems, SIAM 2006, ch. 4: etree, ereach, up-looking Cholesky), here with two value sets — the
  * strictly lower part L (unit diagonal, stored by columns) and the strictly upper part U (stored by rows, same
@@ -676,5 +686,318 @@ function update3(xu: Float64Array, xl: Float64Array, lower: Float64Array, upper:
     xl[jb] -= l0 * b0 + l1 * b3 + l2 * b6; xl[jb + 1] -= l0 * b1 + l1 * b4 + l2 * b7; xl[jb + 2] -= l0 * b2 + l1 * b5 + l2 * b8;
     xl[jb + 3] -= l3 * b0 + l4 * b3 + l5 * b6; xl[jb + 4] -= l3 * b1 + l4 * b4 + l5 * b7; xl[jb + 5] -= l3 * b2 + l4 * b5 + l5 * b8;
     xl[jb + 6] -= l6 * b0 + l7 * b3 + l8 * b6; xl[jb + 7] -= l6 * b1 + l7 * b4 + l8 * b7; xl[jb + 8] -= l6 * b2 + l7 * b5 + l8 * b8;
+  }
+}
+
+/**
+ * Complex factors A = (I + L)(D + U) of a complex matrix on a scalar symmetric pattern (real and imaginary parts
+ * in separate arrays); `index` is fixed by the pattern, so factorizations of one pattern may share it.
+ */
+export interface ComplexLu {
+  readonly n: number;
+  readonly lColPtr: Int32Array;
+  readonly index: Int32Array;
+  readonly lowerRe: Float64Array; readonly lowerIm: Float64Array;
+  readonly upperRe: Float64Array; readonly upperIm: Float64Array;
+  /** 1/D. */
+  readonly pivotInvRe: Float64Array; readonly pivotInvIm: Float64Array;
+  /** Largest |U_ij| or |D_i| over the largest |A_ij| (the element growth of the elimination). */
+  growth: number;
+}
+
+export interface ComplexLuWork {
+  s: Int32Array; mark: Int32Array; stack: Int32Array; next: Int32Array;
+  xuR: Float64Array; xuI: Float64Array; xlR: Float64Array; xlI: Float64Array;
+}
+export function complexLuWork(n: number): ComplexLuWork {
+  return {
+    s: new Int32Array(n), mark: new Int32Array(n), stack: new Int32Array(n), next: new Int32Array(n),
+    xuR: new Float64Array(n), xuI: new Float64Array(n), xlR: new Float64Array(n), xlI: new Float64Array(n),
+  };
+}
+
+/**
+ * Up-looking LU without pivoting of the complex matrix with values (valRe + i valIm)[p] = A(rowIdx[p], column of p)
+ * on a symmetric pattern: `numericLu` in complex arithmetic. `index` may be shared with other factorizations of
+ * the same pattern (every factorization writes the same numbers into it).
+ */
+export function numericComplexLu(
+  pattern: { n: number; colPtr: Int32Array; rowIdx: Int32Array; transposeSlot: Int32Array },
+  sym: SymbolicLu, valRe: Float64Array, valIm: Float64Array, work: ComplexLuWork, index: Int32Array, into?: ComplexLu,
+): ComplexLu {
+  const { n, colPtr, rowIdx, transposeSlot: ts } = pattern;
+  const { parent, lColPtr } = sym;
+  const lowerRe = into?.lowerRe ?? new Float64Array(sym.nnzL), lowerIm = into?.lowerIm ?? new Float64Array(sym.nnzL);
+  const upperRe = into?.upperRe ?? new Float64Array(sym.nnzL), upperIm = into?.upperIm ?? new Float64Array(sym.nnzL);
+  const pivotInvRe = into?.pivotInvRe ?? new Float64Array(n), pivotInvIm = into?.pivotInvIm ?? new Float64Array(n);
+  const { s, mark, stack, next, xuR, xuI, xlR, xlI } = work;
+  mark.fill(-1);
+  next.set(lColPtr.subarray(0, n));
+  xuR.fill(0); xuI.fill(0); xlR.fill(0); xlI.fill(0);
+  let maxA = 0, maxU = 0;
+  for (let p = 0; p < valRe.length; p++) maxA = Math.max(maxA, Math.hypot(valRe[p], valIm[p]));
+  for (let k = 0; k < n; k++) {
+    const top = ereach(colPtr, rowIdx, k, parent, s, mark, stack);
+    for (let p = colPtr[k]; p < colPtr[k + 1]; p++) {
+      const i = rowIdx[p];
+      if (i <= k) { xuR[i] = valRe[p]; xuI[i] = valIm[p]; xlR[i] = valRe[ts[p]]; xlI[i] = valIm[ts[p]]; }
+    }
+    let dR = xuR[k], dI = xuI[k];
+    xuR[k] = 0; xuI[k] = 0; xlR[k] = 0; xlI[k] = 0;
+    for (let t = top; t < n; t++) {
+      const i = s[t];
+      const uR = xuR[i], uI = xuI[i];
+      const aR = xlR[i], aI = xlI[i], qR = pivotInvRe[i], qI = pivotInvIm[i];
+      const lR = aR * qR - aI * qI, lI = aR * qI + aI * qR;
+      xuR[i] = 0; xuI[i] = 0; xlR[i] = 0; xlI[i] = 0;
+      const end = next[i];
+      for (let p = lColPtr[i]; p < end; p++) {
+        const j = index[p];
+        const mR = lowerRe[p], mI = lowerIm[p], vR = upperRe[p], vI = upperIm[p];
+        xuR[j] -= mR * uR - mI * uI; xuI[j] -= mR * uI + mI * uR;
+        xlR[j] -= lR * vR - lI * vI; xlI[j] -= lR * vI + lI * vR;
+      }
+      dR -= lR * uR - lI * uI; dI -= lR * uI + lI * uR;
+      const p = next[i]++;
+      index[p] = k; lowerRe[p] = lR; lowerIm[p] = lI; upperRe[p] = uR; upperIm[p] = uI;
+      const au = Math.hypot(uR, uI);
+      if (au > maxU) maxU = au;
+    }
+    const d2 = dR * dR + dI * dI;
+    if (!(d2 > 0) || !Number.isFinite(d2)) throw new SolverError("breakdown", `sparse complex LU: zero or non-finite pivot at ${k} of ${n}`);
+    pivotInvRe[k] = dR / d2; pivotInvIm[k] = -dI / d2;
+    const ad = Math.sqrt(d2);
+    if (ad > maxU) maxU = ad;
+  }
+  const growth = maxU / maxA;
+  if (into) { into.growth = growth; return into; }
+  return { n, lColPtr, index, lowerRe, lowerIm, upperRe, upperIm, pivotInvRe, pivotInvIm, growth };
+}
+
+/** Solve A y = r in place (y = yRe + i yIm) with complex factors. */
+export function complexLuSolveInPlace(f: ComplexLu, yRe: Float64Array, yIm: Float64Array): void {
+  const { n, lColPtr: cp, index: ix, lowerRe: lr, lowerIm: li, upperRe: ur, upperIm: ui, pivotInvRe: dr, pivotInvIm: di } = f;
+  for (let j = 0; j < n; j++) {
+    const aR = yRe[j], aI = yIm[j];
+    if (aR === 0 && aI === 0) continue;
+    const end = cp[j + 1];
+    for (let p = cp[j]; p < end; p++) {
+      const i = ix[p];
+      yRe[i] -= lr[p] * aR - li[p] * aI;
+      yIm[i] -= lr[p] * aI + li[p] * aR;
+    }
+  }
+  for (let j = n - 1; j >= 0; j--) {
+    let sR = yRe[j], sI = yIm[j];
+    const end = cp[j + 1];
+    for (let p = cp[j]; p < end; p++) {
+      const i = ix[p], xR = yRe[i], xI = yIm[i];
+      sR -= ur[p] * xR - ui[p] * xI;
+      sI -= ur[p] * xI + ui[p] * xR;
+    }
+    yRe[j] = sR * dr[j] - sI * di[j];
+    yIm[j] = sR * di[j] + sI * dr[j];
+  }
+}
+
+/** blockTransposeSlot for callers that factor a block pattern by other routines (e.g. `numericComplexLu` with b = 1). */
+export function blockPatternTransposeSlot(pattern: BlockPattern): Int32Array {
+  return blockTransposeSlot(pattern);
+}
+
+/**
+ * Complex block factors A = (I + L)(D + U) on a node pattern of dense b×b complex blocks (row-major; real and
+ * imaginary parts apart), as `BlockLu`; `index` may be shared by factorizations of one pattern.
+ */
+export interface ComplexBlockLu {
+  readonly nNodes: number;
+  readonly b: number;
+  readonly lColPtr: Int32Array;
+  readonly index: Int32Array;
+  readonly lowerRe: Float64Array; readonly lowerIm: Float64Array;
+  readonly upperRe: Float64Array; readonly upperIm: Float64Array;
+  readonly pivotInvRe: Float64Array; readonly pivotInvIm: Float64Array;
+  /** Largest |U_ij| or |D_ij| over the largest |A_ij|. */
+  growth: number;
+}
+
+export interface ComplexBlockLuWork {
+  s: Int32Array; mark: Int32Array; stack: Int32Array; next: Int32Array;
+  xuR: Float64Array; xuI: Float64Array; xlR: Float64Array; xlI: Float64Array;
+  tuR: Float64Array; tuI: Float64Array; tlR: Float64Array; tlI: Float64Array;
+  dR: Float64Array; dI: Float64Array; iR: Float64Array; iI: Float64Array;
+}
+export function complexBlockLuWork(nNodes: number, b: number): ComplexBlockLuWork {
+  const bb = b * b, f = () => new Float64Array(bb);
+  return {
+    s: new Int32Array(nNodes), mark: new Int32Array(nNodes), stack: new Int32Array(nNodes), next: new Int32Array(nNodes),
+    xuR: new Float64Array(nNodes * bb), xuI: new Float64Array(nNodes * bb), xlR: new Float64Array(nNodes * bb), xlI: new Float64Array(nNodes * bb),
+    tuR: f(), tuI: f(), tlR: f(), tlI: f(), dR: f(), dI: f(), iR: f(), iI: f(),
+  };
+}
+
+/** (oR + i oI) = inverse of the complex b×b block (aR + i aI) by Gauss–Jordan with partial pivoting; a is destroyed. */
+function invertComplexBlock(oR: Float64Array, oI: Float64Array, aR: Float64Array, aI: Float64Array, b: number): void {
+  oR.fill(0); oI.fill(0);
+  for (let i = 0; i < b; i++) oR[i * b + i] = 1;
+  const swap = (x: Float64Array, r1: number, r2: number) => { for (let j = 0; j < b; j++) { const t = x[r1 * b + j]; x[r1 * b + j] = x[r2 * b + j]; x[r2 * b + j] = t; } };
+  for (let k = 0; k < b; k++) {
+    let p = k, best = Math.hypot(aR[k * b + k], aI[k * b + k]);
+    for (let i = k + 1; i < b; i++) { const v = Math.hypot(aR[i * b + k], aI[i * b + k]); if (v > best) { best = v; p = i; } }
+    if (!(best > 0) || !Number.isFinite(best)) throw new SolverError("breakdown", "sparse complex LU: singular pivot block");
+    if (p !== k) { swap(aR, k, p); swap(aI, k, p); swap(oR, k, p); swap(oI, k, p); }
+    const pr = aR[k * b + k], pi = aI[k * b + k], m2 = pr * pr + pi * pi, qr = pr / m2, qi = -pi / m2;
+    for (let j = 0; j < b; j++) {
+      const q = k * b + j;
+      let xr = aR[q], xi = aI[q]; aR[q] = xr * qr - xi * qi; aI[q] = xr * qi + xi * qr;
+      xr = oR[q]; xi = oI[q]; oR[q] = xr * qr - xi * qi; oI[q] = xr * qi + xi * qr;
+    }
+    for (let i = 0; i < b; i++) {
+      if (i === k) continue;
+      const fr = aR[i * b + k], fi = aI[i * b + k];
+      if (fr === 0 && fi === 0) continue;
+      for (let j = 0; j < b; j++) {
+        const q = i * b + j, r = k * b + j;
+        aR[q] -= fr * aR[r] - fi * aI[r]; aI[q] -= fr * aI[r] + fi * aR[r];
+        oR[q] -= fr * oR[r] - fi * oI[r]; oI[q] -= fr * oI[r] + fi * oR[r];
+      }
+    }
+  }
+}
+
+/**
+ * Up-looking complex block LU without pivoting between nodes (`numericBlockLu` in complex arithmetic): block (Q, P)
+ * at val[slot·b² …] for slot = the position of Q in the sorted list of P.
+ */
+export function numericComplexBlockLu(
+  pattern: BlockPattern, sym: SymbolicLu, valRe: Float64Array, valIm: Float64Array, w: ComplexBlockLuWork, index: Int32Array, into?: ComplexBlockLu,
+): ComplexBlockLu {
+  const b = pattern.nComp, bb = b * b, nNodes = pattern.order.length;
+  const colPtr = pattern.blockOffset, rowIdx = pattern.blockIndex;
+  const { parent, lColPtr } = sym;
+  const ts = blockTransposeSlot(pattern);
+  const nnz = sym.nnzL * bb;
+  const lowerRe = into?.lowerRe ?? new Float64Array(nnz), lowerIm = into?.lowerIm ?? new Float64Array(nnz);
+  const upperRe = into?.upperRe ?? new Float64Array(nnz), upperIm = into?.upperIm ?? new Float64Array(nnz);
+  const pivotInvRe = into?.pivotInvRe ?? new Float64Array(nNodes * bb), pivotInvIm = into?.pivotInvIm ?? new Float64Array(nNodes * bb);
+  const { s, mark, stack, next, xuR, xuI, xlR, xlI, tuR, tuI, tlR, tlI, dR, dI, iR, iI } = w;
+  mark.fill(-1);
+  next.set(lColPtr.subarray(0, nNodes));
+  xuR.fill(0); xuI.fill(0); xlR.fill(0); xlI.fill(0);
+  let maxA = 0, maxU = 0;
+  for (let p = 0; p < valRe.length; p++) maxA = Math.max(maxA, Math.hypot(valRe[p], valIm[p]));
+  for (let k = 0; k < nNodes; k++) {
+    const top = ereach(colPtr, rowIdx, k, parent, s, mark, stack);
+    for (let p = colPtr[k]; p < colPtr[k + 1]; p++) {
+      const i = rowIdx[p];
+      if (i > k) continue;
+      const src = p * bb, srcT = ts[p] * bb, dst = i * bb;
+      for (let q = 0; q < bb; q++) { xuR[dst + q] = valRe[src + q]; xuI[dst + q] = valIm[src + q]; xlR[dst + q] = valRe[srcT + q]; xlI[dst + q] = valIm[srcT + q]; }
+    }
+    const kb = k * bb;
+    for (let q = 0; q < bb; q++) { dR[q] = xuR[kb + q]; dI[q] = xuI[kb + q]; xuR[kb + q] = 0; xuI[kb + q] = 0; xlR[kb + q] = 0; xlI[kb + q] = 0; }
+    for (let t = top; t < nNodes; t++) {
+      const i = s[t], ib = i * bb;
+      // U(i,k) = XU_i; L(k,i) = XL_i D_i⁻¹
+      for (let q = 0; q < bb; q++) {
+        tuR[q] = xuR[ib + q]; tuI[q] = xuI[ib + q]; xuR[ib + q] = 0; xuI[ib + q] = 0;
+        const a = Math.hypot(tuR[q], tuI[q]); if (a > maxU) maxU = a;
+      }
+      for (let r = 0; r < b; r++) {
+        for (let c = 0; c < b; c++) {
+          let ar = 0, ai = 0;
+          for (let m = 0; m < b; m++) {
+            const xr = xlR[ib + r * b + m], xi = xlI[ib + r * b + m], yr = pivotInvRe[ib + m * b + c], yi = pivotInvIm[ib + m * b + c];
+            ar += xr * yr - xi * yi; ai += xr * yi + xi * yr;
+          }
+          tlR[r * b + c] = ar; tlI[r * b + c] = ai;
+        }
+      }
+      for (let q = 0; q < bb; q++) { xlR[ib + q] = 0; xlI[ib + q] = 0; }
+      const end = next[i];
+      for (let p = lColPtr[i]; p < end; p++) {
+        const jb = index[p] * bb, pb = p * bb;
+        // XU_j −= L(j,i) U(i,k);  XL_j −= L(k,i) U(i,j)
+        for (let r = 0; r < b; r++) {
+          for (let c = 0; c < b; c++) {
+            let ur = 0, ui = 0, lr = 0, li = 0;
+            for (let m = 0; m < b; m++) {
+              const a1r = lowerRe[pb + r * b + m], a1i = lowerIm[pb + r * b + m], b1r = tuR[m * b + c], b1i = tuI[m * b + c];
+              ur += a1r * b1r - a1i * b1i; ui += a1r * b1i + a1i * b1r;
+              const a2r = tlR[r * b + m], a2i = tlI[r * b + m], b2r = upperRe[pb + m * b + c], b2i = upperIm[pb + m * b + c];
+              lr += a2r * b2r - a2i * b2i; li += a2r * b2i + a2i * b2r;
+            }
+            const q = jb + r * b + c;
+            xuR[q] -= ur; xuI[q] -= ui; xlR[q] -= lr; xlI[q] -= li;
+          }
+        }
+      }
+      for (let r = 0; r < b; r++) {
+        for (let c = 0; c < b; c++) {
+          let ar = 0, ai = 0;
+          for (let m = 0; m < b; m++) {
+            const xr = tlR[r * b + m], xi = tlI[r * b + m], yr = tuR[m * b + c], yi = tuI[m * b + c];
+            ar += xr * yr - xi * yi; ai += xr * yi + xi * yr;
+          }
+          dR[r * b + c] -= ar; dI[r * b + c] -= ai;
+        }
+      }
+      const p = next[i]++;
+      index[p] = k;
+      const pb = p * bb;
+      for (let q = 0; q < bb; q++) { lowerRe[pb + q] = tlR[q]; lowerIm[pb + q] = tlI[q]; upperRe[pb + q] = tuR[q]; upperIm[pb + q] = tuI[q]; }
+    }
+    for (let q = 0; q < bb; q++) { const a = Math.hypot(dR[q], dI[q]); if (a > maxU) maxU = a; }
+    invertComplexBlock(iR, iI, dR, dI, b);
+    for (let q = 0; q < bb; q++) {
+      if (!Number.isFinite(iR[q]) || !Number.isFinite(iI[q])) throw new SolverError("breakdown", `sparse complex LU: non-finite pivot block at ${k} of ${nNodes}`);
+      pivotInvRe[kb + q] = iR[q]; pivotInvIm[kb + q] = iI[q];
+    }
+  }
+  const growth = maxU / maxA;
+  if (into) { into.growth = growth; return into; }
+  return { nNodes, b, lColPtr, index, lowerRe, lowerIm, upperRe, upperIm, pivotInvRe, pivotInvIm, growth };
+}
+
+/** Solve A y = r in place with complex block factors; y in the new order (position P, component c at P·b + c); tmp of 2b. */
+export function complexBlockLuSolveInPlace(f: ComplexBlockLu, yRe: Float64Array, yIm: Float64Array, tmp: Float64Array): void {
+  const { nNodes, b, lColPtr: cp, index: ix, lowerRe: lr, lowerIm: li, upperRe: ur, upperIm: ui, pivotInvRe: dr, pivotInvIm: di } = f;
+  const bb = b * b;
+  for (let j = 0; j < nNodes; j++) {
+    const jb = j * b, end = cp[j + 1];
+    for (let p = cp[j]; p < end; p++) {
+      const ib = ix[p] * b, pb = p * bb;
+      for (let r = 0; r < b; r++) {
+        let ar = 0, ai = 0;
+        for (let m = 0; m < b; m++) {
+          const xr = lr[pb + r * b + m], xi = li[pb + r * b + m], yr = yRe[jb + m], yi = yIm[jb + m];
+          ar += xr * yr - xi * yi; ai += xr * yi + xi * yr;
+        }
+        yRe[ib + r] -= ar; yIm[ib + r] -= ai;
+      }
+    }
+  }
+  for (let j = nNodes - 1; j >= 0; j--) {
+    const jb = j * b, end = cp[j + 1];
+    for (let r = 0; r < b; r++) { tmp[r] = yRe[jb + r]; tmp[b + r] = yIm[jb + r]; }
+    for (let p = cp[j]; p < end; p++) {
+      const ib = ix[p] * b, pb = p * bb;
+      for (let r = 0; r < b; r++) {
+        let ar = 0, ai = 0;
+        for (let m = 0; m < b; m++) {
+          const xr = ur[pb + r * b + m], xi = ui[pb + r * b + m], yr = yRe[ib + m], yi = yIm[ib + m];
+          ar += xr * yr - xi * yi; ai += xr * yi + xi * yr;
+        }
+        tmp[r] -= ar; tmp[b + r] -= ai;
+      }
+    }
+    for (let r = 0; r < b; r++) {
+      let ar = 0, ai = 0;
+      for (let m = 0; m < b; m++) {
+        const xr = dr[jb * b + r * b + m], xi = di[jb * b + r * b + m], yr = tmp[m], yi = tmp[b + m];
+        ar += xr * yr - xi * yi; ai += xr * yi + xi * yr;
+      }
+      yRe[jb + r] = ar; yIm[jb + r] = ai;
+    }
   }
 }

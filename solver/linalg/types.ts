@@ -31,6 +31,19 @@ export interface LinearOperator {
    * factorization per γ, computed once). Used by the rational-damped backend.
    */
   shiftedSolve?(y: Float64Array, c: Float64Array, gamma: number): void;
+  /**
+   * Complex shifted solves x = (σI − A)⁻¹ r, one sparse factorization per σ, cached, when the operator offers them.
+   * `reserve(count)` refuses (one line naming the field) when `count` factorizations would not fit the memory or
+   * work bound. Used by the rational backend.
+   */
+  complexShiftedSolver?(): ComplexShifts;
+}
+
+/** See LinearOperator.complexShiftedSolver. */
+export interface ComplexShifts {
+  reserve(count: number, what?: string): void;
+  /** x = (σI − A)⁻¹ r with σ = sr + i·si (real and imaginary parts apart); x may alias r. */
+  solve(xRe: Float64Array, xIm: Float64Array, rRe: Float64Array, rIm: Float64Array, sr: number, si: number): void;
 }
 
 export interface PhiStats {

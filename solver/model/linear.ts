@@ -247,6 +247,9 @@ export function restLinearOperator(model: ShallowWaterModel, opts: RestOperatorO
     shiftedSolve(y, c, gamma) {
       op.shiftedSolver().solve(y, c, gamma);
     },
+    complexShiftedSolver() {
+      return op.shiftedSolver().complex;
+    },
   };
   const op: RestLinearOperator & { spectralBound: number } = {
     n, layout, counters, skew: true, spectralBound: Infinity,

@@ -380,6 +380,9 @@ export function modalRestriction(model: ShallowWaterModel, nModes: number, rest:
     shiftedSolve(y, c, gamma) {
       shiftedSolver().solve(y, c, gamma);
     },
+    complexShiftedSolver() {
+      return shiftedSolver().complex;
+    },
   };
   const restrictTmp = new Float64Array(nModal);
   const restrictedOp: { -readonly [K in keyof LinearOperator]: LinearOperator[K] } = {

@@ -9,14 +9,20 @@
  * dissection and factored by `sparseLu.ts` without pivoting (see there why that is safe for I − γK with K
  * skew-adjoint in a diagonal inner product).
  *
+ * Complex shifts (σI − K) x = r, for the poles of the rational φ backend, use the same probed matrix and ordering:
+ * a complex LU (complex b×b blocks for b components per node), one factorization per σ, kept up to
+ * a memory bound that `reserve` checks for a whole set of poles before any is factored.
+ *
  * Cost is counted in matrix-vector-product equivalents of K (multiply-adds of the work / multiply-adds of one
  * product), added to the operator's own counter.
  */
 import { SolverError } from "../errors.js";
 import type { LinearOperator } from "../linalg/types.js";
 import {
-  blockLuSolveInPlace, blockLuWork, blockPattern, distance2Colouring, nestedDissection, numericBlockLu, symbolicBlockLu,
-  symmetricGraph, type BlockLu, type BlockPattern, type NodeGraph, type SymbolicLu,
+  blockLuSolveInPlace, blockLuWork, blockPattern, blockPatternTransposeSlot, complexBlockLuSolveInPlace, complexBlockLuWork,
+  complexLuSolveInPlace, complexLuWork, distance2Colouring, nestedDissection, numericBlockLu, numericComplexBlockLu, numericComplexLu,
+  symbolicBlockLu, symmetricGraph, type BlockLu, type BlockPattern, type ComplexBlockLu, type ComplexBlockLuWork, type ComplexLu,
+  type ComplexLuWork, type NodeGraph, type SymbolicLu,
 } from "../linalg/sparseLu.js";
 import type { Mesh } from "../mesh/types.js";
 
@@ -46,6 +52,42 @@ export interface ShiftedSolverOptions {
   maxWork?: number;
   /** Factorizations kept for distinct γ (default 4; the least recently used is dropped). */
   cacheSize?: number;
+  /**
+   * Complex shifts: largest total of stored factor numbers over the kept complex factorizations, counted as real
+   * numbers of the lower factor (the upper one holds as many): default 1e8, about 1.6 GB for both.
+   */
+  maxComplexFill?: number;
+  /** Complex shifts: largest multiply-adds of the factorizations one `reserve` may ask for (default 2e11). */
+  maxComplexWork?: number;
+}
+
+export interface ComplexShiftedSolveStats {
+  /** Real numbers of the lower factor of one complex factorization (the upper one holds as many). */
+  readonly fillPerFactorization: number;
+  /** Complex factorizations kept at most (the memory bound over the fill of one). */
+  readonly capacity: number;
+  factorizations: number;
+  solves: number;
+  /** Cost of one complex solve in products with K (real multiply-adds / those of one product). */
+  readonly matvecsPerSolve: number;
+  readonly matvecsPerFactorization: number;
+  /** Largest element growth max|U|/max|A| over the factorizations done (no pivoting; see sparseLu.ts). */
+  largestGrowth: number;
+}
+
+/**
+ * Solver for (σI − K) x = r with complex σ, one factorization per σ, cached (least recently used dropped beyond
+ * `capacity`). Single-component operators use a scalar complex LU, several components a complex block LU.
+ */
+export interface ComplexShiftedSolver {
+  /**
+   * Refuses, with one line naming the field, when `count` complex factorizations would not fit the memory bound
+   * or would exceed the work bound (call before a set of solves with `count` distinct shifts).
+   */
+  reserve(count: number, what?: string): void;
+  /** x = (σI − K)⁻¹ r, σ = sr + i·si; x may alias r. */
+  solve(xRe: Float64Array, xIm: Float64Array, rRe: Float64Array, rIm: Float64Array, sr: number, si: number): void;
+  readonly stats: ComplexShiftedSolveStats;
 }
 
 /** Solver for (I − γK) y = c with K the given operator in its own variables. */
@@ -53,6 +95,8 @@ export interface OperatorShiftedSolver {
   /** y = (I − γK)⁻¹ c; y and c may alias. */
   solve(y: Float64Array, c: Float64Array, gamma: number): void;
   readonly stats: ShiftedSolveStats;
+  /** The complex shifted solves on the same ordering and probed matrix. */
+  readonly complex: ComplexShiftedSolver;
 }
 
 /** The node graph of the wave operators: cells 0..nCells−1, edges nCells..nCells+nEdges−1. */
@@ -157,8 +201,112 @@ export function operatorShiftedSolver(
     unknowns: n, probeProducts: 0, fill: 0, factorizations: 0, solves: 0, matvecsPerSolve: NaN, matvecsPerFactorization: NaN,
   };
 
+  // complex shifts ------------------------------------------------------------------------------------------
+  const maxComplexFill = opts.maxComplexFill ?? 1e8, maxComplexWork = opts.maxComplexWork ?? 2e11;
+  const cStats: { -readonly [K in keyof ComplexShiftedSolveStats]: ComplexShiftedSolveStats[K] } = {
+    fillPerFactorization: NaN, capacity: 0, factorizations: 0, solves: 0, matvecsPerSolve: NaN, matvecsPerFactorization: NaN, largestGrowth: 0,
+  };
+  let cWork: ComplexLuWork | undefined, cIndex: Int32Array | undefined, cTs: Int32Array | undefined;
+  let cRe: Float64Array | undefined, cIm: Float64Array | undefined; // values of σI − K on the block pattern
+  let cbWork: ComplexBlockLuWork | undefined; // b > 1
+  let factorWork = NaN;
+  const cCache: { sr: number; si: number; f: ComplexLu | ComplexBlockLu; used: number }[] = [];
+  let clock = 0;
+  const permRe = new Float64Array(n), permIm = new Float64Array(n), tmp2 = new Float64Array(2 * nComp);
+
+  function complexSetup(): void {
+    if (!pattern) setup();
+    const pat = pattern!, s = sym!;
+    // s.nnzL counts node blocks (b² numbers each), s.factorMultiplyAdds real ones: a complex multiply-add is 4
+    cStats.fillPerFactorization = 2 * s.nnzL * bb;
+    factorWork = 4 * s.factorMultiplyAdds;
+    cStats.matvecsPerSolve = (4 * (2 * s.nnzL * bb + pat.order.length * bb)) / multiplyAddsPerMatvec;
+    cStats.matvecsPerFactorization = factorWork / multiplyAddsPerMatvec;
+    cStats.capacity = Math.max(0, Math.floor(maxComplexFill / cStats.fillPerFactorization));
+  }
+
+  function complexFactor(sr: number, si: number): ComplexLu | ComplexBlockLu {
+    clock++;
+    for (let i = cCache.length - 1; i >= 0; i--) {
+      const e = cCache[i];
+      if (e.sr === sr && e.si === si) { e.used = clock; return e.f; }
+    }
+    if (!(cStats.capacity >= 1)) complexSetup();
+    if (cStats.capacity < 1) complexRefuse(1, "a complex shifted solve");
+    const pat = pattern!, kv = kValues!, dg = diagSlot!;
+    // beyond capacity the least recently used factorization gives its arrays to the new one
+    let slot = -1;
+    if (cCache.length >= cStats.capacity) {
+      slot = 0;
+      for (let i = 1; i < cCache.length; i++) if (cCache[i].used < cCache[slot].used) slot = i;
+    }
+    const evicted = slot >= 0 ? cCache[slot].f : undefined;
+    if (slot >= 0) cCache[slot].sr = NaN; // overwritten below: never matched, even if the factorization fails
+    let f: ComplexLu | ComplexBlockLu;
+    cRe ??= new Float64Array(kv.length); cIm ??= new Float64Array(kv.length);
+    for (let p = 0; p < kv.length; p++) { cRe[p] = sr * dg[p] - kv[p]; cIm[p] = si * dg[p]; }
+    if (nComp === 1) {
+      cWork ??= complexLuWork(pat.n);
+      cTs ??= blockPatternTransposeSlot(pat);
+      cIndex ??= new Int32Array(sym!.nnzL);
+      f = numericComplexLu(
+        { n: pat.n, colPtr: pat.blockOffset, rowIdx: pat.blockIndex, transposeSlot: cTs }, sym!, cRe, cIm, cWork, cIndex,
+        evicted as ComplexLu | undefined,
+      );
+    } else {
+      cbWork ??= complexBlockLuWork(pat.order.length, nComp);
+      cIndex ??= new Int32Array(sym!.nnzL);
+      f = numericComplexBlockLu(pat, sym!, cRe, cIm, cbWork, cIndex, evicted as ComplexBlockLu | undefined);
+    }
+    cStats.largestGrowth = Math.max(cStats.largestGrowth, f.growth);
+    if (slot >= 0) { const e = cCache[slot]; e.sr = sr; e.si = si; e.f = f; e.used = clock; } else cCache.push({ sr, si, f, used: clock });
+    cStats.factorizations++;
+    op.counters.matvecs += cStats.matvecsPerFactorization;
+    return f;
+  }
+
+  function complexRefuse(count: number, what: string): never {
+    const fill = count * cStats.fillPerFactorization;
+    throw new SolverError("bad-input", `${field}: ${what} needs ${count} complex factorizations holding ${fill.toExponential(2)} factor entries, more than the bound ${maxComplexFill.toExponential(2)}; use a smaller Δt·ρ, a smaller mesh or another backend`, field);
+  }
+
+  const complex: ComplexShiftedSolver = {
+    stats: cStats,
+    reserve(count, what = "the contour") {
+      if (!(cStats.capacity >= 1)) complexSetup();
+      if (count * cStats.fillPerFactorization > maxComplexFill) complexRefuse(count, what);
+      const w = count * factorWork;
+      if (w > maxComplexWork) {
+        throw new SolverError("bad-input", `${field}: ${what} needs ${count} complex factorizations taking ${w.toExponential(2)} multiply-adds, more than the bound ${maxComplexWork.toExponential(2)}; use a smaller Δt·ρ, a smaller mesh or another backend`, field);
+      }
+    },
+    solve(xRe, xIm, rRe, rIm, sr, si) {
+      if (!Number.isFinite(sr) || !Number.isFinite(si)) throw new SolverError("bad-input", `${field}: complex shift ${sr} + ${si}i must be finite`, field);
+      const f = complexFactor(sr, si);
+      const order = pattern!.order;
+      if (nComp === 1) {
+        for (let P = 0; P < order.length; P++) { const i = order[P]; permRe[P] = rRe[i]; permIm[P] = rIm[i]; }
+        complexLuSolveInPlace(f as ComplexLu, permRe, permIm);
+        for (let P = 0; P < order.length; P++) { const i = order[P]; xRe[i] = permRe[P]; xIm[i] = permIm[P]; }
+      } else {
+        for (let P = 0; P < order.length; P++) {
+          const node = order[P];
+          for (let d = 0; d < nComp; d++) { const o = orig(node, d); permRe[P * nComp + d] = rRe[o]; permIm[P * nComp + d] = rIm[o]; }
+        }
+        complexBlockLuSolveInPlace(f as ComplexBlockLu, permRe, permIm, tmp2);
+        for (let P = 0; P < order.length; P++) {
+          const node = order[P];
+          for (let d = 0; d < nComp; d++) { const o = orig(node, d); xRe[o] = permRe[P * nComp + d]; xIm[o] = permIm[P * nComp + d]; }
+        }
+      }
+      cStats.solves++;
+      op.counters.matvecs += cStats.matvecsPerSolve;
+    },
+  };
+
   return {
     stats,
+    complex,
     solve(y, c, gamma) {
       if (!Number.isFinite(gamma)) throw new SolverError("bad-input", `${field}: shift γ = ${gamma} must be finite`, field);
       const f = factorFor(gamma);
