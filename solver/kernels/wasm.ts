@@ -39,8 +39,8 @@ export interface KernelExports {
   ): void;
   modalTwo(out: Ptr, y: Ptr, nc: number, ne: number, WT: number, WC: number, cb: Ptr, gb: Ptr, db: Ptr, ti: Ptr, ec: Ptr, open: Ptr, ci: Ptr): void;
   restOperator(
-    out: Ptr, x: Ptr, nc: number, ne: number, L: number, WT: number, WC: number,
-    G: Ptr, mont: Ptr, cor: Ptr, cont: Ptr, inv: Ptr, ti: Ptr, ec: Ptr, open: Ptr, ci: Ptr,
+    out: Ptr, x: Ptr, nc: number, ne: number, L: number, P: number, WT: number, WC: number,
+    G: Ptr, mont: Ptr, uI: Ptr, cor: Ptr, cont: Ptr, inv: Ptr, ti: Ptr, ecM: Ptr, open: Ptr, ci: Ptr,
   ): void;
   gradient(out: Ptr, phi: Ptr, ne: number, ec: Ptr, dc: Ptr, open: Ptr): void;
   divergence(out: Ptr, flux: Ptr, nc: number, W: number, ci: Ptr, sl: Ptr, area: Ptr): void;
@@ -172,4 +172,23 @@ export function padStencil(
     }
   }
   return { width, index: idx, coefs: out };
+}
+
+/** Lane stride of layer-interleaved kernel arrays: L rounded up to a multiple of 3 (the kernels' lane block). */
+export function laneStride(L: number): number {
+  return 3 * Math.ceil(L / 3);
+}
+
+/**
+ * Per-layer arrays of equal length interleaved by lane: out[P·s + k] = parts[min(k, L − 1)][s] for P = laneStride(L)
+ * (lanes past the last layer repeat it, so a padded lane computes a copy of the last layer).
+ */
+export function interleaveLanes(parts: readonly Float64Array[]): Float64Array {
+  const L = parts.length, P = laneStride(L), len = parts[0].length;
+  const out = new Float64Array(P * len);
+  for (let k = 0; k < P; k++) {
+    const a = parts[Math.min(k, L - 1)];
+    for (let s = 0; s < len; s++) out[P * s + k] = a[s];
+  }
+  return out;
 }

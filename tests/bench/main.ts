@@ -14,7 +14,7 @@ import { EXTRA_SECTIONS } from "./sections";
 /**
  * `npm run bench [-- --json FILE] [-- --quick]`: tendency and restricted-operator cost per cell·layer beside our own
  * C loop over the same arrays, and RK4 step time, on periodic hexagonal meshes with 3 layers, plus the sections
- * registered in sections.ts (`--only-kernels` skips those; `--wall` times the kernel table by the wall clock
+ * registered in sections.ts (`--only-kernels` skips those; `--kernels rest,jacobian` times only those rows; `--wall` times the kernel table by the wall clock
  * instead of CPU time).
  */
 const argv = process.argv.slice(2);
@@ -27,6 +27,12 @@ if (jsonIdx >= 0 && !jsonFile) {
 const quick = argv.includes("--quick");
 /** The kernel table times CPU time of each process unless `--wall` (the machine is shared; see the table's note). */
 const wall = argv.includes("--wall");
+/** `--kernels rest,jacobian`: time only these rows of the kernel table (while iterating on one kernel). */
+const kernelsIdx = argv.indexOf("--kernels");
+/** `--meshes 32,64`: mesh sizes of the kernel table (default 64 and 128 cells a side). */
+const meshesIdx = argv.indexOf("--meshes");
+const meshSizes = meshesIdx >= 0 ? (argv[meshesIdx + 1] ?? "").split(",").map(Number).filter((v) => Number.isInteger(v) && v >= 4 && v <= 512) : [64, 128];
+const onlyKernels = kernelsIdx >= 0 ? (argv[kernelsIdx + 1] ?? "").split(",").filter((s) => s !== "") : null;
 const log = (s: string) => process.stdout.write(s + "\n");
 
 export function benchScenario(n: number) {
@@ -55,7 +61,7 @@ log(wall ? "Timed by the wall clock (--wall)." : "Timed by each process's CPU ti
 log("kernel                mesh      Stepwell (best / med.)   TS loops (best / med.)   C (best / med.)      ratio (best / med.)  diff");
 const fmt = (t: { best: number; median: number }) => `${t.best.toFixed(1).padStart(7)} / ${t.median.toFixed(1).padEnd(7)}`;
 type KernelName = "tendency" | "restricted" | "substep" | "rest" | "jacobian";
-for (const n of [64, 128]) {
+for (const n of meshSizes) {
   const run = createRun(benchScenario(n));
   const model = run.model;
   const reference = new ShallowWaterModel(model.mesh, model.params, "typescript");
@@ -77,7 +83,7 @@ for (const n of [64, 128]) {
   const [grad, cor1, cor2] = [0, 1, 2].map((j) => outSub.subarray(j * ne, (j + 1) * ne));
   const div = outSub.subarray(3 * ne);
   const rounds = quick ? 2 : 5;
-  const inner = n === 64 ? 20 : 5;
+  const inner = Math.max(5, Math.round((20 * 64 * 64) / (n * n)));
   const reps = quick ? 3 : 5;
   const kernels: Record<KernelName, { label: string; units: number; inner: number; fn: () => void; ref: () => void }> = {
     tendency: { label: "tendency", units: nc * 3, inner, fn: () => model.tendency(out, run.state, 0), ref: () => reference.tendency(out, run.state, 0) },
@@ -90,7 +96,7 @@ for (const n of [64, 128]) {
     rest: { label: "rest operator", units: nc * 3, inner, fn: () => rest.apply(outRest, restInput), ref: () => restRef.apply(outRest, restInput) },
     jacobian: { label: "Jacobian-vector", units: nc * 3, inner, fn: () => jac.apply(outJac, restInput), ref: () => jacRef.apply(outJac, restInput) },
   };
-  const names = Object.keys(kernels) as KernelName[];
+  const names = (Object.keys(kernels) as KernelName[]).filter((k) => !onlyKernels || onlyKernels.includes(k));
   const sw = Object.fromEntries(names.map((k) => [k, [] as number[]])) as Record<KernelName, number[]>;
   const ts = Object.fromEntries(names.map((k) => [k, [] as number[]])) as Record<KernelName, number[]>;
   const c = Object.fromEntries(names.map((k) => [k, [] as number[]])) as Record<KernelName, number[]>;

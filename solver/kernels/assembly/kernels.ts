@@ -288,32 +288,91 @@ export function modalTwo(
 }
 
 /**
- * The rest-state operator of linear.ts: M' = 𝒢 h' per cell into `mont` [k·nc + i], then per layer the Coriolis
- * term with rest PV minus the Montgomery gradient on open edges, and the continuity −D(Ĥ_k u_k).
- * `cor` [k·WT·ne + WT·e + j], `cont` [k·WC·nc + WC·i + j] (padded stencils), `G` row-major L×L.
+ * Velocities of a layer-major state into a layer-interleaved copy uI[P·e + k] (lanes k ≥ L repeat the last layer),
+ * so that one stencil address serves every layer of a block: lanes at +0, +8, +16 bytes.
  */
-export function restOperator(
-  out: usize, x: usize, nc: i32, ne: i32, L: i32, WT: i32, WC: i32,
-  G: usize, mont: usize, cor: usize, cont: usize, inv: usize, ti: usize, ec: usize, open: usize, ci: usize,
-): void {
+@inline function interleaveLayers(uI: usize, src: usize, n: i32, L: i32, P: i32): void {
+  for (let k = 0; k < P; k++) {
+    const s = src + (<usize>((k < L ? k : L - 1) * n) << 3), d = uI + (<usize>k << 3), stride = <usize>P << 3;
+    for (let e = 0; e < n; e++) store<f64>(d + <usize>e * stride, ld(s, e));
+  }
+}
+
+/** M'_k = Σ_j 𝒢_kj h'_j per cell into `mont` [P·i + k] (lanes ≥ L repeat the last layer; L = 3 unrolled; the loop's order). */
+@inline function montgomery(mont: usize, x: usize, nc: i32, L: i32, P: i32, G: usize): void {
+  if (L == 3 && P == 3) {
+    const g00 = ld(G, 0), g01 = ld(G, 1), g02 = ld(G, 2), g10 = ld(G, 3), g11 = ld(G, 4), g12 = ld(G, 5), g20 = ld(G, 6), g21 = ld(G, 7), g22 = ld(G, 8);
+    const x1 = x + (<usize>nc << 3), x2 = x + (<usize>(2 * nc) << 3);
+    for (let i = 0; i < nc; i++) {
+      const a = ld(x, i), b = ld(x1, i), c = ld(x2, i);
+      const o = mont + <usize>(24 * i);
+      store<f64>(o, g00 * a + g01 * b + g02 * c);
+      store<f64>(o, g10 * a + g11 * b + g12 * c, 8);
+      store<f64>(o, g20 * a + g21 * b + g22 * c, 16);
+    }
+    return;
+  }
   for (let i = 0; i < nc; i++) {
-    for (let k = 0; k < L; k++) {
+    for (let k = 0; k < P; k++) {
+      const kk = k < L ? k : L - 1;
       let s: f64 = 0;
-      for (let j = 0; j < L; j++) s += ld(G, k * L + j) * ld(x, j * nc + i);
-      st(mont, k * nc + i, s);
+      for (let j = 0; j < L; j++) s += ld(G, kk * L + j) * ld(x, j * nc + i);
+      st(mont, P * i + k, s);
     }
   }
+}
+
+/**
+ * The rest-state operator of linear.ts: M' = 𝒢 h' per cell, then per layer the Coriolis term with rest PV minus
+ * the Montgomery gradient on open edges, and the continuity −D(Ĥ_k u_k); out and x layer-major.
+ * Layers go in blocks of three lanes over layer-interleaved arrays (stride P, L rounded up to a multiple of 3):
+ * velocities uI [P·e + k] and M' `mont` [P·i + k] (work), coefficients `cor` [P·(WT·e + j) + k] and
+ * `cont` [P·(WC·i + j) + k] (padded stencils). Stencil indices are absolute byte addresses of lane 0 of layer 0:
+ * `ti`, `ci` into uI, `ecM` (the two cells of each edge) into mont. Lanes 0 and 1 of a block run as one f64x2
+ * operation, lane 2 as a scalar one; every lane is the loop's sum in the loop's order.
+ */
+export function restOperator(
+  out: usize, x: usize, nc: i32, ne: i32, L: i32, P: i32, WT: i32, WC: i32,
+  G: usize, mont: usize, uI: usize, cor: usize, cont: usize, inv: usize, ti: usize, ecM: usize, open: usize, ci: usize,
+): void {
   const uOffset = L * nc;
-  for (let k = 0; k < L; k++) {
-    const u = x + (<usize>(uOffset + k * ne) << 3), oU = out + (<usize>(uOffset + k * ne) << 3);
-    const M = mont + (<usize>(k * nc) << 3), oH = out + (<usize>(k * nc) << 3);
-    const corK = cor + (<usize>(k * WT * ne) << 3), contK = cont + (<usize>(k * WC * nc) << 3);
+  interleaveLayers(uI, x + (<usize>uOffset << 3), ne, L, P);
+  montgomery(mont, x, nc, L, P, G);
+  const slotT = <usize>P << 3;
+  for (let kb = 0; kb < P; kb += 3) {
+    const k0 = kb < L ? kb : L - 1, k1 = lane(kb, 1, L), k2 = lane(kb, 2, L), lo = <usize>kb << 3;
+    const o0 = out + (<usize>(uOffset + k0 * ne) << 3), o1 = out + (<usize>(uOffset + k1 * ne) << 3), o2 = out + (<usize>(uOffset + k2 * ne) << 3);
     for (let e = 0; e < ne; e++) {
-      if (load<u8>(open + <usize>e) == 0) { st(oU, e, 0); continue; }
-      const acc = tangentSum(corK, ti, u, WT * e, WT);
-      st(oU, e, acc - (ld(M, li(ec, 2 * e + 1)) - ld(M, li(ec, 2 * e))) * ld(inv, e));
+      if (load<u8>(open + <usize>e) == 0) { st(o0, e, 0); st(o1, e, 0); st(o2, e, 0); continue; }
+      let a01 = f64x2.splat(0);
+      let a2: f64 = 0;
+      const t0 = WT * e;
+      let pi = ti + (<usize>t0 << 2), pc = cor + <usize>t0 * slotT + lo;
+      for (let q = 0; q < WT; q++) {
+        const j = <usize>load<i32>(pi) + lo;
+        a01 = f64x2.add(a01, f64x2.mul(v128.load(pc), v128.load(j)));
+        a2 += load<f64>(pc, 16) * load<f64>(j, 16);
+        pi += 4; pc += slotT;
+      }
+      const cA = <usize>li(ecM, 2 * e) + lo, cB = <usize>li(ecM, 2 * e + 1) + lo, id = ld(inv, e);
+      st(o0, e, f64x2.extract_lane(a01, 0) - (load<f64>(cB) - load<f64>(cA)) * id);
+      st(o1, e, f64x2.extract_lane(a01, 1) - (load<f64>(cB, 8) - load<f64>(cA, 8)) * id);
+      st(o2, e, a2 - (load<f64>(cB, 16) - load<f64>(cA, 16)) * id);
     }
-    for (let i = 0; i < nc; i++) st(oH, i, cellSum(contK, ci, u, WC * i, WC));
+    const h0 = out + (<usize>(k0 * nc) << 3), h1 = out + (<usize>(k1 * nc) << 3), h2 = out + (<usize>(k2 * nc) << 3);
+    for (let i = 0; i < nc; i++) {
+      let a01 = f64x2.splat(0);
+      let a2: f64 = 0;
+      const q0 = WC * i;
+      let pi = ci + (<usize>q0 << 2), pc = cont + <usize>q0 * slotT + lo;
+      for (let q = 0; q < WC; q++) {
+        const j = <usize>load<i32>(pi) + lo;
+        a01 = f64x2.add(a01, f64x2.mul(v128.load(pc), v128.load(j)));
+        a2 += load<f64>(pc, 16) * load<f64>(j, 16);
+        pi += 4; pc += slotT;
+      }
+      st(h0, i, f64x2.extract_lane(a01, 0)); st(h1, i, f64x2.extract_lane(a01, 1)); st(h2, i, a2);
+    }
   }
 }
 
