@@ -33,10 +33,7 @@ export interface KernelExports {
     out: Ptr, ne: number, uOffset: number, L: number, P: number, W: number,
     ec: Ptr, open: Ptr, inv: Ptr, slot: Ptr, tw: Ptr, flux: Ptr, qE: Ptr, fq: Ptr, bern: Ptr,
   ): void;
-  modalDiagonal(
-    outH: Ptr, outU: Ptr, h: Ptr, u: Ptr, nc: number, ne: number, WT: number, WC: number,
-    cor: Ptr, gd: Ptr, dd: Ptr, ti: Ptr, ec: Ptr, open: Ptr, ci: Ptr,
-  ): void;
+  modalDiagonal(outH: Ptr, outU: Ptr, nc: number, ne: number, WT: number, WC: number, cor: Ptr, gd: Ptr, dd: Ptr, ti: Ptr, ec: Ptr, open: Ptr, ci: Ptr): void;
   modalTwo(out: Ptr, y: Ptr, nc: number, ne: number, WT: number, WC: number, cb: Ptr, gb: Ptr, db: Ptr, ti: Ptr, ec: Ptr, open: Ptr, ci: Ptr): void;
   restOperator(
     out: Ptr, x: Ptr, nc: number, ne: number, L: number, P: number, WT: number, WC: number,

@@ -232,21 +232,34 @@ export function edgeMomentum(
   return acc;
 }
 
+/** Σ_j c[t0 + j]·f[j-th address], W slots from slot t0: `pi` the absolute byte addresses, `pc` the coefficients. */
+@inline function gatherSum(pc: usize, pi: usize, t0: i32, W: i32): f64 {
+  let acc: f64 = 0;
+  let c = pc + (<usize>t0 << 3), i = pi + (<usize>t0 << 2);
+  const end = i + (<usize>W << 2);
+  while (i < end) {
+    acc += load<f64>(c) * load<f64>(<usize>load<i32>(i));
+    c += 8; i += 4;
+  }
+  return acc;
+}
+
 /**
  * One mode of the diagonal modal operator: velocity out_u[e] = Σ cor·u + gd[2e] h[c1] + gd[2e+1] h[c2] on open
- * edges (0 on coastline edges), thickness out_h[i] = Σ div·u. `u`, `h`, `outU`, `outH` point at the mode's blocks.
+ * edges (0 on coastline edges), thickness out_h[i] = Σ div·u. `outU`, `outH` point at the mode's output blocks;
+ * the stencil indices are absolute byte addresses of the mode's input blocks (`ti`, `ci` into u, `ec` into h).
  */
 export function modalDiagonal(
-  outH: usize, outU: usize, h: usize, u: usize, nc: i32, ne: i32, WT: i32, WC: i32,
+  outH: usize, outU: usize, nc: i32, ne: i32, WT: i32, WC: i32,
   cor: usize, gd: usize, dd: usize, ti: usize, ec: usize, open: usize, ci: usize,
 ): void {
   for (let e = 0; e < ne; e++) {
     if (load<u8>(open + <usize>e) == 0) { st(outU, e, 0); continue; }
-    let acc = tangentSum(cor, ti, u, WT * e, WT);
-    acc += ld(gd, 2 * e) * ld(h, li(ec, 2 * e)) + ld(gd, 2 * e + 1) * ld(h, li(ec, 2 * e + 1));
+    let acc = gatherSum(cor, ti, WT * e, WT);
+    acc += ld(gd, 2 * e) * load<f64>(<usize>li(ec, 2 * e)) + ld(gd, 2 * e + 1) * load<f64>(<usize>li(ec, 2 * e + 1));
     st(outU, e, acc);
   }
-  for (let i = 0; i < nc; i++) st(outH, i, cellSum(dd, ci, u, WC * i, WC));
+  for (let i = 0; i < nc; i++) st(outH, i, gatherSum(dd, ci, WC * i, WC));
 }
 
 /**
