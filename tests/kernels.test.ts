@@ -6,6 +6,7 @@ import { seededRandom } from "../solver/mesh/hexLattice";
 import { divergence, divergenceLoop, gradient, gradientLoop } from "../solver/mesh/operators";
 import { jacobianOperator } from "../solver/model/jacobian";
 import { restLinearOperator } from "../solver/model/linear";
+import { problemFor } from "../solver/model/problem";
 import { modalRestriction } from "../solver/model/restriction";
 import { ShallowWaterModel } from "../solver/model/shallowWater";
 import { pvFlux, pvFluxLoop } from "../solver/model/terms";
@@ -126,6 +127,31 @@ describe("WebAssembly kernels", () => {
     fast.apply(a, v);
     slow.apply(b, v);
     expect(relDiff(a, b)).toBeLessThan(1e-13);
+  });
+
+  it("fast/slow split on a basin (pressure, Coriolis, surface tendency, tendency split, reconcile): equals the TypeScript loops to 1e-14", () => {
+    const run = basin(3);
+    const fast = problemFor(run.model).fastSlow, slow = problemFor(reference(run)).fastSlow;
+    const { nCells: nc, nEdges: ne } = run.mesh;
+    const T = random(run.model.n, 29), eta = random(nc, 31), ub = random(ne, 37);
+    for (let e = 0; e < ne; e++) if (!run.mesh.edgeOpen[e]) ub[e] = 0;
+    fast.freeze(run.state);
+    slow.freeze(run.state);
+    const pair = (n: number) => [new Float64Array(n), new Float64Array(n)] as const;
+    const [a, b] = pair(ne), [c, d] = pair(nc), [la, lb] = pair(3 * ne);
+    fast.pressure(a, eta); slow.pressure(b, eta);
+    expect(relDiff(a, b)).toBeLessThan(1e-14);
+    fast.coriolis(a, ub); slow.coriolis(b, ub);
+    expect(relDiff(a, b)).toBeLessThan(1e-14);
+    fast.surfaceTendency(c, ub); slow.surfaceTendency(d, ub);
+    expect(relDiff(c, d)).toBeLessThan(1e-14);
+    fast.splitTendency(a, la, run.state, T); slow.splitTendency(b, lb, run.state, T);
+    expect(relDiff(a, b)).toBeLessThan(1e-14);
+    expect(relDiff(la, lb)).toBeLessThan(1e-14);
+    const [x1, x2] = pair(run.model.n), vPrime = random(3 * ne, 41), uPrime = random(3 * ne, 43);
+    fast.reconcile(x1, run.state, vPrime, ub, uPrime, ub, 60);
+    slow.reconcile(x2, run.state, vPrime, ub, uPrime, ub, 60);
+    expect(relDiff(x1, x2)).toBeLessThan(1e-14);
   });
 
   it("gradient, divergence (with layer offsets) and PV flux on a basin: equal the TypeScript loops to 1e-15", () => {

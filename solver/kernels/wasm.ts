@@ -39,9 +39,12 @@ export interface KernelExports {
     out: Ptr, x: Ptr, nc: number, ne: number, L: number, P: number, WT: number, WC: number,
     G: Ptr, mont: Ptr, uI: Ptr, cor: Ptr, cont: Ptr, inv: Ptr, ti: Ptr, ecM: Ptr, open: Ptr, ci: Ptr,
   ): void;
-  gradient(out: Ptr, phi: Ptr, ne: number, ec: Ptr, dc: Ptr, open: Ptr): void;
-  divergence(out: Ptr, flux: Ptr, nc: number, W: number, ci: Ptr, sl: Ptr, area: Ptr): void;
-  pvFlux(out: Ptr, flux: Ptr, q: Ptr, ne: number, W: number, ti: Ptr, tw: Ptr, open: Ptr): void;
+  gradient(out: Ptr, ne: number, ec: Ptr, dc: Ptr, open: Ptr): void;
+  divergence(out: Ptr, nc: number, W: number, ci: Ptr, sl: Ptr, area: Ptr): void;
+  pvFlux(out: Ptr, flux: Ptr, q: Ptr, fq: Ptr, ne: number, W: number, ti: Ptr, tw: Ptr, open: Ptr): void;
+  barotropicCoriolis(out: Ptr, u: Ptr, H: Ptr, hq: Ptr, ne: number, W: number, ti: Ptr, tw: Ptr, open: Ptr): void;
+  barotropicSurface(out: Ptr, u: Ptr, H: Ptr, hq: Ptr, nc: number, ne: number, W: number, ci: Ptr, sl: Ptr, area: Ptr): void;
+  barotropicPressure(out: Ptr, ne: number, negG: number, ec: Ptr, dc: Ptr, open: Ptr): void;
   windAndDrag(out: Ptr, x: Ptr, ne: number, uOffset: number, L: number, ec: Ptr, open: Ptr, wind: Ptr, rho0: number, drag: number): void;
   vectorLaplacian(
     out: Ptr, u: Ptr, nc: number, ne: number, nv: number, WC: number, ci: Ptr, sl: Ptr, area: Ptr,

@@ -393,45 +393,82 @@ export function restOperator(
 // Single-field mesh operators of solver/mesh/operators.ts and terms.ts (the stencils of a barotropic sub-step),
 // in their operation order: gradient, divergence, PV flux.
 
-/** out[e] = (φ[c2] − φ[c1]) / d_e on open edges, 0 on coastline edges. */
-export function gradient(out: usize, phi: usize, ne: i32, ec: usize, dc: usize, open: usize): void {
+/** out[e] = (φ[c2] − φ[c1]) / d_e on open edges, 0 on coastline edges; `ec` holds the absolute addresses of φ[c]. */
+export function gradient(out: usize, ne: i32, ec: usize, dc: usize, open: usize): void {
   for (let e = 0; e < ne; e++) {
-    st(out, e, load<u8>(open + <usize>e) != 0 ? (ld(phi, li(ec, 2 * e + 1)) - ld(phi, li(ec, 2 * e))) / ld(dc, e) : 0);
+    st(out, e, load<u8>(open + <usize>e) != 0 ? (load<f64>(<usize>li(ec, 2 * e + 1)) - load<f64>(<usize>li(ec, 2 * e))) / ld(dc, e) : 0);
   }
 }
 
-/** out[i] = (Σ_q (s_q l_q) F_q) / A_i; `sl` holds s_q·l_q per padded slot. */
-export function divergence(out: usize, flux: usize, nc: i32, W: i32, ci: usize, sl: usize, area: usize): void {
-  for (let i = 0; i < nc; i++) st(out, i, cellSum(sl, ci, flux, W * i, W) / ld(area, i));
+/** out[i] = (Σ_q (s_q l_q) F_q) / A_i; `sl` holds s_q·l_q per padded slot, `ci` the absolute addresses of F. */
+export function divergence(out: usize, nc: i32, W: i32, ci: usize, sl: usize, area: usize): void {
+  for (let i = 0; i < nc; i++) st(out, i, gatherSum(sl, ci, W * i, W) / ld(area, i));
 }
 
-/** out[e] = ½ Σ_{e'} W_{e,e'} (l_{e'}/d_e) F_{e'} (q_e + q_{e'}) on open edges, 0 on coastline edges. */
-export function pvFlux(out: usize, flux: usize, q: usize, ne: i32, W: i32, ti: usize, tw: usize, open: usize): void {
+/**
+ * out[e] = ½ Σ_{e'} W_{e,e'} (l_{e'}/d_e) F_{e'} (q_e + q_{e'}) on open edges, 0 on coastline edges. F and q are
+ * first interleaved into `fq` [2e] = F_e, [2e + 1] = q_e, so that one stencil address (`ti`, absolute into fq) reads both.
+ */
+export function pvFlux(out: usize, flux: usize, q: usize, fq: usize, ne: i32, W: i32, ti: usize, tw: usize, open: usize): void {
+  for (let e = 0; e < ne; e++) {
+    const d = fq + (<usize>e << 4);
+    store<f64>(d, ld(flux, e));
+    store<f64>(d, ld(q, e), 8);
+  }
   for (let e = 0; e < ne; e++) {
     if (load<u8>(open + <usize>e) == 0) { st(out, e, 0); continue; }
     const qe = ld(q, e);
     let acc: f64 = 0;
-    const t0 = W * e;
-    if (W == 10) {
-      const pi = ti + (<usize>t0 << 2), pw = tw + (<usize>t0 << 3);
-      let o = 0;
-      o = load<i32>(pi, 0); acc += load<f64>(pw, 0) * at(flux, o) * (qe + at(q, o));
-      o = load<i32>(pi, 4); acc += load<f64>(pw, 8) * at(flux, o) * (qe + at(q, o));
-      o = load<i32>(pi, 8); acc += load<f64>(pw, 16) * at(flux, o) * (qe + at(q, o));
-      o = load<i32>(pi, 12); acc += load<f64>(pw, 24) * at(flux, o) * (qe + at(q, o));
-      o = load<i32>(pi, 16); acc += load<f64>(pw, 32) * at(flux, o) * (qe + at(q, o));
-      o = load<i32>(pi, 20); acc += load<f64>(pw, 40) * at(flux, o) * (qe + at(q, o));
-      o = load<i32>(pi, 24); acc += load<f64>(pw, 48) * at(flux, o) * (qe + at(q, o));
-      o = load<i32>(pi, 28); acc += load<f64>(pw, 56) * at(flux, o) * (qe + at(q, o));
-      o = load<i32>(pi, 32); acc += load<f64>(pw, 64) * at(flux, o) * (qe + at(q, o));
-      o = load<i32>(pi, 36); acc += load<f64>(pw, 72) * at(flux, o) * (qe + at(q, o));
-    } else {
-      for (let t = t0; t < t0 + W; t++) {
-        const o = li(ti, t);
-        acc += ld(tw, t) * at(flux, o) * (qe + at(q, o));
-      }
+    let c = tw + (<usize>(W * e) << 3), i = ti + (<usize>(W * e) << 2);
+    const end = i + (<usize>W << 2);
+    while (i < end) {
+      const j = <usize>load<i32>(i);
+      acc += load<f64>(c) * load<f64>(j) * (qe + load<f64>(j, 8));
+      c += 8; i += 4;
     }
     st(out, e, 0.5 * acc);
+  }
+}
+
+// ---------------------------------------------------------------------------------------------------------
+// The barotropic operators of the fast/slow split (solver/model/problem.ts), each one call per sub-step stencil,
+// in the operation order of the TypeScript they replace: transport T = Ĥ ū (Ĥ frozen), then the stencil.
+// `hq` [2e] = T_e (written by the call), [2e + 1] = q_e (the frozen edge PV, written by the host at freeze);
+// stencil indices are absolute byte addresses of slot 2e of hq (`ti`, `ci`) or of the cell input (`ec`).
+
+@inline function barotropicTransport(hq: usize, u: usize, H: usize, ne: i32): void {
+  for (let e = 0; e < ne; e++) store<f64>(hq + (<usize>e << 4), ld(H, e) * ld(u, e));
+}
+
+/** out[e] = ½ Σ_{e'} W_{e,e'} (l_{e'}/d_e) T_{e'} (q_e + q_{e'}) on open edges, 0 on coastline edges. */
+export function barotropicCoriolis(out: usize, u: usize, H: usize, hq: usize, ne: i32, W: i32, ti: usize, tw: usize, open: usize): void {
+  barotropicTransport(hq, u, H, ne);
+  for (let e = 0; e < ne; e++) {
+    if (load<u8>(open + <usize>e) == 0) { st(out, e, 0); continue; }
+    const qe = load<f64>(hq + (<usize>e << 4), 8);
+    let acc: f64 = 0;
+    let c = tw + (<usize>(W * e) << 3), i = ti + (<usize>(W * e) << 2);
+    const end = i + (<usize>W << 2);
+    while (i < end) {
+      const j = <usize>load<i32>(i);
+      acc += load<f64>(c) * load<f64>(j) * (qe + load<f64>(j, 8));
+      c += 8; i += 4;
+    }
+    st(out, e, 0.5 * acc);
+  }
+}
+
+/** out[i] = −(Σ_q (s_q l_q) T_q) / A_i, the surface tendency −D(Ĥ ū). */
+export function barotropicSurface(out: usize, u: usize, H: usize, hq: usize, nc: i32, ne: i32, W: i32, ci: usize, sl: usize, area: usize): void {
+  barotropicTransport(hq, u, H, ne);
+  for (let i = 0; i < nc; i++) st(out, i, -(gatherSum(sl, ci, W * i, W) / ld(area, i)));
+}
+
+/** out[e] = (−g) · ((η[c2] − η[c1]) / d_e) on open edges, (−g) · 0 on coastline edges; `ec` absolute addresses of η. */
+export function barotropicPressure(out: usize, ne: i32, negG: f64, ec: usize, dc: usize, open: usize): void {
+  for (let e = 0; e < ne; e++) {
+    const g = load<u8>(open + <usize>e) != 0 ? (load<f64>(<usize>li(ec, 2 * e + 1)) - load<f64>(<usize>li(ec, 2 * e))) / ld(dc, e) : 0;
+    st(out, e, negG * g);
   }
 }
 
