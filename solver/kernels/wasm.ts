@@ -51,10 +51,14 @@ export interface KernelExports {
     ve: Ptr, vsd: Ptr, vArea: Ptr, vi: Ptr, ec: Ptr, ev: Ptr, dc: Ptr, len: Ptr, open: Ptr, div: Ptr, vort: Ptr,
   ): void;
   addScaled(out: Ptr, a: Ptr, coef: number, n: number): void;
+  jacobianPrepare(
+    ne: number, nv: number, L: number, P: number, uOffset: number, xBar: Ptr, hEdge: Ptr, flux: Ptr, hVert: Ptr, qVert: Ptr, qEdge: Ptr,
+    ubI: Ptr, hEI: Ptr, fI: Ptr, qEI: Ptr, hVI: Ptr, qVI: Ptr,
+  ): void;
   jacobianApply(
-    out: Ptr, x: Ptr, nc: number, ne: number, nv: number, L: number, uOffset: number, WC: number, WT: number,
-    G: Ptr, dM: Ptr, xBar: Ptr, hEdge: Ptr, flux: Ptr, hVert: Ptr, qVert: Ptr, qEdge: Ptr,
-    dhEdge: Ptr, dFlux: Ptr, dVort: Ptr, dqVert: Ptr, dqEdge: Ptr, dK: Ptr,
+    out: Ptr, x: Ptr, nc: number, ne: number, nv: number, L: number, P: number, WC: number, WT: number, G: Ptr,
+    hI: Ptr, uI: Ptr, dM: Ptr, dF: Ptr, dK: Ptr, dqV: Ptr, dqE: Ptr,
+    ubI: Ptr, hEI: Ptr, fI: Ptr, qEI: Ptr, hVI: Ptr, qVI: Ptr,
     ec: Ptr, ev: Ptr, open: Ptr, dc: Ptr, area: Ptr, ci: Ptr, sl: Ptr, lk: Ptr,
     ve: Ptr, vsd: Ptr, vc: Ptr, ka: Ptr, vArea: Ptr, vi: Ptr, ti: Ptr, tw: Ptr,
   ): void;

@@ -473,78 +473,115 @@ export function barotropicPressure(out: usize, ne: i32, negG: f64, ec: usize, dc
 }
 
 // ---------------------------------------------------------------------------------------------------------
-// Jacobian-vector product of the inviscid, unforced tendency about x̄ (solver/model/jacobian.ts, same order);
-// wind, drag and viscosity are added by the host afterwards. Linearization-point arrays are per layer:
-// hEdge, flux, qEdge [k·ne + e], hVert, qVert [k·nv + v]. Work: dM [k·nc + i], the rest one layer long.
-// Per padded cell slot: ci, sl = s·l_e, lk = l_e d_e; per vertex slot: ve, vsd = t·d_e, vc (clamped), ka.
+// Jacobian-vector product of the inviscid, unforced tendency about x̄ (solver/model/jacobian.ts, same order per
+// entry); wind, drag and viscosity are added by the host afterwards. Layers go in blocks of three lanes over
+// layer-interleaved arrays (stride P, entry [P·entity + k]): the linearization point (ubI = ū, hEI = ĥ̄, fI = F̄,
+// qEI = q̄_e per edge; hVI = h̄_v, qVI = q̄_v per vertex), filled from the host's layer-major arrays by
+// `jacobianPrepare`, and the work arrays hI, uI (the input), dM, dF (δF), dK, dqV, dqE. Stencil indices are byte
+// offsets of entity 0's lane 0 (8P × entity): `ec` cells of an edge, `ev` vertices of an edge, `ci` edges of a cell
+// (padded, width WC), `ve` edges and `vc` (clamped) cells of a vertex, `ti` tangential edges (padded, width WT).
+// Per padded cell slot: sl = s·l_e, lk = l_e d_e; per vertex slot: vsd = t·d_e, ka = kite area.
+
+/** The linearization point's interleaved copies, from the layer-major arrays the host's setState filled. */
+export function jacobianPrepare(
+  ne: i32, nv: i32, L: i32, P: i32, uOffset: i32, xBar: usize, hEdge: usize, flux: usize, hVert: usize, qVert: usize, qEdge: usize,
+  ubI: usize, hEI: usize, fI: usize, qEI: usize, hVI: usize, qVI: usize,
+): void {
+  interleaveLayers(ubI, xBar + (<usize>uOffset << 3), ne, L, P);
+  interleaveLayers(hEI, hEdge, ne, L, P);
+  interleaveLayers(fI, flux, ne, L, P);
+  interleaveLayers(qEI, qEdge, ne, L, P);
+  interleaveLayers(hVI, hVert, nv, L, P);
+  interleaveLayers(qVI, qVert, nv, L, P);
+}
 
 export function jacobianApply(
-  out: usize, x: usize, nc: i32, ne: i32, nv: i32, L: i32, uOffset: i32, WC: i32, WT: i32,
-  G: usize, dM: usize, xBar: usize, hEdge: usize, flux: usize, hVert: usize, qVert: usize, qEdge: usize,
-  dhEdge: usize, dFlux: usize, dVort: usize, dqVert: usize, dqEdge: usize, dK: usize,
+  out: usize, x: usize, nc: i32, ne: i32, nv: i32, L: i32, P: i32, WC: i32, WT: i32, G: usize,
+  hI: usize, uI: usize, dM: usize, dF: usize, dK: usize, dqV: usize, dqE: usize,
+  ubI: usize, hEI: usize, fI: usize, qEI: usize, hVI: usize, qVI: usize,
   ec: usize, ev: usize, open: usize, dc: usize, area: usize, ci: usize, sl: usize, lk: usize,
   ve: usize, vsd: usize, vc: usize, ka: usize, vArea: usize, vi: usize, ti: usize, tw: usize,
 ): void {
-  for (let i = 0; i < nc; i++) {
-    for (let k = 0; k < L; k++) {
-      let s: f64 = 0;
-      for (let j = 0; j < L; j++) s += ld(G, k * L + j) * ld(x, j * nc + i);
-      st(dM, k * nc + i, s);
-    }
-  }
-  for (let k = 0; k < L; k++) {
-    const h = x + (<usize>(k * nc) << 3), u = x + (<usize>(uOffset + k * ne) << 3), ub = xBar + (<usize>(uOffset + k * ne) << 3);
-    const oH = out + (<usize>(k * nc) << 3), oU = out + (<usize>(uOffset + k * ne) << 3);
-    const hE = hEdge + (<usize>(k * ne) << 3), fE = flux + (<usize>(k * ne) << 3), qE = qEdge + (<usize>(k * ne) << 3);
-    const hV = hVert + (<usize>(k * nv) << 3), qV = qVert + (<usize>(k * nv) << 3), M = dM + (<usize>(k * nc) << 3);
+  const uOffset = L * nc;
+  interleaveLayers(hI, x, nc, L, P);
+  interleaveLayers(uI, x + (<usize>uOffset << 3), ne, L, P);
+  montgomery(dM, x, nc, L, P, G);
+  const sE = <usize>P << 3; // bytes per entity of an interleaved array
+  for (let kb = 0; kb < P; kb += 3) {
+    const k0 = kb < L ? kb : L - 1, k1 = lane(kb, 1, L), k2 = lane(kb, 2, L), lo = <usize>kb << 3;
+    const oh0 = out + (<usize>(k0 * nc) << 3), oh1 = out + (<usize>(k1 * nc) << 3), oh2 = out + (<usize>(k2 * nc) << 3);
+    const ou0 = out + (<usize>(uOffset + k0 * ne) << 3), ou1 = out + (<usize>(uOffset + k1 * ne) << 3), ou2 = out + (<usize>(uOffset + k2 * ne) << 3);
+    const h = hI + lo, u = uI + lo, M = dM + lo, F = dF + lo, K = dK + lo, qv = dqV + lo, qe = dqE + lo;
+    const ub = ubI + lo, hE = hEI + lo, fB = fI + lo, qB = qEI + lo, hV = hVI + lo, qVb = qVI + lo;
     // δF = δĥ ū + ĥ̄ δu
     for (let e = 0; e < ne; e++) {
-      const dh = 0.5 * (ld(h, li(ec, 2 * e)) + ld(h, li(ec, 2 * e + 1)));
-      st(dhEdge, e, dh);
-      st(dFlux, e, dh * ld(ub, e) + ld(hE, e) * ld(u, e));
+      const a = h + <usize>li(ec, 2 * e), b = h + <usize>li(ec, 2 * e + 1), o = <usize>e * sE;
+      const d0 = 0.5 * (load<f64>(a) + load<f64>(b)), d1 = 0.5 * (load<f64>(a, 8) + load<f64>(b, 8)), d2 = 0.5 * (load<f64>(a, 16) + load<f64>(b, 16));
+      store<f64>(F + o, d0 * load<f64>(ub + o) + load<f64>(hE + o) * load<f64>(u + o));
+      store<f64>(F + o, d1 * load<f64>(ub + o, 8) + load<f64>(hE + o, 8) * load<f64>(u + o, 8), 8);
+      store<f64>(F + o, d2 * load<f64>(ub + o, 16) + load<f64>(hE + o, 16) * load<f64>(u + o, 16), 16);
     }
     // continuity −D δF, and δK_i = (1/2A_i) Σ l_e d_e ū_e δu_e
     for (let i = 0; i < nc; i++) {
-      let s: f64 = 0, t: f64 = 0;
+      let s0: f64 = 0, s1: f64 = 0, s2: f64 = 0, t0: f64 = 0, t1: f64 = 0, t2: f64 = 0;
       for (let q = WC * i; q < WC * i + WC; q++) {
-        const e = li(ci, q);
-        s += ld(sl, q) * at(dFlux, e);
-        t += ld(lk, q) * at(ub, e) * at(u, e);
+        const j = <usize>li(ci, q), c = ld(sl, q), w = ld(lk, q);
+        const pf = F + j, pb = ub + j, pu = u + j;
+        s0 += c * load<f64>(pf); s1 += c * load<f64>(pf, 8); s2 += c * load<f64>(pf, 16);
+        t0 += w * load<f64>(pb) * load<f64>(pu); t1 += w * load<f64>(pb, 8) * load<f64>(pu, 8); t2 += w * load<f64>(pb, 16) * load<f64>(pu, 16);
       }
-      st(oH, i, -s / ld(area, i));
-      st(dK, i, (0.5 * t) / ld(area, i));
+      const A = ld(area, i), o = <usize>i * sE;
+      st(oh0, i, -s0 / A); st(oh1, i, -s1 / A); st(oh2, i, -s2 / A);
+      store<f64>(K + o, (0.5 * t0) / A); store<f64>(K + o, (0.5 * t1) / A, 8); store<f64>(K + o, (0.5 * t2) / A, 16);
     }
     // δq_v = (δζ_v − q̄_v δh_v)/h̄_v and its edge mean
     for (let v = 0; v < nv; v++) {
-      const j = 3 * v;
-      let z: f64 = 0;
+      const j = 3 * v, VA = ld(vArea, v);
+      let z0: f64 = 0, z1: f64 = 0, z2: f64 = 0;
       if (load<u8>(vi + <usize>v) != 0) {
-        let s: f64 = 0;
-        s += ld(vsd, j) * ld(u, li(ve, j));
-        s += ld(vsd, j + 1) * ld(u, li(ve, j + 1));
-        s += ld(vsd, j + 2) * ld(u, li(ve, j + 2));
-        z = s / ld(vArea, v);
+        const a = u + <usize>li(ve, j), b = u + <usize>li(ve, j + 1), c = u + <usize>li(ve, j + 2);
+        const wa = ld(vsd, j), wb = ld(vsd, j + 1), wc = ld(vsd, j + 2);
+        let s0: f64 = 0, s1: f64 = 0, s2: f64 = 0;
+        s0 += wa * load<f64>(a); s0 += wb * load<f64>(b); s0 += wc * load<f64>(c);
+        s1 += wa * load<f64>(a, 8); s1 += wb * load<f64>(b, 8); s1 += wc * load<f64>(c, 8);
+        s2 += wa * load<f64>(a, 16); s2 += wb * load<f64>(b, 16); s2 += wc * load<f64>(c, 16);
+        z0 = s0 / VA; z1 = s1 / VA; z2 = s2 / VA;
       }
-      let m: f64 = 0;
-      m += ld(ka, j) * ld(h, li(vc, j));
-      m += ld(ka, j + 1) * ld(h, li(vc, j + 1));
-      m += ld(ka, j + 2) * ld(h, li(vc, j + 2));
-      const dhv = m / ld(vArea, v);
-      st(dVort, v, z);
-      st(dqVert, v, (z - ld(qV, v) * dhv) / ld(hV, v));
+      const a = h + <usize>li(vc, j), b = h + <usize>li(vc, j + 1), c = h + <usize>li(vc, j + 2);
+      const wa = ld(ka, j), wb = ld(ka, j + 1), wc = ld(ka, j + 2);
+      let m0: f64 = 0, m1: f64 = 0, m2: f64 = 0;
+      m0 += wa * load<f64>(a); m0 += wb * load<f64>(b); m0 += wc * load<f64>(c);
+      m1 += wa * load<f64>(a, 8); m1 += wb * load<f64>(b, 8); m1 += wc * load<f64>(c, 8);
+      m2 += wa * load<f64>(a, 16); m2 += wb * load<f64>(b, 16); m2 += wc * load<f64>(c, 16);
+      const o = <usize>v * sE;
+      store<f64>(qv + o, (z0 - load<f64>(qVb + o) * (m0 / VA)) / load<f64>(hV + o));
+      store<f64>(qv + o, (z1 - load<f64>(qVb + o, 8) * (m1 / VA)) / load<f64>(hV + o, 8), 8);
+      store<f64>(qv + o, (z2 - load<f64>(qVb + o, 16) * (m2 / VA)) / load<f64>(hV + o, 16), 16);
     }
-    for (let e = 0; e < ne; e++) st(dqEdge, e, 0.5 * (ld(dqVert, li(ev, 2 * e)) + ld(dqVert, li(ev, 2 * e + 1))));
+    for (let e = 0; e < ne; e++) {
+      const a = qv + <usize>li(ev, 2 * e), b = qv + <usize>li(ev, 2 * e + 1), o = qe + <usize>e * sE;
+      store<f64>(o, 0.5 * (load<f64>(a) + load<f64>(b)));
+      store<f64>(o, 0.5 * (load<f64>(a, 8) + load<f64>(b, 8)), 8);
+      store<f64>(o, 0.5 * (load<f64>(a, 16) + load<f64>(b, 16)), 16);
+    }
     // momentum: δQ − G(δK + δM)
     for (let e = 0; e < ne; e++) {
-      if (load<u8>(open + <usize>e) == 0) { st(oU, e, 0); continue; }
-      const qe = ld(qE, e), dqe = ld(dqEdge, e);
-      let acc: f64 = 0;
-      for (let q = WT * e; q < WT * e + WT; q++) {
-        const e2 = li(ti, q);
-        acc += ld(tw, q) * (at(dFlux, e2) * (qe + at(qE, e2)) + at(fE, e2) * (dqe + at(dqEdge, e2)));
+      if (load<u8>(open + <usize>e) == 0) { st(ou0, e, 0); st(ou1, e, 0); st(ou2, e, 0); continue; }
+      const o = <usize>e * sE;
+      const q0 = load<f64>(qB + o), q1 = load<f64>(qB + o, 8), q2 = load<f64>(qB + o, 16);
+      const r0 = load<f64>(qe + o), r1 = load<f64>(qe + o, 8), r2 = load<f64>(qe + o, 16);
+      let a0: f64 = 0, a1: f64 = 0, a2: f64 = 0;
+      for (let t = WT * e; t < WT * e + WT; t++) {
+        const j = <usize>li(ti, t), c = ld(tw, t);
+        const pf = F + j, pq = qB + j, pF = fB + j, pd = qe + j;
+        a0 += c * (load<f64>(pf) * (q0 + load<f64>(pq)) + load<f64>(pF) * (r0 + load<f64>(pd)));
+        a1 += c * (load<f64>(pf, 8) * (q1 + load<f64>(pq, 8)) + load<f64>(pF, 8) * (r1 + load<f64>(pd, 8)));
+        a2 += c * (load<f64>(pf, 16) * (q2 + load<f64>(pq, 16)) + load<f64>(pF, 16) * (r2 + load<f64>(pd, 16)));
       }
-      const c1 = li(ec, 2 * e), c2 = li(ec, 2 * e + 1);
-      st(oU, e, 0.5 * acc - (ld(dK, c2) + ld(M, c2) - ld(dK, c1) - ld(M, c1)) / ld(dc, e));
+      const c1 = <usize>li(ec, 2 * e), c2 = <usize>li(ec, 2 * e + 1), d = ld(dc, e);
+      st(ou0, e, 0.5 * a0 - (load<f64>(K + c2) + load<f64>(M + c2) - load<f64>(K + c1) - load<f64>(M + c1)) / d);
+      st(ou1, e, 0.5 * a1 - (load<f64>(K + c2, 8) + load<f64>(M + c2, 8) - load<f64>(K + c1, 8) - load<f64>(M + c1, 8)) / d);
+      st(ou2, e, 0.5 * a2 - (load<f64>(K + c2, 16) + load<f64>(M + c2, 16) - load<f64>(K + c1, 16) - load<f64>(M + c1, 16)) / d);
     }
   }
 }
