@@ -523,14 +523,19 @@ export function jacobianApply(
     }
     // continuity −D δF, and δK_i = (1/2A_i) Σ l_e d_e ū_e δu_e
     for (let i = 0; i < nc; i++) {
-      let s0: f64 = 0, s1: f64 = 0, s2: f64 = 0, t0: f64 = 0, t1: f64 = 0, t2: f64 = 0;
+      // lanes 0 and 1 as f64x2, lane 2 scalar (each lane the loop's sum in the loop's order)
+      let s01 = f64x2.splat(0), t01 = f64x2.splat(0);
+      let s2: f64 = 0, t2: f64 = 0;
       for (let q = WC * i; q < WC * i + WC; q++) {
         const j = <usize>li(ci, q), c = ld(sl, q), w = ld(lk, q);
         const pf = F + j, pb = ub + j, pu = u + j;
-        s0 += c * load<f64>(pf); s1 += c * load<f64>(pf, 8); s2 += c * load<f64>(pf, 16);
-        t0 += w * load<f64>(pb) * load<f64>(pu); t1 += w * load<f64>(pb, 8) * load<f64>(pu, 8); t2 += w * load<f64>(pb, 16) * load<f64>(pu, 16);
+        s01 = f64x2.add(s01, f64x2.mul(f64x2.splat(c), v128.load(pf)));
+        t01 = f64x2.add(t01, f64x2.mul(f64x2.mul(f64x2.splat(w), v128.load(pb)), v128.load(pu)));
+        s2 += c * load<f64>(pf, 16);
+        t2 += w * load<f64>(pb, 16) * load<f64>(pu, 16);
       }
       const A = ld(area, i), o = <usize>i * sE;
+      const s0 = f64x2.extract_lane(s01, 0), s1 = f64x2.extract_lane(s01, 1), t0 = f64x2.extract_lane(t01, 0), t1 = f64x2.extract_lane(t01, 1);
       st(oh0, i, -s0 / A); st(oh1, i, -s1 / A); st(oh2, i, -s2 / A);
       store<f64>(K + o, (0.5 * t0) / A); store<f64>(K + o, (0.5 * t1) / A, 8); store<f64>(K + o, (0.5 * t2) / A, 16);
     }
@@ -568,16 +573,18 @@ export function jacobianApply(
     for (let e = 0; e < ne; e++) {
       if (load<u8>(open + <usize>e) == 0) { st(ou0, e, 0); st(ou1, e, 0); st(ou2, e, 0); continue; }
       const o = <usize>e * sE;
-      const q0 = load<f64>(qB + o), q1 = load<f64>(qB + o, 8), q2 = load<f64>(qB + o, 16);
-      const r0 = load<f64>(qe + o), r1 = load<f64>(qe + o, 8), r2 = load<f64>(qe + o, 16);
-      let a0: f64 = 0, a1: f64 = 0, a2: f64 = 0;
+      const q01 = v128.load(qB + o), q2 = load<f64>(qB + o, 16);
+      const r01 = v128.load(qe + o), r2 = load<f64>(qe + o, 16);
+      let a01 = f64x2.splat(0);
+      let a2: f64 = 0;
       for (let t = WT * e; t < WT * e + WT; t++) {
         const j = <usize>li(ti, t), c = ld(tw, t);
         const pf = F + j, pq = qB + j, pF = fB + j, pd = qe + j;
-        a0 += c * (load<f64>(pf) * (q0 + load<f64>(pq)) + load<f64>(pF) * (r0 + load<f64>(pd)));
-        a1 += c * (load<f64>(pf, 8) * (q1 + load<f64>(pq, 8)) + load<f64>(pF, 8) * (r1 + load<f64>(pd, 8)));
+        a01 = f64x2.add(a01, f64x2.mul(f64x2.splat(c), f64x2.add(
+          f64x2.mul(v128.load(pf), f64x2.add(q01, v128.load(pq))), f64x2.mul(v128.load(pF), f64x2.add(r01, v128.load(pd))))));
         a2 += c * (load<f64>(pf, 16) * (q2 + load<f64>(pq, 16)) + load<f64>(pF, 16) * (r2 + load<f64>(pd, 16)));
       }
+      const a0 = f64x2.extract_lane(a01, 0), a1 = f64x2.extract_lane(a01, 1);
       const c1 = <usize>li(ec, 2 * e), c2 = <usize>li(ec, 2 * e + 1), d = ld(dc, e);
       st(ou0, e, 0.5 * a0 - (load<f64>(K + c2) + load<f64>(M + c2) - load<f64>(K + c1) - load<f64>(M + c1)) / d);
       st(ou1, e, 0.5 * a1 - (load<f64>(K + c2, 8) + load<f64>(M + c2, 8) - load<f64>(K + c1, 8) - load<f64>(M + c1, 8)) / d);
