@@ -124,58 +124,24 @@ export function edgeMomentum(
     const k1 = lane(kb, 1, L), k2 = lane(kb, 2, L);
     const o0 = out + (<usize>(uOffset + kb * ne) << 3), o1 = out + (<usize>(uOffset + k1 * ne) << 3), o2 = out + (<usize>(uOffset + k2 * ne) << 3);
     const fl = flux + (<usize>kb << 3), gl = fq + (<usize>kb << 3);
-    if (W == 10) {
-      for (let e = 0; e < ne; e++) {
-        if (load<u8>(open + <usize>e) == 0) { st(o0, e, 0); st(o1, e, 0); st(o2, e, 0); continue; }
-        let a0: f64 = 0, a1: f64 = 0, a2: f64 = 0, g0: f64 = 0, g1: f64 = 0, g2: f64 = 0;
-        const ps = slot + (<usize>(10 * e) << 2), pw = tw + (<usize>(10 * e) << 3);
-        let j = 0, c: f64 = 0, tap: usize = 0;
-        j = load<i32>(ps, 0); c = load<f64>(pw, 0);
-        tap = fl + <usize>j; a0 += c * load<f64>(tap); a1 += c * load<f64>(tap, 8); a2 += c * load<f64>(tap, 16);
-        tap = gl + <usize>j; g0 += c * load<f64>(tap); g1 += c * load<f64>(tap, 8); g2 += c * load<f64>(tap, 16);
-        j = load<i32>(ps, 4); c = load<f64>(pw, 8);
-        tap = fl + <usize>j; a0 += c * load<f64>(tap); a1 += c * load<f64>(tap, 8); a2 += c * load<f64>(tap, 16);
-        tap = gl + <usize>j; g0 += c * load<f64>(tap); g1 += c * load<f64>(tap, 8); g2 += c * load<f64>(tap, 16);
-        j = load<i32>(ps, 8); c = load<f64>(pw, 16);
-        tap = fl + <usize>j; a0 += c * load<f64>(tap); a1 += c * load<f64>(tap, 8); a2 += c * load<f64>(tap, 16);
-        tap = gl + <usize>j; g0 += c * load<f64>(tap); g1 += c * load<f64>(tap, 8); g2 += c * load<f64>(tap, 16);
-        j = load<i32>(ps, 12); c = load<f64>(pw, 24);
-        tap = fl + <usize>j; a0 += c * load<f64>(tap); a1 += c * load<f64>(tap, 8); a2 += c * load<f64>(tap, 16);
-        tap = gl + <usize>j; g0 += c * load<f64>(tap); g1 += c * load<f64>(tap, 8); g2 += c * load<f64>(tap, 16);
-        j = load<i32>(ps, 16); c = load<f64>(pw, 32);
-        tap = fl + <usize>j; a0 += c * load<f64>(tap); a1 += c * load<f64>(tap, 8); a2 += c * load<f64>(tap, 16);
-        tap = gl + <usize>j; g0 += c * load<f64>(tap); g1 += c * load<f64>(tap, 8); g2 += c * load<f64>(tap, 16);
-        j = load<i32>(ps, 20); c = load<f64>(pw, 40);
-        tap = fl + <usize>j; a0 += c * load<f64>(tap); a1 += c * load<f64>(tap, 8); a2 += c * load<f64>(tap, 16);
-        tap = gl + <usize>j; g0 += c * load<f64>(tap); g1 += c * load<f64>(tap, 8); g2 += c * load<f64>(tap, 16);
-        j = load<i32>(ps, 24); c = load<f64>(pw, 48);
-        tap = fl + <usize>j; a0 += c * load<f64>(tap); a1 += c * load<f64>(tap, 8); a2 += c * load<f64>(tap, 16);
-        tap = gl + <usize>j; g0 += c * load<f64>(tap); g1 += c * load<f64>(tap, 8); g2 += c * load<f64>(tap, 16);
-        j = load<i32>(ps, 28); c = load<f64>(pw, 56);
-        tap = fl + <usize>j; a0 += c * load<f64>(tap); a1 += c * load<f64>(tap, 8); a2 += c * load<f64>(tap, 16);
-        tap = gl + <usize>j; g0 += c * load<f64>(tap); g1 += c * load<f64>(tap, 8); g2 += c * load<f64>(tap, 16);
-        j = load<i32>(ps, 32); c = load<f64>(pw, 64);
-        tap = fl + <usize>j; a0 += c * load<f64>(tap); a1 += c * load<f64>(tap, 8); a2 += c * load<f64>(tap, 16);
-        tap = gl + <usize>j; g0 += c * load<f64>(tap); g1 += c * load<f64>(tap, 8); g2 += c * load<f64>(tap, 16);
-        j = load<i32>(ps, 36); c = load<f64>(pw, 72);
-        tap = fl + <usize>j; a0 += c * load<f64>(tap); a1 += c * load<f64>(tap, 8); a2 += c * load<f64>(tap, 16);
-        tap = gl + <usize>j; g0 += c * load<f64>(tap); g1 += c * load<f64>(tap, 8); g2 += c * load<f64>(tap, 16);
-        momentumStore(o0, o1, o2, e, P, kb, a0, a1, a2, g0, g1, g2, ec, inv, qE, bern);
+    // lanes 0 and 1 as f64x2, lane 2 scalar (each lane the loop's sum in the loop's order)
+    for (let e = 0; e < ne; e++) {
+      if (load<u8>(open + <usize>e) == 0) { st(o0, e, 0); st(o1, e, 0); st(o2, e, 0); continue; }
+      let a01 = f64x2.splat(0), g01 = f64x2.splat(0);
+      let a2: f64 = 0, g2: f64 = 0;
+      let ps = slot + (<usize>(W * e) << 2), pw = tw + (<usize>(W * e) << 3);
+      const end = ps + (<usize>W << 2);
+      while (ps < end) {
+        const j = <usize>load<i32>(ps), c = load<f64>(pw), cc = f64x2.splat(c);
+        const pf = fl + j, pg = gl + j;
+        a01 = f64x2.add(a01, f64x2.mul(cc, v128.load(pf)));
+        g01 = f64x2.add(g01, f64x2.mul(cc, v128.load(pg)));
+        a2 += c * load<f64>(pf, 16);
+        g2 += c * load<f64>(pg, 16);
+        ps += 4; pw += 8;
       }
-    } else {
-      for (let e = 0; e < ne; e++) {
-        if (load<u8>(open + <usize>e) == 0) { st(o0, e, 0); st(o1, e, 0); st(o2, e, 0); continue; }
-        let a0: f64 = 0, a1: f64 = 0, a2: f64 = 0, g0: f64 = 0, g1: f64 = 0, g2: f64 = 0;
-        const t0 = W * e;
-        for (let t = t0; t < t0 + W; t++) {
-          const j = li(slot, t);
-          const c = ld(tw, t);
-          const pf = fl + <usize>j, pg = gl + <usize>j;
-          a0 += c * load<f64>(pf); a1 += c * load<f64>(pf, 8); a2 += c * load<f64>(pf, 16);
-          g0 += c * load<f64>(pg); g1 += c * load<f64>(pg, 8); g2 += c * load<f64>(pg, 16);
-        }
-        momentumStore(o0, o1, o2, e, P, kb, a0, a1, a2, g0, g1, g2, ec, inv, qE, bern);
-      }
+      momentumStore(o0, o1, o2, e, P, kb, f64x2.extract_lane(a01, 0), f64x2.extract_lane(a01, 1), a2,
+        f64x2.extract_lane(g01, 0), f64x2.extract_lane(g01, 1), g2, ec, inv, qE, bern);
     }
   }
 }
