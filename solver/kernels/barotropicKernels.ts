@@ -6,7 +6,7 @@
  * stencil of solver/mesh/operators.ts or terms.ts), so the same values.
  */
 import type { Mesh } from "../mesh/types.js";
-import { KernelMemoryBuilder, padStencil } from "./wasm.js";
+import { KernelMemoryBuilder, padStencil, pairRows } from "./wasm.js";
 
 export interface BarotropicKernels {
   /** Hold Ĥ (edges) and q (edges) for the following calls. */
@@ -26,7 +26,7 @@ export function barotropicKernels(m: Mesh, g: number): BarotropicKernels | null 
   const cells = padStencil(m.cellEdgeOffset, nc, (q) => hq.ptr + 16 * m.cellEdgeIndex[q], [slotSignLength]);
   const tangents = padStencil(m.tangentOffset, ne, (q) => hq.ptr + 16 * m.tangentIndex[q], [m.tangentCoef]);
   const ec = b.copy(m.edgeCellsClamped.map((c) => etaIn.ptr + 8 * c)), dc = b.copy(m.edgeCellDistance), open = b.copy(m.edgeOpen);
-  const area = b.copy(m.cellArea), ci = b.copy(cells.index), sl = b.copy(cells.coefs[0]), ti = b.copy(tangents.index), tw = b.copy(tangents.coefs[0]);
+  const area = b.copy(m.cellArea), ci = b.copy(cells.index), sl = b.copy(cells.coefs[0]), ti = b.copy(pairRows(tangents.index, ne, tangents.width)), tw = b.copy(pairRows(tangents.coefs[0], ne, tangents.width));
   const k = b.build();
   if (!k) return null;
   const WC = cells.width, WT = tangents.width, negG = -g;

@@ -5,7 +5,7 @@
  * their TypeScript loops for when WebAssembly is unavailable. Same operation order, so the same values.
  */
 import type { Mesh } from "../mesh/types.js";
-import { KernelMemoryBuilder, padStencil } from "./wasm.js";
+import { KernelMemoryBuilder, padStencil, pairRows } from "./wasm.js";
 
 export interface MeshKernels {
   gradient(out: Float64Array, phi: Float64Array, outOff: number, inOff: number): void;
@@ -41,7 +41,7 @@ function build(m: Mesh): MeshKernels | null {
   const cells = padStencil(m.cellEdgeOffset, nc, (q) => edgeIn.ptr + 8 * m.cellEdgeIndex[q], [slotSignLength]);
   const tangents = padStencil(m.tangentOffset, ne, (q) => fq.ptr + 16 * m.tangentIndex[q], [m.tangentCoef]);
   const ec = b.copy(m.edgeCellsClamped.map((c) => cellIn.ptr + 8 * c)), dc = b.copy(m.edgeCellDistance), open = b.copy(m.edgeOpen), area = b.copy(m.cellArea);
-  const ci = b.copy(cells.index), sl = b.copy(cells.coefs[0]), ti = b.copy(tangents.index), tw = b.copy(tangents.coefs[0]);
+  const ci = b.copy(cells.index), sl = b.copy(cells.coefs[0]), ti = b.copy(pairRows(tangents.index, ne, tangents.width)), tw = b.copy(pairRows(tangents.coefs[0], ne, tangents.width));
   const k = b.build();
   if (!k) return null;
   const WC = cells.width, WT = tangents.width;

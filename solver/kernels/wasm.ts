@@ -196,3 +196,19 @@ export function interleaveLanes(parts: readonly Float64Array[]): Float64Array {
   }
   return out;
 }
+
+/**
+ * A padded stencil (width W, rows × W entries) in pair layout for kernels that run rows (r, r + 1) as the two lanes
+ * of f64x2: slot j of pair p at 2(W·p + j) + lane; an odd last row is repeated in lane 1.
+ */
+export function pairRows<T extends Int32Array | Float64Array>(a: T, rows: number, width: number): T {
+  const pairs = Math.ceil(rows / 2);
+  const out = new (a.constructor as new (n: number) => T)(2 * pairs * width);
+  for (let p = 0; p < pairs; p++) {
+    for (let l = 0; l < 2; l++) {
+      const r = Math.min(2 * p + l, rows - 1);
+      for (let j = 0; j < width; j++) out[2 * (width * p + j) + l] = a[width * r + j];
+    }
+  }
+  return out;
+}

@@ -372,28 +372,44 @@ export function divergence(out: usize, nc: i32, W: i32, ci: usize, sl: usize, ar
 }
 
 /**
+ * PV flux of edges in pairs (e, e + 1) as the two lanes of f64x2: ½ Σ_j W_j T_j (q_e + q_j) per edge, each lane the
+ * loop's sum in the loop's order. `fq` [2e] = T_e, [2e + 1] = q_e; stencils in pair layout, slot j of pair p at
+ * 2(W·p + j) + lane: `ti2` absolute addresses of fq entries, `tw2` coefficients (an odd last pair repeats its edge in
+ * lane 1 and stores lane 0 only). 0 on coastline edges.
+ */
+@inline function pvFluxPairs(out: usize, fq: usize, ne: i32, W: i32, ti2: usize, tw2: usize, open: usize): void {
+  const half = f64x2.splat(0.5);
+  for (let e = 0; e < ne; e += 2) {
+    const e1 = e + 1 < ne ? e + 1 : e;
+    const pq = fq + (<usize>e << 4), pq1 = fq + (<usize>e1 << 4);
+    const qe = v128.load64_lane(pq1, v128.load64_zero(pq, 8), 1, 8);
+    let acc = f64x2.splat(0);
+    let pi = ti2 + (<usize>(W * e) << 2), pc = tw2 + (<usize>(W * e) << 3);
+    const end = pi + (<usize>W << 3);
+    while (pi < end) {
+      const ja = <usize>load<i32>(pi), jb = <usize>load<i32>(pi, 4);
+      const F = v128.load64_lane(jb, v128.load64_zero(ja), 1);
+      const q = v128.load64_lane(jb, v128.load64_zero(ja, 8), 1, 8);
+      acc = f64x2.add(acc, f64x2.mul(f64x2.mul(v128.load(pc), F), f64x2.add(qe, q)));
+      pi += 8; pc += 16;
+    }
+    const r = f64x2.mul(half, acc);
+    st(out, e, load<u8>(open + <usize>e) != 0 ? f64x2.extract_lane(r, 0) : 0);
+    if (e + 1 < ne) st(out, e + 1, load<u8>(open + <usize>(e + 1)) != 0 ? f64x2.extract_lane(r, 1) : 0);
+  }
+}
+
+/**
  * out[e] = ½ Σ_{e'} W_{e,e'} (l_{e'}/d_e) F_{e'} (q_e + q_{e'}) on open edges, 0 on coastline edges. F and q are
  * first interleaved into `fq` [2e] = F_e, [2e + 1] = q_e, so that one stencil address (`ti`, absolute into fq) reads both.
  */
-export function pvFlux(out: usize, flux: usize, q: usize, fq: usize, ne: i32, W: i32, ti: usize, tw: usize, open: usize): void {
+export function pvFlux(out: usize, flux: usize, q: usize, fq: usize, ne: i32, W: i32, ti2: usize, tw2: usize, open: usize): void {
   for (let e = 0; e < ne; e++) {
     const d = fq + (<usize>e << 4);
     store<f64>(d, ld(flux, e));
     store<f64>(d, ld(q, e), 8);
   }
-  for (let e = 0; e < ne; e++) {
-    if (load<u8>(open + <usize>e) == 0) { st(out, e, 0); continue; }
-    const qe = ld(q, e);
-    let acc: f64 = 0;
-    let c = tw + (<usize>(W * e) << 3), i = ti + (<usize>(W * e) << 2);
-    const end = i + (<usize>W << 2);
-    while (i < end) {
-      const j = <usize>load<i32>(i);
-      acc += load<f64>(c) * load<f64>(j) * (qe + load<f64>(j, 8));
-      c += 8; i += 4;
-    }
-    st(out, e, 0.5 * acc);
-  }
+  pvFluxPairs(out, fq, ne, W, ti2, tw2, open);
 }
 
 // ---------------------------------------------------------------------------------------------------------
@@ -407,21 +423,9 @@ export function pvFlux(out: usize, flux: usize, q: usize, fq: usize, ne: i32, W:
 }
 
 /** out[e] = ½ Σ_{e'} W_{e,e'} (l_{e'}/d_e) T_{e'} (q_e + q_{e'}) on open edges, 0 on coastline edges. */
-export function barotropicCoriolis(out: usize, u: usize, H: usize, hq: usize, ne: i32, W: i32, ti: usize, tw: usize, open: usize): void {
+export function barotropicCoriolis(out: usize, u: usize, H: usize, hq: usize, ne: i32, W: i32, ti2: usize, tw2: usize, open: usize): void {
   barotropicTransport(hq, u, H, ne);
-  for (let e = 0; e < ne; e++) {
-    if (load<u8>(open + <usize>e) == 0) { st(out, e, 0); continue; }
-    const qe = load<f64>(hq + (<usize>e << 4), 8);
-    let acc: f64 = 0;
-    let c = tw + (<usize>(W * e) << 3), i = ti + (<usize>(W * e) << 2);
-    const end = i + (<usize>W << 2);
-    while (i < end) {
-      const j = <usize>load<i32>(i);
-      acc += load<f64>(c) * load<f64>(j) * (qe + load<f64>(j, 8));
-      c += 8; i += 4;
-    }
-    st(out, e, 0.5 * acc);
-  }
+  pvFluxPairs(out, hq, ne, W, ti2, tw2, open);
 }
 
 /** out[i] = −(Σ_q (s_q l_q) T_q) / A_i, the surface tendency −D(Ĥ ū). */
