@@ -152,6 +152,9 @@ static void restricted(double *restrict out, const double *restrict y) {
    gradient of a cell field, two PV fluxes, divergence of an edge field */
 static int32_t *edgeCells;
 static double *edgeCellDistance, *cellEdgeSign, *edgeLength, *cellArea;
+/* per-slot products that the Stepwell kernels read precomputed (set up once in main, not timed), so that both sides
+   do the same arithmetic per call: s·l_e per cell slot, l_e d_e per cell slot, t·d_e per vertex slot */
+static double *slotSignLength, *slotLengthDistance, *vertexSignDistance;
 static double *btCell, *btEdge, *btQ, *btGrad, *btCor1, *btCor2, *btDiv;
 static void gradient(double *restrict out, const double *restrict phi) {
   for (int e = 0; e < ne; e++) out[e] = edgeOpen[e] ? (phi[edgeCells[2 * e + 1]] - phi[edgeCells[2 * e]]) / edgeCellDistance[e] : 0;
@@ -159,10 +162,7 @@ static void gradient(double *restrict out, const double *restrict phi) {
 static void divergence(double *restrict out, const double *restrict flux) {
   for (int i = 0; i < nc; i++) {
     double acc = 0;
-    for (int q = cellEdgeOffset[i]; q < cellEdgeOffset[i + 1]; q++) {
-      const int e = cellEdgeIndex[q];
-      acc += cellEdgeSign[q] * edgeLength[e] * flux[e];
-    }
+    for (int q = cellEdgeOffset[i]; q < cellEdgeOffset[i + 1]; q++) acc += slotSignLength[q] * flux[cellEdgeIndex[q]];
     out[i] = acc / cellArea[i];
   }
 }
@@ -223,7 +223,7 @@ static void curlOf(double *out, const double *u) {
   for (int v = 0; v < nv; v++) {
     if (!vertexInterior[v]) { out[v] = 0; continue; }
     double s = 0;
-    for (int j = 3 * v; j < 3 * v + 3; j++) s += vertexEdgeSign[j] * edgeCellDistance[vertexEdges[j]] * u[vertexEdges[j]];
+    for (int j = 3 * v; j < 3 * v + 3; j++) s += vertexSignDistance[j] * u[vertexEdges[j]];
     out[v] = s / vertexArea[v];
   }
 }
@@ -263,7 +263,7 @@ static void jacobian(double *restrict out, const double *restrict x) {
     }
     for (int i = 0; i < nc; i++) {
       double s = 0;
-      for (int q = cellEdgeOffset[i]; q < cellEdgeOffset[i + 1]; q++) s += cellEdgeSign[q] * edgeLength[cellEdgeIndex[q]] * jdFlux[cellEdgeIndex[q]];
+      for (int q = cellEdgeOffset[i]; q < cellEdgeOffset[i + 1]; q++) s += slotSignLength[q] * jdFlux[cellEdgeIndex[q]];
       out[hOff + i] = -s / cellArea[i];
     }
     curlOf(jdVort, u);
@@ -274,7 +274,7 @@ static void jacobian(double *restrict out, const double *restrict x) {
       double s = 0;
       for (int q = cellEdgeOffset[i]; q < cellEdgeOffset[i + 1]; q++) {
         const int e = cellEdgeIndex[q];
-        s += edgeLength[e] * edgeCellDistance[e] * ub[e] * u[e];
+        s += slotLengthDistance[q] * ub[e] * u[e];
       }
       jdK[i] = (0.5 * s) / cellArea[i];
     }
@@ -372,6 +372,15 @@ int main(int argc, char **argv) {
   vertexKiteArea = load("vertexKiteArea.f64", 8, NULL);
   vertexArea = load("vertexArea.f64", 8, NULL);
   vertexEdgeSign = load("vertexEdgeSign.f64", 8, NULL);
+  slotSignLength = malloc(sizeof(double) * (size_t)nSlots);
+  slotLengthDistance = malloc(sizeof(double) * (size_t)nSlots);
+  for (int q = 0; q < nSlots; q++) {
+    const int e = cellEdgeIndex[q];
+    slotSignLength[q] = cellEdgeSign[q] * edgeLength[e];
+    slotLengthDistance[q] = edgeLength[e] * edgeCellDistance[e];
+  }
+  vertexSignDistance = malloc(sizeof(double) * (size_t)(3 * nv));
+  for (int j = 0; j < 3 * nv; j++) vertexSignDistance[j] = vertexEdgeSign[j] * edgeCellDistance[vertexEdges[j]];
   jxBar = x;
   jv = restX;
   jhEdge = calloc((size_t)(L * ne), sizeof(double)); jflux = calloc((size_t)(L * ne), sizeof(double));
