@@ -8,7 +8,8 @@
  *
  * Why WebAssembly (measured with `npm run bench` beside our own C loop): in V8 the same loops over typed arrays
  * passed as arguments ran 1.8–5.6× the C figure, mostly bounds checks and typed-array base reloads; in wasm the
- * loads are plain loads off one memory base, and the kernels run at 1.2–1.5× the C figure.
+ * loads are plain loads off one memory base, and the kernels run at about 0.85–1.4× the C figure (the barotropic
+ * sub-step stencils the slowest).
  *
  * The module is compiled once per thread, synchronously (allowed in workers and in Node; the solver never runs on
  * a browser's main thread). Where WebAssembly is missing, `kernelsAvailable()` is false and the callers keep

@@ -1,14 +1,19 @@
 // AssemblyScript source of the WebAssembly kernels (compiled by `npm run build:kernels`, see DEVELOPERS.md).
 // Not TypeScript: f64/i32/usize, load/store on raw linear memory. Every pointer is a byte offset into the
 // memory that the host (solver/kernels/wasm.ts) fills with the mesh arrays, coefficients and work arrays of one
-// model; indices are element indices. The arithmetic, operation order included, is that of the TypeScript
-// kernels they replace (solver/model/terms.ts, linear.ts, restriction.ts), so results agree to round-off.
+// model. The arithmetic of every output entry, operation order included, is that of the TypeScript kernels they
+// replace (solver/model/terms.ts, linear.ts, restriction.ts, jacobian.ts, problem.ts, solver/mesh/operators.ts),
+// so results agree to round-off.
 //
 // Stencils of variable length (cell → edges, edge → tangential edges) arrive padded to a fixed width W per row:
-// index arrays repeat a valid index and coefficient arrays hold 0 in the padding. Widths 6 and 10 (hexagonal
-// cells, TRiSK tangential stencil) have unrolled loops; any other width takes the plain loop. Stencil index
-// arrays hold byte offsets (8 × element index, 8P × entity for the layer-interleaved work arrays), so a gather
-// is one add and one load with an immediate offset.
+// index arrays repeat a valid index and coefficient arrays hold 0 in the padding. Stencil index arrays hold byte
+// offsets (8 × element index, 8P × entity for layer-interleaved arrays) or, where one array is gathered from,
+// absolute byte addresses, so that a gather is one load with an immediate offset. Layered kernels run the layers
+// in blocks of three lanes over layer-interleaved arrays (stride P = L rounded up to a multiple of 3), lanes 0 and 1
+// as one f64x2 operation and lane 2 as a scalar one; the PV flux runs pairs of edges as the two f64x2 lanes.
+// SIMD here is lane-wise only: each lane does the scalar loop's operations in the scalar loop's order (no
+// reassociation, no fused multiply-add). Hand-unrolled stencil loops were measured no faster (V8 spilled the
+// hoisted loads), so the loops are plain.
 
 @inline function ld(p: usize, i: i32): f64 { return load<f64>(p + (<usize>i << 3)); }
 @inline function li(p: usize, i: i32): i32 { return load<i32>(p + (<usize>i << 2)); }
@@ -162,39 +167,9 @@ export function edgeMomentum(
 // Single-layer wave operators: the modal operator of restriction.ts with one mode per block (diagonal blocks),
 // and the rest-state operator of linear.ts layer by layer.
 
-@inline function tangentSum(cor: usize, ti: usize, u: usize, t0: i32, W: i32): f64 {
-  let acc: f64 = 0;
-  if (W == 10) {
-    const pc = cor + (<usize>t0 << 3), pi = ti + (<usize>t0 << 2);
-    acc += load<f64>(pc, 0) * at(u, load<i32>(pi, 0));
-    acc += load<f64>(pc, 8) * at(u, load<i32>(pi, 4));
-    acc += load<f64>(pc, 16) * at(u, load<i32>(pi, 8));
-    acc += load<f64>(pc, 24) * at(u, load<i32>(pi, 12));
-    acc += load<f64>(pc, 32) * at(u, load<i32>(pi, 16));
-    acc += load<f64>(pc, 40) * at(u, load<i32>(pi, 20));
-    acc += load<f64>(pc, 48) * at(u, load<i32>(pi, 24));
-    acc += load<f64>(pc, 56) * at(u, load<i32>(pi, 28));
-    acc += load<f64>(pc, 64) * at(u, load<i32>(pi, 32));
-    acc += load<f64>(pc, 72) * at(u, load<i32>(pi, 36));
-  } else {
-    for (let q = t0; q < t0 + W; q++) acc += ld(cor, q) * at(u, li(ti, q));
-  }
-  return acc;
-}
-
 @inline function cellSum(dd: usize, ci: usize, u: usize, q0: i32, W: i32): f64 {
   let acc: f64 = 0;
-  if (W == 6) {
-    const pc = dd + (<usize>q0 << 3), pi = ci + (<usize>q0 << 2);
-    acc += load<f64>(pc, 0) * at(u, load<i32>(pi, 0));
-    acc += load<f64>(pc, 8) * at(u, load<i32>(pi, 4));
-    acc += load<f64>(pc, 16) * at(u, load<i32>(pi, 8));
-    acc += load<f64>(pc, 24) * at(u, load<i32>(pi, 12));
-    acc += load<f64>(pc, 32) * at(u, load<i32>(pi, 16));
-    acc += load<f64>(pc, 40) * at(u, load<i32>(pi, 20));
-  } else {
-    for (let q = q0; q < q0 + W; q++) acc += ld(dd, q) * at(u, li(ci, q));
-  }
+  for (let q = q0; q < q0 + W; q++) acc += ld(dd, q) * at(u, li(ci, q));
   return acc;
 }
 
