@@ -41,7 +41,7 @@ function build(m: Mesh): MeshKernels | null {
   const cells = padStencil(m.cellEdgeOffset, nc, (q) => edgeIn.ptr + 8 * m.cellEdgeIndex[q], [slotSignLength]);
   const tangents = padStencil(m.tangentOffset, ne, (q) => fq.ptr + 16 * m.tangentIndex[q], [m.tangentCoef]);
   const ec = b.copy(m.edgeCellsClamped.map((c) => cellIn.ptr + 8 * c)), dc = b.copy(m.edgeCellDistance), open = b.copy(m.edgeOpen), area = b.copy(m.cellArea);
-  const ci = b.copy(cells.index), sl = b.copy(cells.coefs[0]), ti = b.copy(pairRows(tangents.index, ne, tangents.width)), tw = b.copy(pairRows(tangents.coefs[0], ne, tangents.width));
+  const ci = b.copy(pairRows(cells.index, nc, cells.width)), sl = b.copy(pairRows(cells.coefs[0], nc, cells.width)), ti = b.copy(pairRows(tangents.index, ne, tangents.width)), tw = b.copy(pairRows(tangents.coefs[0], ne, tangents.width));
   const k = b.build();
   if (!k) return null;
   const WC = cells.width, WT = tangents.width;

@@ -334,16 +334,57 @@ export function restOperator(
 // Single-field mesh operators of solver/mesh/operators.ts and terms.ts (the stencils of a barotropic sub-step),
 // in their operation order: gradient, divergence, PV flux.
 
-/** out[e] = (φ[c2] − φ[c1]) / d_e on open edges, 0 on coastline edges; `ec` holds the absolute addresses of φ[c]. */
-export function gradient(out: usize, ne: i32, ec: usize, dc: usize, open: usize): void {
-  for (let e = 0; e < ne; e++) {
-    st(out, e, load<u8>(open + <usize>e) != 0 ? (load<f64>(<usize>li(ec, 2 * e + 1)) - load<f64>(<usize>li(ec, 2 * e))) / ld(dc, e) : 0);
+/**
+ * Σ_q (s_q l_q) F_q / A_i for cells in pairs (i, i + 1) as the two f64x2 lanes (each lane the loop's order), negated
+ * when `negate`. Stencils in pair layout (see pvFluxPairs): `ci2` absolute addresses of F, `sl2` s·l per slot. An odd
+ * last cell is stored from lane 0 only.
+ */
+@inline function divergencePairs(out: usize, nc: i32, W: i32, ci2: usize, sl2: usize, area: usize, negate: bool): void {
+  for (let i = 0; i < nc; i += 2) {
+    const i1 = i + 1 < nc ? i + 1 : i;
+    let acc = f64x2.splat(0);
+    let pi = ci2 + (<usize>(W * i) << 2), pc = sl2 + (<usize>(W * i) << 3);
+    const end = pi + (<usize>W << 3);
+    while (pi < end) {
+      const ja = <usize>load<i32>(pi), jb = <usize>load<i32>(pi, 4);
+      acc = f64x2.add(acc, f64x2.mul(v128.load(pc), v128.load64_lane(jb, v128.load64_zero(ja), 1)));
+      pi += 8; pc += 16;
+    }
+    let r = f64x2.div(acc, v128.load64_lane(area + (<usize>i1 << 3), v128.load64_zero(area + (<usize>i << 3)), 1));
+    if (negate) r = f64x2.neg(r);
+    st(out, i, f64x2.extract_lane(r, 0));
+    if (i + 1 < nc) st(out, i + 1, f64x2.extract_lane(r, 1));
   }
 }
 
-/** out[i] = (Σ_q (s_q l_q) F_q) / A_i; `sl` holds s_q·l_q per padded slot, `ci` the absolute addresses of F. */
-export function divergence(out: usize, nc: i32, W: i32, ci: usize, sl: usize, area: usize): void {
-  for (let i = 0; i < nc; i++) st(out, i, gatherSum(sl, ci, W * i, W) / ld(area, i));
+/**
+ * scale · (φ[c2] − φ[c1]) / d_e on open edges, scale · 0 on coastline edges, for edges in pairs as the two f64x2
+ * lanes; `ec` [2e], [2e + 1] the absolute addresses of φ at the edge's two cells.
+ */
+@inline function gradientPairs(out: usize, ne: i32, ec: usize, dc: usize, open: usize, scale: f64, scaled: bool): void {
+  for (let e = 0; e < ne; e += 2) {
+    const e1 = e + 1 < ne ? e + 1 : e;
+    const pa = ec + (<usize>e << 3), pb = ec + (<usize>e1 << 3);
+    const hi = v128.load64_lane(<usize>load<i32>(pb, 4), v128.load64_zero(<usize>load<i32>(pa, 4)), 1);
+    const lo = v128.load64_lane(<usize>load<i32>(pb), v128.load64_zero(<usize>load<i32>(pa)), 1);
+    const g = f64x2.div(f64x2.sub(hi, lo), v128.load64_lane(dc + (<usize>e1 << 3), v128.load64_zero(dc + (<usize>e << 3)), 1));
+    const g0 = load<u8>(open + <usize>e) != 0 ? f64x2.extract_lane(g, 0) : 0;
+    st(out, e, scaled ? scale * g0 : g0);
+    if (e + 1 < ne) {
+      const g1 = load<u8>(open + <usize>(e + 1)) != 0 ? f64x2.extract_lane(g, 1) : 0;
+      st(out, e + 1, scaled ? scale * g1 : g1);
+    }
+  }
+}
+
+/** out[e] = (φ[c2] − φ[c1]) / d_e on open edges, 0 on coastline edges; `ec` holds the absolute addresses of φ[c]. */
+export function gradient(out: usize, ne: i32, ec: usize, dc: usize, open: usize): void {
+  gradientPairs(out, ne, ec, dc, open, 1, false);
+}
+
+/** out[i] = (Σ_q (s_q l_q) F_q) / A_i; `sl2` holds s_q·l_q per padded slot, `ci2` the absolute addresses of F (pair layout). */
+export function divergence(out: usize, nc: i32, W: i32, ci2: usize, sl2: usize, area: usize): void {
+  divergencePairs(out, nc, W, ci2, sl2, area, false);
 }
 
 /**
@@ -404,17 +445,14 @@ export function barotropicCoriolis(out: usize, u: usize, H: usize, hq: usize, ne
 }
 
 /** out[i] = −(Σ_q (s_q l_q) T_q) / A_i, the surface tendency −D(Ĥ ū). */
-export function barotropicSurface(out: usize, u: usize, H: usize, hq: usize, nc: i32, ne: i32, W: i32, ci: usize, sl: usize, area: usize): void {
+export function barotropicSurface(out: usize, u: usize, H: usize, hq: usize, nc: i32, ne: i32, W: i32, ci2: usize, sl2: usize, area: usize): void {
   barotropicTransport(hq, u, H, ne);
-  for (let i = 0; i < nc; i++) st(out, i, -(gatherSum(sl, ci, W * i, W) / ld(area, i)));
+  divergencePairs(out, nc, W, ci2, sl2, area, true);
 }
 
 /** out[e] = (−g) · ((η[c2] − η[c1]) / d_e) on open edges, (−g) · 0 on coastline edges; `ec` absolute addresses of η. */
 export function barotropicPressure(out: usize, ne: i32, negG: f64, ec: usize, dc: usize, open: usize): void {
-  for (let e = 0; e < ne; e++) {
-    const g = load<u8>(open + <usize>e) != 0 ? (load<f64>(<usize>li(ec, 2 * e + 1)) - load<f64>(<usize>li(ec, 2 * e))) / ld(dc, e) : 0;
-    st(out, e, negG * g);
-  }
+  gradientPairs(out, ne, ec, dc, open, negG, true);
 }
 
 // ---------------------------------------------------------------------------------------------------------
