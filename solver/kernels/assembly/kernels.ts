@@ -404,8 +404,8 @@ export function divergence(out: usize, nc: i32, W: i32, ci2: usize, sl2: usize, 
     const end = pi + (<usize>W << 3);
     while (pi < end) {
       const ja = <usize>load<i32>(pi), jb = <usize>load<i32>(pi, 4);
-      const F = v128.load64_lane(jb, v128.load64_zero(ja), 1);
-      const q = v128.load64_lane(jb, v128.load64_zero(ja, 8), 1, 8);
+      const A = v128.load(ja), B = v128.load(jb); // (T, q) of each lane's tap
+      const F = v128.shuffle<f64>(A, B, 0, 2), q = v128.shuffle<f64>(A, B, 1, 3);
       acc = f64x2.add(acc, f64x2.mul(f64x2.mul(v128.load(pc), F), f64x2.add(qe, q)));
       pi += 8; pc += 16;
     }
