@@ -5,7 +5,7 @@
  * their TypeScript loops for when WebAssembly is unavailable. Same operation order, so the same values.
  */
 import type { Mesh } from "../mesh/types.js";
-import { KernelMemoryBuilder, padStencil } from "./wasm.js";
+import { KernelMemoryBuilder, padStencil, pairRows } from "./wasm.js";
 
 export interface MeshKernels {
   gradient(out: Float64Array, phi: Float64Array, outOff: number, inOff: number): void;
@@ -35,30 +35,31 @@ function build(m: Mesh): MeshKernels | null {
   const { nCells: nc, nEdges: ne } = m;
   const slotSignLength = new Float64Array(m.cellEdgeOffset[nc]);
   for (let q = 0; q < slotSignLength.length; q++) slotSignLength[q] = m.cellEdgeSign[q] * m.edgeLength[m.cellEdgeIndex[q]];
-  const cells = padStencil(m.cellEdgeOffset, nc, (q) => 8 * m.cellEdgeIndex[q], [slotSignLength]);
-  const tangents = padStencil(m.tangentOffset, ne, (q) => 8 * m.tangentIndex[q], [m.tangentCoef]);
   const b = new KernelMemoryBuilder();
-  const cellIn = b.f64(nc), cellOut = b.f64(nc), edgeIn = b.f64(ne), edgeIn2 = b.f64(ne), edgeOut = b.f64(ne);
-  const ec = b.copy(m.edgeCellsClamped), dc = b.copy(m.edgeCellDistance), open = b.copy(m.edgeOpen), area = b.copy(m.cellArea);
-  const ci = b.copy(cells.index), sl = b.copy(cells.coefs[0]), ti = b.copy(tangents.index), tw = b.copy(tangents.coefs[0]);
+  const cellIn = b.f64(nc), cellOut = b.f64(nc), edgeIn = b.f64(ne), edgeIn2 = b.f64(ne), edgeOut = b.f64(ne), fq = b.f64(2 * ne);
+  // stencil indices as absolute byte addresses of the input each kernel gathers from
+  const cells = padStencil(m.cellEdgeOffset, nc, (q) => edgeIn.ptr + 8 * m.cellEdgeIndex[q], [slotSignLength]);
+  const tangents = padStencil(m.tangentOffset, ne, (q) => fq.ptr + 16 * m.tangentIndex[q], [m.tangentCoef]);
+  const ec = b.copy(m.edgeCellsClamped.map((c) => cellIn.ptr + 8 * c)), dc = b.copy(m.edgeCellDistance), open = b.copy(m.edgeOpen), area = b.copy(m.cellArea);
+  const ci = b.copy(pairRows(cells.index, nc, cells.width)), sl = b.copy(pairRows(cells.coefs[0], nc, cells.width)), ti = b.copy(pairRows(tangents.index, ne, tangents.width)), tw = b.copy(pairRows(tangents.coefs[0], ne, tangents.width));
   const k = b.build();
   if (!k) return null;
   const WC = cells.width, WT = tangents.width;
   return {
     gradient(out, phi, outOff, inOff) {
       copyIn(cellIn.view, phi, inOff, nc);
-      k.gradient(edgeOut.ptr, cellIn.ptr, ne, ec.ptr, dc.ptr, open.ptr);
+      k.gradient(edgeOut.ptr, ne, ec.ptr, dc.ptr, open.ptr);
       out.set(edgeOut.view, outOff);
     },
     divergence(out, flux, outOff, inOff) {
       copyIn(edgeIn.view, flux, inOff, ne);
-      k.divergence(cellOut.ptr, edgeIn.ptr, nc, WC, ci.ptr, sl.ptr, area.ptr);
+      k.divergence(cellOut.ptr, nc, WC, ci.ptr, sl.ptr, area.ptr);
       out.set(cellOut.view, outOff);
     },
     pvFlux(out, outOff, flux, qEdge) {
       copyIn(edgeIn.view, flux, 0, ne);
       copyIn(edgeIn2.view, qEdge, 0, ne);
-      k.pvFlux(edgeOut.ptr, edgeIn.ptr, edgeIn2.ptr, ne, WT, ti.ptr, tw.ptr, open.ptr);
+      k.pvFlux(edgeOut.ptr, edgeIn.ptr, edgeIn2.ptr, fq.ptr, ne, WT, ti.ptr, tw.ptr, open.ptr);
       out.set(edgeOut.view, outOff);
     },
   };

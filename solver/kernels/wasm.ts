@@ -8,7 +8,8 @@
  *
  * Why WebAssembly (measured with `npm run bench` beside our own C loop): in V8 the same loops over typed arrays
  * passed as arguments ran 1.8–5.6× the C figure, mostly bounds checks and typed-array base reloads; in wasm the
- * loads are plain loads off one memory base, and the kernels run at 1.2–1.5× the C figure.
+ * loads are plain loads off one memory base, and the kernels run at about 0.85–1.4× the C figure (the barotropic
+ * sub-step stencils the slowest).
  *
  * The module is compiled once per thread, synchronously (allowed in workers and in Node; the solver never runs on
  * a browser's main thread). Where WebAssembly is missing, `kernelsAvailable()` is false and the callers keep
@@ -33,28 +34,32 @@ export interface KernelExports {
     out: Ptr, ne: number, uOffset: number, L: number, P: number, W: number,
     ec: Ptr, open: Ptr, inv: Ptr, slot: Ptr, tw: Ptr, flux: Ptr, qE: Ptr, fq: Ptr, bern: Ptr,
   ): void;
-  modalDiagonal(
-    outH: Ptr, outU: Ptr, h: Ptr, u: Ptr, nc: number, ne: number, WT: number, WC: number,
-    cor: Ptr, gd: Ptr, dd: Ptr, ti: Ptr, ec: Ptr, open: Ptr, ci: Ptr,
-  ): void;
+  modalDiagonal(outH: Ptr, outU: Ptr, nc: number, ne: number, WT: number, WC: number, cor: Ptr, gd: Ptr, dd: Ptr, ti: Ptr, ec: Ptr, open: Ptr, ci: Ptr): void;
   modalTwo(out: Ptr, y: Ptr, nc: number, ne: number, WT: number, WC: number, cb: Ptr, gb: Ptr, db: Ptr, ti: Ptr, ec: Ptr, open: Ptr, ci: Ptr): void;
   restOperator(
-    out: Ptr, x: Ptr, nc: number, ne: number, L: number, WT: number, WC: number,
-    G: Ptr, mont: Ptr, cor: Ptr, cont: Ptr, inv: Ptr, ti: Ptr, ec: Ptr, open: Ptr, ci: Ptr,
+    out: Ptr, x: Ptr, nc: number, ne: number, L: number, P: number, WT: number, WC: number,
+    G: Ptr, mont: Ptr, uI: Ptr, cor: Ptr, cont: Ptr, inv: Ptr, ti: Ptr, ecM: Ptr, open: Ptr, ci: Ptr,
   ): void;
-  gradient(out: Ptr, phi: Ptr, ne: number, ec: Ptr, dc: Ptr, open: Ptr): void;
-  divergence(out: Ptr, flux: Ptr, nc: number, W: number, ci: Ptr, sl: Ptr, area: Ptr): void;
-  pvFlux(out: Ptr, flux: Ptr, q: Ptr, ne: number, W: number, ti: Ptr, tw: Ptr, open: Ptr): void;
+  gradient(out: Ptr, ne: number, ec: Ptr, dc: Ptr, open: Ptr): void;
+  divergence(out: Ptr, nc: number, W: number, ci: Ptr, sl: Ptr, area: Ptr): void;
+  pvFlux(out: Ptr, flux: Ptr, q: Ptr, fq: Ptr, ne: number, W: number, ti: Ptr, tw: Ptr, open: Ptr): void;
+  barotropicCoriolis(out: Ptr, u: Ptr, H: Ptr, hq: Ptr, ne: number, W: number, ti: Ptr, tw: Ptr, open: Ptr): void;
+  barotropicSurface(out: Ptr, u: Ptr, H: Ptr, hq: Ptr, nc: number, ne: number, W: number, ci: Ptr, sl: Ptr, area: Ptr): void;
+  barotropicPressure(out: Ptr, ne: number, negG: number, ec: Ptr, dc: Ptr, open: Ptr): void;
   windAndDrag(out: Ptr, x: Ptr, ne: number, uOffset: number, L: number, ec: Ptr, open: Ptr, wind: Ptr, rho0: number, drag: number): void;
   vectorLaplacian(
     out: Ptr, u: Ptr, nc: number, ne: number, nv: number, WC: number, ci: Ptr, sl: Ptr, area: Ptr,
     ve: Ptr, vsd: Ptr, vArea: Ptr, vi: Ptr, ec: Ptr, ev: Ptr, dc: Ptr, len: Ptr, open: Ptr, div: Ptr, vort: Ptr,
   ): void;
   addScaled(out: Ptr, a: Ptr, coef: number, n: number): void;
+  jacobianPrepare(
+    ne: number, nv: number, L: number, P: number, uOffset: number, xBar: Ptr, hEdge: Ptr, flux: Ptr, hVert: Ptr, qVert: Ptr, qEdge: Ptr,
+    ubI: Ptr, hEI: Ptr, fI: Ptr, qEI: Ptr, hVI: Ptr, qVI: Ptr,
+  ): void;
   jacobianApply(
-    out: Ptr, x: Ptr, nc: number, ne: number, nv: number, L: number, uOffset: number, WC: number, WT: number,
-    G: Ptr, dM: Ptr, xBar: Ptr, hEdge: Ptr, flux: Ptr, hVert: Ptr, qVert: Ptr, qEdge: Ptr,
-    dhEdge: Ptr, dFlux: Ptr, dVort: Ptr, dqVert: Ptr, dqEdge: Ptr, dK: Ptr,
+    out: Ptr, x: Ptr, nc: number, ne: number, nv: number, L: number, P: number, WC: number, WT: number, G: Ptr,
+    hI: Ptr, uI: Ptr, dM: Ptr, dF: Ptr, dK: Ptr, dqV: Ptr, dqE: Ptr,
+    ubI: Ptr, hEI: Ptr, fI: Ptr, qEI: Ptr, hVI: Ptr, qVI: Ptr,
     ec: Ptr, ev: Ptr, open: Ptr, dc: Ptr, area: Ptr, ci: Ptr, sl: Ptr, lk: Ptr,
     ve: Ptr, vsd: Ptr, vc: Ptr, ka: Ptr, vArea: Ptr, vi: Ptr, ti: Ptr, tw: Ptr,
   ): void;
@@ -172,4 +177,39 @@ export function padStencil(
     }
   }
   return { width, index: idx, coefs: out };
+}
+
+/** Lane stride of layer-interleaved kernel arrays: L rounded up to a multiple of 3 (the kernels' lane block). */
+export function laneStride(L: number): number {
+  return 3 * Math.ceil(L / 3);
+}
+
+/**
+ * Per-layer arrays of equal length interleaved by lane: out[P·s + k] = parts[min(k, L − 1)][s] for P = laneStride(L)
+ * (lanes past the last layer repeat it, so a padded lane computes a copy of the last layer).
+ */
+export function interleaveLanes(parts: readonly Float64Array[]): Float64Array {
+  const L = parts.length, P = laneStride(L), len = parts[0].length;
+  const out = new Float64Array(P * len);
+  for (let k = 0; k < P; k++) {
+    const a = parts[Math.min(k, L - 1)];
+    for (let s = 0; s < len; s++) out[P * s + k] = a[s];
+  }
+  return out;
+}
+
+/**
+ * A padded stencil (width W, rows × W entries) in pair layout for kernels that run rows (r, r + 1) as the two lanes
+ * of f64x2: slot j of pair p at 2(W·p + j) + lane; an odd last row is repeated in lane 1.
+ */
+export function pairRows<T extends Int32Array | Float64Array>(a: T, rows: number, width: number): T {
+  const pairs = Math.ceil(rows / 2);
+  const out = new (a.constructor as new (n: number) => T)(2 * pairs * width);
+  for (let p = 0; p < pairs; p++) {
+    for (let l = 0; l < 2; l++) {
+      const r = Math.min(2 * p + l, rows - 1);
+      for (let j = 0; j < width; j++) out[2 * (width * p + j) + l] = a[width * r + j];
+    }
+  }
+  return out;
 }

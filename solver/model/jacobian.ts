@@ -14,7 +14,7 @@
  */
 import type { LinearOperator, OperatorCounters } from "../linalg/types.js";
 import { layerCoupling } from "./modes.js";
-import { KernelMemoryBuilder, padStencil } from "../kernels/wasm.js";
+import { KernelMemoryBuilder, laneStride, padStencil } from "../kernels/wasm.js";
 import type { ShallowWaterModel, StateLayout } from "./shallowWater.js";
 
 export interface JacobianOperator extends LinearOperator {
@@ -109,6 +109,7 @@ export function jacobianOperator(model: ShallowWaterModel): JacobianOperator {
       for (let v = 0; v < nv; v++) qVert[k * nv + v] = (vort[v] + p.coriolisVertex[v]) / hVert[k * nv + v];
       for (let e = 0; e < ne; e++) qEdge[k * ne + e] = 0.5 * (qVert[k * nv + ev[2 * e]] + qVert[k * nv + ev[2 * e + 1]]);
     }
+    kernel?.prepare();
     for (let i = 0; i < nc; i++) {
       let s = 0;
       for (let k = 0; k < L; k++) s += x[k * nc + i];
@@ -224,26 +225,34 @@ function wasmJacobian(model: ShallowWaterModel, coupling: Float64Array) {
     slotLengthDistance[q] = m.edgeLength[e] * m.edgeCellDistance[e];
   }
   const vertexSignDistance = m.vertexEdgeSign.map((s, j) => s * m.edgeCellDistance[m.vertexEdges[j]]);
-  const cells = padStencil(m.cellEdgeOffset, nc, (q) => 8 * m.cellEdgeIndex[q], [slotSignLength, slotLengthDistance]);
-  const tangents = padStencil(m.tangentOffset, ne, (q) => 8 * m.tangentIndex[q], [m.tangentCoef]);
+  // stencil indices: byte offsets of an entity's lane 0 in the layer-interleaved arrays (8P × entity)
+  const P = laneStride(L), at = (i: number) => 8 * P * i;
+  const cells = padStencil(m.cellEdgeOffset, nc, (q) => at(m.cellEdgeIndex[q]), [slotSignLength, slotLengthDistance]);
+  const tangents = padStencil(m.tangentOffset, ne, (q) => at(m.tangentIndex[q]), [m.tangentCoef]);
   const b = new KernelMemoryBuilder();
-  const xw = b.f64(n), ow = b.f64(n), dM = b.f64(L * nc);
+  const xw = b.f64(n), ow = b.f64(n);
   const xBar = b.f64(n), hEdge = b.f64(L * ne), flux = b.f64(L * ne), hVert = b.f64(L * nv), qVert = b.f64(L * nv), qEdge = b.f64(L * ne);
-  const dhEdge = b.f64(ne), dFlux = b.f64(ne), dVort = b.f64(nv), dqVert = b.f64(nv), dqEdge = b.f64(ne), dK = b.f64(nc);
-  const G = b.copy(coupling), ec = b.copy(m.edgeCellsClamped), ev = b.copy(m.edgeVertices), open = b.copy(m.edgeOpen);
+  const [hI, dM, dK] = [0, 1, 2].map(() => b.f64(P * nc));
+  const [uI, dF, dqE, ubI, hEI, fI, qEI] = [0, 1, 2, 3, 4, 5, 6].map(() => b.f64(P * ne));
+  const [dqV, hVI, qVI] = [0, 1, 2].map(() => b.f64(P * nv));
+  const G = b.copy(coupling), ec = b.copy(m.edgeCellsClamped.map(at)), ev = b.copy(m.edgeVertices.map(at)), open = b.copy(m.edgeOpen);
   const dc = b.copy(m.edgeCellDistance), area = b.copy(m.cellArea);
   const ci = b.copy(cells.index), sl = b.copy(cells.coefs[0]), lk = b.copy(cells.coefs[1]);
-  const ve = b.copy(m.vertexEdges), vsd = b.copy(vertexSignDistance), vc = b.copy(m.vertexCellsClamped), ka = b.copy(m.vertexKiteArea);
+  const ve = b.copy(m.vertexEdges.map(at)), vsd = b.copy(vertexSignDistance), vc = b.copy(m.vertexCellsClamped.map(at)), ka = b.copy(m.vertexKiteArea);
   const vArea = b.copy(m.vertexArea), vi = b.copy(m.vertexInterior), ti = b.copy(tangents.index), tw = b.copy(tangents.coefs[0]);
   const k = b.build();
   if (!k) return null;
   const WC = cells.width, WT = tangents.width;
   return {
     xBar: xBar.view, hEdge: hEdge.view, flux: flux.view, hVert: hVert.view, qVert: qVert.view, qEdge: qEdge.view,
+    /** After setState filled the layer-major arrays above: their layer-interleaved copies for the kernel. */
+    prepare(): void {
+      k.jacobianPrepare(ne, nv, L, P, uOffset, xBar.ptr, hEdge.ptr, flux.ptr, hVert.ptr, qVert.ptr, qEdge.ptr, ubI.ptr, hEI.ptr, fI.ptr, qEI.ptr, hVI.ptr, qVI.ptr);
+    },
     apply(out: Float64Array, x: Float64Array): void {
       xw.view.set(x);
-      k.jacobianApply(ow.ptr, xw.ptr, nc, ne, nv, L, uOffset, WC, WT, G.ptr, dM.ptr, xBar.ptr, hEdge.ptr, flux.ptr, hVert.ptr, qVert.ptr, qEdge.ptr,
-        dhEdge.ptr, dFlux.ptr, dVort.ptr, dqVert.ptr, dqEdge.ptr, dK.ptr, ec.ptr, ev.ptr, open.ptr, dc.ptr, area.ptr, ci.ptr, sl.ptr, lk.ptr,
+      k.jacobianApply(ow.ptr, xw.ptr, nc, ne, nv, L, P, WC, WT, G.ptr, hI.ptr, uI.ptr, dM.ptr, dF.ptr, dK.ptr, dqV.ptr, dqE.ptr,
+        ubI.ptr, hEI.ptr, fI.ptr, qEI.ptr, hVI.ptr, qVI.ptr, ec.ptr, ev.ptr, open.ptr, dc.ptr, area.ptr, ci.ptr, sl.ptr, lk.ptr,
         ve.ptr, vsd.ptr, vc.ptr, ka.ptr, vArea.ptr, vi.ptr, ti.ptr, tw.ptr);
       out.set(ow.view);
     },

@@ -22,7 +22,7 @@ import type { LinearOperator, OperatorCounters } from "../linalg/types.js";
 import type { Mesh } from "../mesh/types.js";
 import { deepestColumnSpeed, hexSpectralBound, layerCoupling } from "./modes.js";
 import { estimateSpectralBound } from "../linalg/spectralBound.js";
-import { KernelMemoryBuilder, padStencil } from "../kernels/wasm.js";
+import { wasmRestOperator } from "../kernels/restKernel.js";
 import type { ShallowWaterModel, StateLayout } from "./shallowWater.js";
 import { operatorShiftedSolver, type OperatorShiftedSolver, type ShiftedSolverOptions } from "./shiftedSolve.js";
 
@@ -184,29 +184,12 @@ export function restLinearOperator(model: ShallowWaterModel, opts: RestOperatorO
   }
 
   // the same L x as a WebAssembly kernel (stencils padded to fixed widths); null = applyLayers above
-  const wasmApply = model.kernels === "wasm" ? wasmRestOperator() : null;
-  function wasmRestOperator(): ((out: Float64Array, x: Float64Array) => void) | null {
-    const layers = (a: Float64Array, per: number) => Array.from({ length: L }, (_, k) => a.subarray(k * per, (k + 1) * per));
-    const tangents = padStencil(tOff, ne, (q) => 8 * tIdx[q], layers(coriolisCoef, nnz));
-    const cells = padStencil(cOff, nc, (q) => 8 * cIdx[q], layers(contCoef, nSlots));
-    const concat = (parts: Float64Array[]) => {
-      const a = new Float64Array(parts.reduce((s, p) => s + p.length, 0));
-      let o = 0;
-      for (const p of parts) { a.set(p, o); o += p.length; }
-      return a;
-    };
-    const b = new KernelMemoryBuilder();
-    const xw = b.f64(n), ow = b.f64(n), mont = b.f64(L * nc);
-    const G = b.copy(coupling), cor = b.copy(concat(tangents.coefs)), cont = b.copy(concat(cells.coefs)), inv = b.copy(invD);
-    const ti = b.copy(tangents.index), ci = b.copy(cells.index), edges = b.copy(m.edgeCellsClamped), open = b.copy(edgeOpen);
-    const k = b.build();
-    if (!k) return null;
-    return (out, x) => {
-      xw.view.set(x);
-      k.restOperator(ow.ptr, xw.ptr, nc, ne, L, tangents.width, cells.width, G.ptr, mont.ptr, cor.ptr, cont.ptr, inv.ptr, ti.ptr, edges.ptr, open.ptr, ci.ptr);
-      out.set(ow.view);
-    };
-  }
+  const wasmApply = model.kernels === "wasm"
+    ? wasmRestOperator({
+      nLayers: L, nCells: nc, nEdges: ne, tangentOffset: tOff, tangentIndex: tIdx, coriolisCoef, cellEdgeOffset: cOff, cellEdgeIndex: cIdx,
+      contCoef, coupling, invDistance: invD, edgeCells: m.edgeCellsClamped, edgeOpen,
+    })
+    : null;
   const applyL = wasmApply ?? applyLayers;
 
   // interface variables: η'_l = Σ_{j≥l} h'_j

@@ -21,6 +21,7 @@ import { createPhiAction, parsePhiFilter, phiBackends } from "../linalg/registry
 import { applyAtTimes, growVectors } from "../linalg/phiTimes.js";
 import type { FastSlowSplit, LinearPart, PhiRequest, Problem, ProblemCounters, StateLayout } from "../time/interface.js";
 import { divergence, gradient } from "../mesh/operators.js";
+import { barotropicKernels } from "../kernels/barotropicKernels.js";
 import type { Mesh } from "../mesh/types.js";
 import type { ShallowWaterModel } from "./shallowWater.js";
 import { restLinearOperator, type RestLinearOperator } from "./linear.js";
@@ -183,7 +184,10 @@ function buildFastSlow(model: ShallowWaterModel, tally: Tally): FastSlowSplit {
     out.set(p.bottom);
     for (let k = 0; k < L; k++) for (let i = 0; i < nc; i++) out[i] += x[k * nc + i];
   };
+  // the sub-step operators as WebAssembly kernels (same operation order); null = the loops below
+  const kernels = model.kernels === "wasm" ? barotropicKernels(m, g) : null;
   const coriolis = (out: Float64Array, u: Float64Array): void => {
+    if (kernels) return kernels.coriolis(out, u);
     for (let e = 0; e < ne; e++) trans[e] = hFrozen[e] * u[e];
     pvFlux(out, 0, m, trans, qEdge);
   };
@@ -214,16 +218,19 @@ function buildFastSlow(model: ShallowWaterModel, tally: Tally): FastSlowSplit {
       freeSurface(etaC, x);
       for (let i = 0; i < nc; i++) col[i] = etaC[i] - p.bottom[i];
       potentialVorticity(qVertex, qEdge, m, noVorticity, col, 0, p.coriolisVertex);
+      kernels?.freeze(hFrozen, qEdge);
     },
     surfaceTendency(out, ubar) {
       tally.tendency += wSub;
       tally.extraMatvecs++;
+      if (kernels) return kernels.surfaceTendency(out, ubar);
       for (let e = 0; e < ne; e++) trans[e] = hFrozen[e] * ubar[e];
       divergence(div, m, trans);
       for (let i = 0; i < nc; i++) out[i] = -div[i];
     },
     pressure(out, eta) {
       tally.tendency += wSub;
+      if (kernels) return kernels.pressure(out, eta);
       gradient(grad, m, eta);
       for (let e = 0; e < ne; e++) out[e] = -g * grad[e];
     },

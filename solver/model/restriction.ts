@@ -445,9 +445,13 @@ function wasmModalOperator(
   const ec = b.copy(mesh.edgeCellsClamped), open = b.copy(mesh.edgeOpen);
   const mOffset = m * nc;
   if (diagonal) {
+    // stencil indices as absolute byte addresses of mode a's blocks of y (one index array per mode)
+    const uAt = (a: number) => y.ptr + 8 * (mOffset + a * ne), hAt = (a: number) => y.ptr + 8 * a * nc;
     const tangents = padStencil(mesh.tangentOffset, ne, (q) => 8 * mesh.tangentIndex[q], Array.from({ length: m }, (_, a) => cor.subarray(a * nnzT, (a + 1) * nnzT)));
     const cells = padStencil(mesh.cellEdgeOffset, nc, (q) => 8 * mesh.cellEdgeIndex[q], Array.from({ length: m }, (_, a) => div.subarray(a * nnzC, (a + 1) * nnzC)));
-    const ti = b.copy(tangents.index), ci = b.copy(cells.index);
+    const ti = Array.from({ length: m }, (_, a) => b.copy(tangents.index.map((o) => uAt(a) + o)));
+    const ci = Array.from({ length: m }, (_, a) => b.copy(cells.index.map((o) => uAt(a) + o)));
+    const ecA = Array.from({ length: m }, (_, a) => b.copy(mesh.edgeCellsClamped.map((c) => hAt(a) + 8 * c)));
     const cd = tangents.coefs.map((c) => b.copy(c)), dd = cells.coefs.map((c) => b.copy(c));
     const gd: Placed<Float64Array>[] = [];
     for (let a = 0; a < m; a++) gd.push(b.copy(grad.slice(a * 2 * ne, (a + 1) * 2 * ne)));
@@ -457,8 +461,7 @@ function wasmModalOperator(
     return (out, yIn) => {
       y.view.set(yIn);
       for (let a = 0; a < m; a++) {
-        k.modalDiagonal(o.ptr + 8 * a * nc, o.ptr + 8 * (mOffset + a * ne), y.ptr + 8 * a * nc, y.ptr + 8 * (mOffset + a * ne), nc, ne, WT, WC,
-          cd[a].ptr, gd[a].ptr, dd[a].ptr, ti.ptr, ec.ptr, open.ptr, ci.ptr);
+        k.modalDiagonal(o.ptr + 8 * a * nc, o.ptr + 8 * (mOffset + a * ne), nc, ne, WT, WC, cd[a].ptr, gd[a].ptr, dd[a].ptr, ti[a].ptr, ecA[a].ptr, open.ptr, ci[a].ptr);
       }
       out.set(o.view);
     };

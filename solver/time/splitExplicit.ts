@@ -194,32 +194,40 @@ export function splitExplicit(problem: Problem, options: SplitExplicitOptions = 
     fs.splitTendency(slow, tPrime, xcState, tend);
     // 2. baroclinic predictor u'*_k = u'^n_k + Δt T'_k
     for (let q = 0; q < nLE; q++) uStar[q] = uPn[q] + dt * tPrime[q];
-    // 3. barotropic sub-cycle from (ū^n, η^n) with Ĥ^c frozen; η is carried at half levels j − ½
+    // 3. barotropic sub-cycle from (ū^n, η^n) with Ĥ^c frozen; η is carried at half levels j − ½.
+    // The pointwise updates of a sub-step are fused into two edge loops and one cell loop over local aliases of
+    // the work arrays (each entry gets the same operations in the same order as the formulas above).
     const tau = dt / M;
-    ub.set(ubN);
-    fs.surfaceTendency(dEta, ub);
-    for (let i = 0; i < nC; i++) eta[i] = etaN[i] + 0.5 * tau * dEta[i]; // η^{1/2}
-    for (let e = 0; e < nE; e++) ubFlux[e] = ub[e] / (2 * M); // b_0 = 1/(2M)
-    ubEnd.fill(0);
-    etaEnd.fill(0);
+    const ubL = ub, ubP = ubPred, ubF = ubFlux, ubE = ubEnd, bs = base, sl = slow, pr = press, c1 = cor1, c2 = cor2;
+    const et = eta, etE = etaEnd, dE = dEta;
+    ubL.set(ubN);
+    fs.surfaceTendency(dE, ubL);
+    for (let i = 0; i < nC; i++) et[i] = etaN[i] + 0.5 * tau * dE[i]; // η^{1/2}
+    for (let e = 0; e < nE; e++) ubF[e] = ubL[e] / (2 * M); // b_0 = 1/(2M)
+    ubE.fill(0);
+    etE.fill(0);
     let aBefore = 0; // Σ_{i<j} a_i
     for (let j = 1; j <= J; j++) {
-      fs.pressure(press, eta);
-      for (let e = 0; e < nE; e++) base[e] = slow[e] + press[e];
-      fs.coriolis(cor1, ub);
-      for (let e = 0; e < nE; e++) ubPred[e] = ub[e] + tau * (base[e] + cor1[e]);
-      fs.coriolis(cor2, ubPred);
-      for (let e = 0; e < nE; e++) ub[e] += tau * (base[e] + 0.5 * (cor1[e] + cor2[e])); // ū^j
-      fs.surfaceTendency(dEta, ub);
+      fs.pressure(pr, et);
+      fs.coriolis(c1, ubL);
+      for (let e = 0; e < nE; e++) {
+        const be = sl[e] + pr[e];
+        bs[e] = be;
+        ubP[e] = ubL[e] + tau * (be + c1[e]);
+      }
+      fs.coriolis(c2, ubP);
       const a = averagingWeight(filter, j, M);
       const b = (1 - aBefore - 0.5 * a) / M;
       aBefore += a;
-      for (let e = 0; e < nE; e++) ubFlux[e] += b * ub[e];
-      if (a !== 0) {
-        for (let e = 0; e < nE; e++) ubEnd[e] += a * ub[e];
-        for (let i = 0; i < nC; i++) etaEnd[i] += a * (eta[i] + 0.5 * tau * dEta[i]); // a_j η^j
+      for (let e = 0; e < nE; e++) {
+        const u = ubL[e] + tau * (bs[e] + 0.5 * (c1[e] + c2[e])); // ū^j
+        ubL[e] = u;
+        ubF[e] += b * u;
+        if (a !== 0) ubE[e] += a * u;
       }
-      for (let i = 0; i < nC; i++) eta[i] += tau * dEta[i]; // η^{j+1/2}
+      fs.surfaceTendency(dE, ubL);
+      if (a !== 0) for (let i = 0; i < nC; i++) etE[i] += a * (et[i] + 0.5 * tau * dE[i]); // a_j η^j
+      for (let i = 0; i < nC; i++) et[i] += tau * dE[i]; // η^{j+1/2}
     }
     // 4–5. layer transports and thicknesses in flux form, velocities reconciled with the new thicknesses
     for (let q = 0; q < nLE; q++) vPrime[q] = 0.5 * (uPn[q] + uStar[q]);

@@ -6,7 +6,9 @@ import { divergence, divergenceLoop, gradient, gradientLoop } from "../../solver
 import { jacobianOperator } from "../../solver/model/jacobian";
 import { restLinearOperator } from "../../solver/model/linear";
 import { ShallowWaterModel } from "../../solver/model/shallowWater";
-import { pvFlux, pvFluxLoop } from "../../solver/model/terms";
+import { edgeThickness, potentialVorticity, pvFlux, pvFluxLoop } from "../../solver/model/terms";
+import { problemFor } from "../../solver/model/problem";
+import type { FastSlowSplit } from "../../solver/time/interface";
 import { cpuClock, round, samples, summary, time } from "./harness";
 import { compileNative } from "./native";
 import { EXTRA_SECTIONS } from "./sections";
@@ -14,7 +16,7 @@ import { EXTRA_SECTIONS } from "./sections";
 /**
  * `npm run bench [-- --json FILE] [-- --quick]`: tendency and restricted-operator cost per cell·layer beside our own
  * C loop over the same arrays, and RK4 step time, on periodic hexagonal meshes with 3 layers, plus the sections
- * registered in sections.ts (`--only-kernels` skips those; `--wall` times the kernel table by the wall clock
+ * registered in sections.ts (`--only-kernels` skips those; `--kernels rest,jacobian` times only those rows; `--wall` times the kernel table by the wall clock
  * instead of CPU time).
  */
 const argv = process.argv.slice(2);
@@ -27,6 +29,12 @@ if (jsonIdx >= 0 && !jsonFile) {
 const quick = argv.includes("--quick");
 /** The kernel table times CPU time of each process unless `--wall` (the machine is shared; see the table's note). */
 const wall = argv.includes("--wall");
+/** `--kernels rest,jacobian`: time only these rows of the kernel table (while iterating on one kernel). */
+const kernelsIdx = argv.indexOf("--kernels");
+/** `--meshes 32,64`: mesh sizes of the kernel table (default 64 and 128 cells a side). */
+const meshesIdx = argv.indexOf("--meshes");
+const meshSizes = meshesIdx >= 0 ? (argv[meshesIdx + 1] ?? "").split(",").map(Number).filter((v) => Number.isInteger(v) && v >= 4 && v <= 512) : [64, 128];
+const onlyKernels = kernelsIdx >= 0 ? (argv[kernelsIdx + 1] ?? "").split(",").filter((s) => s !== "") : null;
 const log = (s: string) => process.stdout.write(s + "\n");
 
 export function benchScenario(n: number) {
@@ -51,11 +59,14 @@ log("(WebAssembly); TS loops = the TypeScript loops they replaced, kept as refer
 log("repository, tests/bench/c/kernels.c, over the same connectivity and coefficient arrays exported from the mesh and model,");
 log("timed in a child process in rounds alternating with the others. Ratio = Stepwell / C; diff = max relative difference of");
 log(`the C result from Stepwell's. ${"unavailable" in native ? `C comparison skipped: ${native.unavailable}.` : `Compiled with ${native.compiler}.`}`);
+log("Barotropic sub-step = gradient, two PV fluxes and divergence (the mesh operators); split sub-step = one sub-step of the");
+log("split-explicit sub-cycle as the stepper runs it (the fast/slow split's kernels plus the stepper's TypeScript pointwise");
+log("updates; its TS loops column is the split without the fused kernels).");
 log(wall ? "Timed by the wall clock (--wall)." : "Timed by each process's CPU time (less disturbed by other work on a shared machine; --wall for the wall clock).");
 log("kernel                mesh      Stepwell (best / med.)   TS loops (best / med.)   C (best / med.)      ratio (best / med.)  diff");
 const fmt = (t: { best: number; median: number }) => `${t.best.toFixed(1).padStart(7)} / ${t.median.toFixed(1).padEnd(7)}`;
-type KernelName = "tendency" | "restricted" | "substep" | "rest" | "jacobian";
-for (const n of [64, 128]) {
+type KernelName = "tendency" | "restricted" | "substep" | "split" | "rest" | "jacobian";
+for (const n of meshSizes) {
   const run = createRun(benchScenario(n));
   const model = run.model;
   const reference = new ShallowWaterModel(model.mesh, model.params, "typescript");
@@ -72,12 +83,24 @@ for (const n of [64, 128]) {
   const nc = m.nCells, ne = m.nEdges;
   // the stencils of one barotropic sub-step of the split-explicit stepper: gradient, two PV fluxes, divergence
   const rnd = seededRandom(6);
-  const bt = { cell: Float64Array.from({ length: nc }, rnd), edge: Float64Array.from({ length: ne }, rnd), pv: Float64Array.from({ length: ne }, rnd) };
+  const btCell = Float64Array.from({ length: nc }, rnd), btEdge = Float64Array.from({ length: ne }, rnd), btPv = Float64Array.from({ length: ne }, rnd);
+  // one sub-step of the split-explicit sub-cycle as the stepper runs it, on the model's fast/slow split frozen at the
+  // state; the C loop gets the same frozen Ĥ and q, computed here as problem.ts computes them
+  const fs = problemFor(model).fastSlow;
+  fs.freeze(run.state);
+  const frozen = frozenColumn(model, run.state);
+  const bt = { cell: btCell, edge: btEdge, pv: btPv, thickness: frozen.H, frozenPv: frozen.q, slow: Float64Array.from({ length: ne }, rnd) };
+  const sp = splitSubstepLoop(fs, bt.slow);
+  sp.reset(bt.edge, bt.cell);
+  const fsRef = problemFor(reference).fastSlow; // the split's operators without the fused kernels
+  fsRef.freeze(run.state);
+  const spRef = splitSubstepLoop(fsRef, bt.slow);
+  spRef.reset(bt.edge, bt.cell);
   const outSub = new Float64Array(3 * ne + nc);
   const [grad, cor1, cor2] = [0, 1, 2].map((j) => outSub.subarray(j * ne, (j + 1) * ne));
   const div = outSub.subarray(3 * ne);
   const rounds = quick ? 2 : 5;
-  const inner = n === 64 ? 20 : 5;
+  const inner = Math.max(5, Math.round((20 * 64 * 64) / (n * n)));
   const reps = quick ? 3 : 5;
   const kernels: Record<KernelName, { label: string; units: number; inner: number; fn: () => void; ref: () => void }> = {
     tendency: { label: "tendency", units: nc * 3, inner, fn: () => model.tendency(out, run.state, 0), ref: () => reference.tendency(out, run.state, 0) },
@@ -87,10 +110,11 @@ for (const n of [64, 128]) {
       fn: () => { gradient(grad, m, bt.cell); pvFlux(cor1, 0, m, bt.edge, bt.pv); pvFlux(cor2, 0, m, bt.edge, bt.pv); divergence(div, m, bt.edge); },
       ref: () => { gradientLoop(grad, m, bt.cell); pvFluxLoop(cor1, 0, m, bt.edge, bt.pv); pvFluxLoop(cor2, 0, m, bt.edge, bt.pv); divergenceLoop(div, m, bt.edge); },
     },
+    split: { label: "split sub-step", units: nc, inner: 2 * inner, fn: () => sp.step(), ref: () => spRef.step() },
     rest: { label: "rest operator", units: nc * 3, inner, fn: () => rest.apply(outRest, restInput), ref: () => restRef.apply(outRest, restInput) },
     jacobian: { label: "Jacobian-vector", units: nc * 3, inner, fn: () => jac.apply(outJac, restInput), ref: () => jacRef.apply(outJac, restInput) },
   };
-  const names = Object.keys(kernels) as KernelName[];
+  const names = (Object.keys(kernels) as KernelName[]).filter((k) => !onlyKernels || onlyKernels.includes(k));
   const sw = Object.fromEntries(names.map((k) => [k, [] as number[]])) as Record<KernelName, number[]>;
   const ts = Object.fromEntries(names.map((k) => [k, [] as number[]])) as Record<KernelName, number[]>;
   const c = Object.fromEntries(names.map((k) => [k, [] as number[]])) as Record<KernelName, number[]>;
@@ -111,6 +135,9 @@ for (const n of [64, 128]) {
       diff.substep = relativeDifference(cr.outSubstep, outSub);
       diff.rest = relativeDifference(cr.outRest, outRest);
       diff.jacobian = relativeDifference(cr.outJacobian, outJac);
+      sp.reset(bt.edge, bt.cell);
+      sp.step();
+      diff.split = relativeDifference(cr.outSplit, sp.output());
     }
   }
   const key = `${n}x${n}`;
@@ -134,6 +161,59 @@ for (const n of [64, 128]) {
 if (!("unavailable" in native)) native.dispose();
 result.tendency = tendency;
 result.rk4Step = rk4Step;
+
+/** Ĥ = Σ_k ĥ_k and the edge PV f/Ĥ_v of a state, in the operations of the fast/slow split's freeze (problem.ts). */
+function frozenColumn(model: ShallowWaterModel, x: Float64Array): { H: Float64Array; q: Float64Array } {
+  const m = model.mesh, p = model.params, { nLayers: L, nCells: nc, nEdges: ne } = model.layout;
+  const H = new Float64Array(ne), hE = new Float64Array(ne), eta = Float64Array.from(p.bottom), col = new Float64Array(nc);
+  for (let k = 0; k < L; k++) {
+    edgeThickness(hE, m, x, k * nc);
+    for (let e = 0; e < ne; e++) H[e] += hE[e];
+  }
+  for (let k = 0; k < L; k++) for (let i = 0; i < nc; i++) eta[i] += x[k * nc + i];
+  for (let i = 0; i < nc; i++) col[i] = eta[i] - p.bottom[i];
+  const q = new Float64Array(ne);
+  potentialVorticity(new Float64Array(m.nVertices), q, m, new Float64Array(m.nVertices), col, 0, p.coriolisVertex);
+  return { H, q };
+}
+
+/**
+ * One sub-step of the split-explicit barotropic sub-cycle with the loops of solver/time/splitExplicit.ts (sub-step
+ * τ = 1 s, averaging weights a = 0.1, b = 0.05, as the C loop): pressure, Coriolis, predictor, Coriolis, corrector
+ * with the running sums, surface tendency, η update and its running sum.
+ */
+function splitSubstepLoop(fs: FastSlowSplit, slow: Float64Array) {
+  const ne = fs.nEdges, nc = fs.nCells, tau = 1, a = 0.1, b = 0.05;
+  const [ub, ubFlux, ubEnd, press, cor1, cor2, base, ubPred] = Array.from({ length: 8 }, () => fs.newEdgeVector());
+  const [eta, etaEnd, dEta] = Array.from({ length: 3 }, () => fs.newCellVector());
+  return {
+    reset(u0: Float64Array, eta0: Float64Array) { ub.set(u0); eta.set(eta0); ubFlux.fill(0); ubEnd.fill(0); etaEnd.fill(0); },
+    step() {
+      fs.pressure(press, eta);
+      fs.coriolis(cor1, ub);
+      for (let e = 0; e < ne; e++) {
+        const be = slow[e] + press[e];
+        base[e] = be;
+        ubPred[e] = ub[e] + tau * (be + cor1[e]);
+      }
+      fs.coriolis(cor2, ubPred);
+      for (let e = 0; e < ne; e++) {
+        const u = ub[e] + tau * (base[e] + 0.5 * (cor1[e] + cor2[e]));
+        ub[e] = u;
+        ubFlux[e] += b * u;
+        ubEnd[e] += a * u;
+      }
+      fs.surfaceTendency(dEta, ub);
+      for (let i = 0; i < nc; i++) etaEnd[i] += a * (eta[i] + 0.5 * tau * dEta[i]);
+      for (let i = 0; i < nc; i++) eta[i] += tau * dEta[i];
+    },
+    output(): Float64Array {
+      const o = new Float64Array(3 * ne + 2 * nc);
+      o.set(ub); o.set(ubFlux, ne); o.set(ubEnd, 2 * ne); o.set(eta, 3 * ne); o.set(etaEnd, 3 * ne + nc);
+      return o;
+    },
+  };
+}
 
 /** Largest |a − b| relative to the largest |b|. */
 function relativeDifference(a: Float64Array, b: Float64Array): number {

@@ -27,13 +27,19 @@ export interface NativeLoops {
 }
 
 /** Inputs of the barotropic sub-step stencils: a cell field, an edge field (transport) and edge PV. */
-export interface BarotropicFields { cell: Float64Array; edge: Float64Array; pv: Float64Array }
+export interface BarotropicFields {
+  cell: Float64Array; edge: Float64Array; pv: Float64Array;
+  /** The split sub-step: frozen column thickness Ĥ and edge PV q of the state, and a slow forcing (edges); it starts from ū = edge, η = cell. */
+  thickness: Float64Array; frozenPv: Float64Array; slow: Float64Array;
+}
 
 export interface NativeProblem {
   /** Seconds per call of each repetition, and the outputs of the last call (sub-step: gradient, two PV fluxes, divergence). */
   run(reps: number, inner: number, cpu: boolean): {
-    tendency: number[]; restricted: number[]; substep: number[]; rest: number[]; jacobian: number[];
+    tendency: number[]; restricted: number[]; substep: number[]; rest: number[]; jacobian: number[]; split: number[];
     outTendency: Float64Array; outRestricted: Float64Array; outSubstep: Float64Array; outRest: Float64Array; outJacobian: Float64Array;
+    /** One split sub-step from the start: ū, Σ b ū, Σ a ū (edges), η, Σ a η (cells). */
+    outSplit: Float64Array;
   };
 }
 
@@ -91,6 +97,9 @@ export function compileNative(layers: number): NativeLoops | { unavailable: stri
       put("barotropicCell.f64", barotropic.cell);
       put("barotropicEdge.f64", barotropic.edge);
       put("barotropicPv.f64", barotropic.pv);
+      put("splitThickness.f64", barotropic.thickness);
+      put("splitPv.f64", barotropic.frozenPv);
+      put("splitSlow.f64", barotropic.slow);
       put("coupling.f64", rest.coupling);
       put("restCoriolis.f64", rest.coriolisCoef);
       put("restEdgeThickness.f64", rest.edgeThickness);
@@ -101,8 +110,8 @@ export function compileNative(layers: number): NativeLoops | { unavailable: stri
       const read = (name: string) => { const b = readFileSync(join(dir, name)); return new Float64Array(b.buffer, b.byteOffset, b.byteLength / 8).slice(); };
       return {
         run(reps, inner, cpu) {
-          const res = JSON.parse(execFileSync(exe, [dir, String(reps), String(inner), ...(cpu ? ["cpu"] : [])]).toString()) as { tendency: number[]; restricted: number[]; substep: number[]; rest: number[]; jacobian: number[] };
-          return { ...res, outTendency: read("out_tendency.f64"), outRestricted: read("out_restricted.f64"), outSubstep: read("out_substep.f64"), outRest: read("out_rest.f64"), outJacobian: read("out_jacobian.f64") };
+          const res = JSON.parse(execFileSync(exe, [dir, String(reps), String(inner), ...(cpu ? ["cpu"] : [])]).toString()) as { tendency: number[]; restricted: number[]; substep: number[]; rest: number[]; jacobian: number[]; split: number[] };
+          return { ...res, outTendency: read("out_tendency.f64"), outRestricted: read("out_restricted.f64"), outSubstep: read("out_substep.f64"), outRest: read("out_rest.f64"), outJacobian: read("out_jacobian.f64"), outSplit: read("out_split.f64") };
         },
       };
     },

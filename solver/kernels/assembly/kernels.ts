@@ -1,14 +1,19 @@
 // AssemblyScript source of the WebAssembly kernels (compiled by `npm run build:kernels`, see DEVELOPERS.md).
 // Not TypeScript: f64/i32/usize, load/store on raw linear memory. Every pointer is a byte offset into the
 // memory that the host (solver/kernels/wasm.ts) fills with the mesh arrays, coefficients and work arrays of one
-// model; indices are element indices. The arithmetic, operation order included, is that of the TypeScript
-// kernels they replace (solver/model/terms.ts, linear.ts, restriction.ts), so results agree to round-off.
+// model. The arithmetic of every output entry, operation order included, is that of the TypeScript kernels they
+// replace (solver/model/terms.ts, linear.ts, restriction.ts, jacobian.ts, problem.ts, solver/mesh/operators.ts),
+// so results agree to round-off.
 //
 // Stencils of variable length (cell → edges, edge → tangential edges) arrive padded to a fixed width W per row:
-// index arrays repeat a valid index and coefficient arrays hold 0 in the padding. Widths 6 and 10 (hexagonal
-// cells, TRiSK tangential stencil) have unrolled loops; any other width takes the plain loop. Stencil index
-// arrays hold byte offsets (8 × element index, 8P × entity for the layer-interleaved work arrays), so a gather
-// is one add and one load with an immediate offset.
+// index arrays repeat a valid index and coefficient arrays hold 0 in the padding. Stencil index arrays hold byte
+// offsets (8 × element index, 8P × entity for layer-interleaved arrays) or, where one array is gathered from,
+// absolute byte addresses, so that a gather is one load with an immediate offset. Layered kernels run the layers
+// in blocks of three lanes over layer-interleaved arrays (stride P = L rounded up to a multiple of 3), lanes 0 and 1
+// as one f64x2 operation and lane 2 as a scalar one; the PV flux runs pairs of edges as the two f64x2 lanes.
+// SIMD here is lane-wise only: each lane does the scalar loop's operations in the scalar loop's order (no
+// reassociation, no fused multiply-add). Hand-unrolled stencil loops were measured no faster (V8 spilled the
+// hoisted loads), so the loops are plain.
 
 @inline function ld(p: usize, i: i32): f64 { return load<f64>(p + (<usize>i << 3)); }
 @inline function li(p: usize, i: i32): i32 { return load<i32>(p + (<usize>i << 2)); }
@@ -124,58 +129,24 @@ export function edgeMomentum(
     const k1 = lane(kb, 1, L), k2 = lane(kb, 2, L);
     const o0 = out + (<usize>(uOffset + kb * ne) << 3), o1 = out + (<usize>(uOffset + k1 * ne) << 3), o2 = out + (<usize>(uOffset + k2 * ne) << 3);
     const fl = flux + (<usize>kb << 3), gl = fq + (<usize>kb << 3);
-    if (W == 10) {
-      for (let e = 0; e < ne; e++) {
-        if (load<u8>(open + <usize>e) == 0) { st(o0, e, 0); st(o1, e, 0); st(o2, e, 0); continue; }
-        let a0: f64 = 0, a1: f64 = 0, a2: f64 = 0, g0: f64 = 0, g1: f64 = 0, g2: f64 = 0;
-        const ps = slot + (<usize>(10 * e) << 2), pw = tw + (<usize>(10 * e) << 3);
-        let j = 0, c: f64 = 0, tap: usize = 0;
-        j = load<i32>(ps, 0); c = load<f64>(pw, 0);
-        tap = fl + <usize>j; a0 += c * load<f64>(tap); a1 += c * load<f64>(tap, 8); a2 += c * load<f64>(tap, 16);
-        tap = gl + <usize>j; g0 += c * load<f64>(tap); g1 += c * load<f64>(tap, 8); g2 += c * load<f64>(tap, 16);
-        j = load<i32>(ps, 4); c = load<f64>(pw, 8);
-        tap = fl + <usize>j; a0 += c * load<f64>(tap); a1 += c * load<f64>(tap, 8); a2 += c * load<f64>(tap, 16);
-        tap = gl + <usize>j; g0 += c * load<f64>(tap); g1 += c * load<f64>(tap, 8); g2 += c * load<f64>(tap, 16);
-        j = load<i32>(ps, 8); c = load<f64>(pw, 16);
-        tap = fl + <usize>j; a0 += c * load<f64>(tap); a1 += c * load<f64>(tap, 8); a2 += c * load<f64>(tap, 16);
-        tap = gl + <usize>j; g0 += c * load<f64>(tap); g1 += c * load<f64>(tap, 8); g2 += c * load<f64>(tap, 16);
-        j = load<i32>(ps, 12); c = load<f64>(pw, 24);
-        tap = fl + <usize>j; a0 += c * load<f64>(tap); a1 += c * load<f64>(tap, 8); a2 += c * load<f64>(tap, 16);
-        tap = gl + <usize>j; g0 += c * load<f64>(tap); g1 += c * load<f64>(tap, 8); g2 += c * load<f64>(tap, 16);
-        j = load<i32>(ps, 16); c = load<f64>(pw, 32);
-        tap = fl + <usize>j; a0 += c * load<f64>(tap); a1 += c * load<f64>(tap, 8); a2 += c * load<f64>(tap, 16);
-        tap = gl + <usize>j; g0 += c * load<f64>(tap); g1 += c * load<f64>(tap, 8); g2 += c * load<f64>(tap, 16);
-        j = load<i32>(ps, 20); c = load<f64>(pw, 40);
-        tap = fl + <usize>j; a0 += c * load<f64>(tap); a1 += c * load<f64>(tap, 8); a2 += c * load<f64>(tap, 16);
-        tap = gl + <usize>j; g0 += c * load<f64>(tap); g1 += c * load<f64>(tap, 8); g2 += c * load<f64>(tap, 16);
-        j = load<i32>(ps, 24); c = load<f64>(pw, 48);
-        tap = fl + <usize>j; a0 += c * load<f64>(tap); a1 += c * load<f64>(tap, 8); a2 += c * load<f64>(tap, 16);
-        tap = gl + <usize>j; g0 += c * load<f64>(tap); g1 += c * load<f64>(tap, 8); g2 += c * load<f64>(tap, 16);
-        j = load<i32>(ps, 28); c = load<f64>(pw, 56);
-        tap = fl + <usize>j; a0 += c * load<f64>(tap); a1 += c * load<f64>(tap, 8); a2 += c * load<f64>(tap, 16);
-        tap = gl + <usize>j; g0 += c * load<f64>(tap); g1 += c * load<f64>(tap, 8); g2 += c * load<f64>(tap, 16);
-        j = load<i32>(ps, 32); c = load<f64>(pw, 64);
-        tap = fl + <usize>j; a0 += c * load<f64>(tap); a1 += c * load<f64>(tap, 8); a2 += c * load<f64>(tap, 16);
-        tap = gl + <usize>j; g0 += c * load<f64>(tap); g1 += c * load<f64>(tap, 8); g2 += c * load<f64>(tap, 16);
-        j = load<i32>(ps, 36); c = load<f64>(pw, 72);
-        tap = fl + <usize>j; a0 += c * load<f64>(tap); a1 += c * load<f64>(tap, 8); a2 += c * load<f64>(tap, 16);
-        tap = gl + <usize>j; g0 += c * load<f64>(tap); g1 += c * load<f64>(tap, 8); g2 += c * load<f64>(tap, 16);
-        momentumStore(o0, o1, o2, e, P, kb, a0, a1, a2, g0, g1, g2, ec, inv, qE, bern);
+    // lanes 0 and 1 as f64x2, lane 2 scalar (each lane the loop's sum in the loop's order)
+    for (let e = 0; e < ne; e++) {
+      if (load<u8>(open + <usize>e) == 0) { st(o0, e, 0); st(o1, e, 0); st(o2, e, 0); continue; }
+      let a01 = f64x2.splat(0), g01 = f64x2.splat(0);
+      let a2: f64 = 0, g2: f64 = 0;
+      let ps = slot + (<usize>(W * e) << 2), pw = tw + (<usize>(W * e) << 3);
+      const end = ps + (<usize>W << 2);
+      while (ps < end) {
+        const j = <usize>load<i32>(ps), c = load<f64>(pw), cc = f64x2.splat(c);
+        const pf = fl + j, pg = gl + j;
+        a01 = f64x2.add(a01, f64x2.mul(cc, v128.load(pf)));
+        g01 = f64x2.add(g01, f64x2.mul(cc, v128.load(pg)));
+        a2 += c * load<f64>(pf, 16);
+        g2 += c * load<f64>(pg, 16);
+        ps += 4; pw += 8;
       }
-    } else {
-      for (let e = 0; e < ne; e++) {
-        if (load<u8>(open + <usize>e) == 0) { st(o0, e, 0); st(o1, e, 0); st(o2, e, 0); continue; }
-        let a0: f64 = 0, a1: f64 = 0, a2: f64 = 0, g0: f64 = 0, g1: f64 = 0, g2: f64 = 0;
-        const t0 = W * e;
-        for (let t = t0; t < t0 + W; t++) {
-          const j = li(slot, t);
-          const c = ld(tw, t);
-          const pf = fl + <usize>j, pg = gl + <usize>j;
-          a0 += c * load<f64>(pf); a1 += c * load<f64>(pf, 8); a2 += c * load<f64>(pf, 16);
-          g0 += c * load<f64>(pg); g1 += c * load<f64>(pg, 8); g2 += c * load<f64>(pg, 16);
-        }
-        momentumStore(o0, o1, o2, e, P, kb, a0, a1, a2, g0, g1, g2, ec, inv, qE, bern);
-      }
+      momentumStore(o0, o1, o2, e, P, kb, f64x2.extract_lane(a01, 0), f64x2.extract_lane(a01, 1), a2,
+        f64x2.extract_lane(g01, 0), f64x2.extract_lane(g01, 1), g2, ec, inv, qE, bern);
     }
   }
 }
@@ -196,57 +167,40 @@ export function edgeMomentum(
 // Single-layer wave operators: the modal operator of restriction.ts with one mode per block (diagonal blocks),
 // and the rest-state operator of linear.ts layer by layer.
 
-@inline function tangentSum(cor: usize, ti: usize, u: usize, t0: i32, W: i32): f64 {
+@inline function cellSum(dd: usize, ci: usize, u: usize, q0: i32, W: i32): f64 {
   let acc: f64 = 0;
-  if (W == 10) {
-    const pc = cor + (<usize>t0 << 3), pi = ti + (<usize>t0 << 2);
-    acc += load<f64>(pc, 0) * at(u, load<i32>(pi, 0));
-    acc += load<f64>(pc, 8) * at(u, load<i32>(pi, 4));
-    acc += load<f64>(pc, 16) * at(u, load<i32>(pi, 8));
-    acc += load<f64>(pc, 24) * at(u, load<i32>(pi, 12));
-    acc += load<f64>(pc, 32) * at(u, load<i32>(pi, 16));
-    acc += load<f64>(pc, 40) * at(u, load<i32>(pi, 20));
-    acc += load<f64>(pc, 48) * at(u, load<i32>(pi, 24));
-    acc += load<f64>(pc, 56) * at(u, load<i32>(pi, 28));
-    acc += load<f64>(pc, 64) * at(u, load<i32>(pi, 32));
-    acc += load<f64>(pc, 72) * at(u, load<i32>(pi, 36));
-  } else {
-    for (let q = t0; q < t0 + W; q++) acc += ld(cor, q) * at(u, li(ti, q));
-  }
+  for (let q = q0; q < q0 + W; q++) acc += ld(dd, q) * at(u, li(ci, q));
   return acc;
 }
 
-@inline function cellSum(dd: usize, ci: usize, u: usize, q0: i32, W: i32): f64 {
+/** Σ_j c[t0 + j]·f[j-th address], W slots from slot t0: `pi` the absolute byte addresses, `pc` the coefficients. */
+@inline function gatherSum(pc: usize, pi: usize, t0: i32, W: i32): f64 {
   let acc: f64 = 0;
-  if (W == 6) {
-    const pc = dd + (<usize>q0 << 3), pi = ci + (<usize>q0 << 2);
-    acc += load<f64>(pc, 0) * at(u, load<i32>(pi, 0));
-    acc += load<f64>(pc, 8) * at(u, load<i32>(pi, 4));
-    acc += load<f64>(pc, 16) * at(u, load<i32>(pi, 8));
-    acc += load<f64>(pc, 24) * at(u, load<i32>(pi, 12));
-    acc += load<f64>(pc, 32) * at(u, load<i32>(pi, 16));
-    acc += load<f64>(pc, 40) * at(u, load<i32>(pi, 20));
-  } else {
-    for (let q = q0; q < q0 + W; q++) acc += ld(dd, q) * at(u, li(ci, q));
+  let c = pc + (<usize>t0 << 3), i = pi + (<usize>t0 << 2);
+  const end = i + (<usize>W << 2);
+  while (i < end) {
+    acc += load<f64>(c) * load<f64>(<usize>load<i32>(i));
+    c += 8; i += 4;
   }
   return acc;
 }
 
 /**
  * One mode of the diagonal modal operator: velocity out_u[e] = Σ cor·u + gd[2e] h[c1] + gd[2e+1] h[c2] on open
- * edges (0 on coastline edges), thickness out_h[i] = Σ div·u. `u`, `h`, `outU`, `outH` point at the mode's blocks.
+ * edges (0 on coastline edges), thickness out_h[i] = Σ div·u. `outU`, `outH` point at the mode's output blocks;
+ * the stencil indices are absolute byte addresses of the mode's input blocks (`ti`, `ci` into u, `ec` into h).
  */
 export function modalDiagonal(
-  outH: usize, outU: usize, h: usize, u: usize, nc: i32, ne: i32, WT: i32, WC: i32,
+  outH: usize, outU: usize, nc: i32, ne: i32, WT: i32, WC: i32,
   cor: usize, gd: usize, dd: usize, ti: usize, ec: usize, open: usize, ci: usize,
 ): void {
   for (let e = 0; e < ne; e++) {
     if (load<u8>(open + <usize>e) == 0) { st(outU, e, 0); continue; }
-    let acc = tangentSum(cor, ti, u, WT * e, WT);
-    acc += ld(gd, 2 * e) * ld(h, li(ec, 2 * e)) + ld(gd, 2 * e + 1) * ld(h, li(ec, 2 * e + 1));
+    let acc = gatherSum(cor, ti, WT * e, WT);
+    acc += ld(gd, 2 * e) * load<f64>(<usize>li(ec, 2 * e)) + ld(gd, 2 * e + 1) * load<f64>(<usize>li(ec, 2 * e + 1));
     st(outU, e, acc);
   }
-  for (let i = 0; i < nc; i++) st(outH, i, cellSum(dd, ci, u, WC * i, WC));
+  for (let i = 0; i < nc; i++) st(outH, i, gatherSum(dd, ci, WC * i, WC));
 }
 
 /**
@@ -288,32 +242,91 @@ export function modalTwo(
 }
 
 /**
- * The rest-state operator of linear.ts: M' = 𝒢 h' per cell into `mont` [k·nc + i], then per layer the Coriolis
- * term with rest PV minus the Montgomery gradient on open edges, and the continuity −D(Ĥ_k u_k).
- * `cor` [k·WT·ne + WT·e + j], `cont` [k·WC·nc + WC·i + j] (padded stencils), `G` row-major L×L.
+ * Velocities of a layer-major state into a layer-interleaved copy uI[P·e + k] (lanes k ≥ L repeat the last layer),
+ * so that one stencil address serves every layer of a block: lanes at +0, +8, +16 bytes.
  */
-export function restOperator(
-  out: usize, x: usize, nc: i32, ne: i32, L: i32, WT: i32, WC: i32,
-  G: usize, mont: usize, cor: usize, cont: usize, inv: usize, ti: usize, ec: usize, open: usize, ci: usize,
-): void {
+@inline function interleaveLayers(uI: usize, src: usize, n: i32, L: i32, P: i32): void {
+  for (let k = 0; k < P; k++) {
+    const s = src + (<usize>((k < L ? k : L - 1) * n) << 3), d = uI + (<usize>k << 3), stride = <usize>P << 3;
+    for (let e = 0; e < n; e++) store<f64>(d + <usize>e * stride, ld(s, e));
+  }
+}
+
+/** M'_k = Σ_j 𝒢_kj h'_j per cell into `mont` [P·i + k] (lanes ≥ L repeat the last layer; L = 3 unrolled; the loop's order). */
+@inline function montgomery(mont: usize, x: usize, nc: i32, L: i32, P: i32, G: usize): void {
+  if (L == 3 && P == 3) {
+    const g00 = ld(G, 0), g01 = ld(G, 1), g02 = ld(G, 2), g10 = ld(G, 3), g11 = ld(G, 4), g12 = ld(G, 5), g20 = ld(G, 6), g21 = ld(G, 7), g22 = ld(G, 8);
+    const x1 = x + (<usize>nc << 3), x2 = x + (<usize>(2 * nc) << 3);
+    for (let i = 0; i < nc; i++) {
+      const a = ld(x, i), b = ld(x1, i), c = ld(x2, i);
+      const o = mont + <usize>(24 * i);
+      store<f64>(o, g00 * a + g01 * b + g02 * c);
+      store<f64>(o, g10 * a + g11 * b + g12 * c, 8);
+      store<f64>(o, g20 * a + g21 * b + g22 * c, 16);
+    }
+    return;
+  }
   for (let i = 0; i < nc; i++) {
-    for (let k = 0; k < L; k++) {
+    for (let k = 0; k < P; k++) {
+      const kk = k < L ? k : L - 1;
       let s: f64 = 0;
-      for (let j = 0; j < L; j++) s += ld(G, k * L + j) * ld(x, j * nc + i);
-      st(mont, k * nc + i, s);
+      for (let j = 0; j < L; j++) s += ld(G, kk * L + j) * ld(x, j * nc + i);
+      st(mont, P * i + k, s);
     }
   }
+}
+
+/**
+ * The rest-state operator of linear.ts: M' = 𝒢 h' per cell, then per layer the Coriolis term with rest PV minus
+ * the Montgomery gradient on open edges, and the continuity −D(Ĥ_k u_k); out and x layer-major.
+ * Layers go in blocks of three lanes over layer-interleaved arrays (stride P, L rounded up to a multiple of 3):
+ * velocities uI [P·e + k] and M' `mont` [P·i + k] (work), coefficients `cor` [P·(WT·e + j) + k] and
+ * `cont` [P·(WC·i + j) + k] (padded stencils). Stencil indices are absolute byte addresses of lane 0 of layer 0:
+ * `ti`, `ci` into uI, `ecM` (the two cells of each edge) into mont. Lanes 0 and 1 of a block run as one f64x2
+ * operation, lane 2 as a scalar one; every lane is the loop's sum in the loop's order.
+ */
+export function restOperator(
+  out: usize, x: usize, nc: i32, ne: i32, L: i32, P: i32, WT: i32, WC: i32,
+  G: usize, mont: usize, uI: usize, cor: usize, cont: usize, inv: usize, ti: usize, ecM: usize, open: usize, ci: usize,
+): void {
   const uOffset = L * nc;
-  for (let k = 0; k < L; k++) {
-    const u = x + (<usize>(uOffset + k * ne) << 3), oU = out + (<usize>(uOffset + k * ne) << 3);
-    const M = mont + (<usize>(k * nc) << 3), oH = out + (<usize>(k * nc) << 3);
-    const corK = cor + (<usize>(k * WT * ne) << 3), contK = cont + (<usize>(k * WC * nc) << 3);
+  interleaveLayers(uI, x + (<usize>uOffset << 3), ne, L, P);
+  montgomery(mont, x, nc, L, P, G);
+  const slotT = <usize>P << 3;
+  for (let kb = 0; kb < P; kb += 3) {
+    const k0 = kb < L ? kb : L - 1, k1 = lane(kb, 1, L), k2 = lane(kb, 2, L), lo = <usize>kb << 3;
+    const o0 = out + (<usize>(uOffset + k0 * ne) << 3), o1 = out + (<usize>(uOffset + k1 * ne) << 3), o2 = out + (<usize>(uOffset + k2 * ne) << 3);
     for (let e = 0; e < ne; e++) {
-      if (load<u8>(open + <usize>e) == 0) { st(oU, e, 0); continue; }
-      const acc = tangentSum(corK, ti, u, WT * e, WT);
-      st(oU, e, acc - (ld(M, li(ec, 2 * e + 1)) - ld(M, li(ec, 2 * e))) * ld(inv, e));
+      if (load<u8>(open + <usize>e) == 0) { st(o0, e, 0); st(o1, e, 0); st(o2, e, 0); continue; }
+      let a01 = f64x2.splat(0);
+      let a2: f64 = 0;
+      const t0 = WT * e;
+      let pi = ti + (<usize>t0 << 2), pc = cor + <usize>t0 * slotT + lo;
+      for (let q = 0; q < WT; q++) {
+        const j = <usize>load<i32>(pi) + lo;
+        a01 = f64x2.add(a01, f64x2.mul(v128.load(pc), v128.load(j)));
+        a2 += load<f64>(pc, 16) * load<f64>(j, 16);
+        pi += 4; pc += slotT;
+      }
+      const cA = <usize>li(ecM, 2 * e) + lo, cB = <usize>li(ecM, 2 * e + 1) + lo, id = ld(inv, e);
+      st(o0, e, f64x2.extract_lane(a01, 0) - (load<f64>(cB) - load<f64>(cA)) * id);
+      st(o1, e, f64x2.extract_lane(a01, 1) - (load<f64>(cB, 8) - load<f64>(cA, 8)) * id);
+      st(o2, e, a2 - (load<f64>(cB, 16) - load<f64>(cA, 16)) * id);
     }
-    for (let i = 0; i < nc; i++) st(oH, i, cellSum(contK, ci, u, WC * i, WC));
+    const h0 = out + (<usize>(k0 * nc) << 3), h1 = out + (<usize>(k1 * nc) << 3), h2 = out + (<usize>(k2 * nc) << 3);
+    for (let i = 0; i < nc; i++) {
+      let a01 = f64x2.splat(0);
+      let a2: f64 = 0;
+      const q0 = WC * i;
+      let pi = ci + (<usize>q0 << 2), pc = cont + <usize>q0 * slotT + lo;
+      for (let q = 0; q < WC; q++) {
+        const j = <usize>load<i32>(pi) + lo;
+        a01 = f64x2.add(a01, f64x2.mul(v128.load(pc), v128.load(j)));
+        a2 += load<f64>(pc, 16) * load<f64>(j, 16);
+        pi += 4; pc += slotT;
+      }
+      st(h0, i, f64x2.extract_lane(a01, 0)); st(h1, i, f64x2.extract_lane(a01, 1)); st(h2, i, a2);
+    }
   }
 }
 
@@ -321,121 +334,244 @@ export function restOperator(
 // Single-field mesh operators of solver/mesh/operators.ts and terms.ts (the stencils of a barotropic sub-step),
 // in their operation order: gradient, divergence, PV flux.
 
-/** out[e] = (φ[c2] − φ[c1]) / d_e on open edges, 0 on coastline edges. */
-export function gradient(out: usize, phi: usize, ne: i32, ec: usize, dc: usize, open: usize): void {
-  for (let e = 0; e < ne; e++) {
-    st(out, e, load<u8>(open + <usize>e) != 0 ? (ld(phi, li(ec, 2 * e + 1)) - ld(phi, li(ec, 2 * e))) / ld(dc, e) : 0);
-  }
-}
-
-/** out[i] = (Σ_q (s_q l_q) F_q) / A_i; `sl` holds s_q·l_q per padded slot. */
-export function divergence(out: usize, flux: usize, nc: i32, W: i32, ci: usize, sl: usize, area: usize): void {
-  for (let i = 0; i < nc; i++) st(out, i, cellSum(sl, ci, flux, W * i, W) / ld(area, i));
-}
-
-/** out[e] = ½ Σ_{e'} W_{e,e'} (l_{e'}/d_e) F_{e'} (q_e + q_{e'}) on open edges, 0 on coastline edges. */
-export function pvFlux(out: usize, flux: usize, q: usize, ne: i32, W: i32, ti: usize, tw: usize, open: usize): void {
-  for (let e = 0; e < ne; e++) {
-    if (load<u8>(open + <usize>e) == 0) { st(out, e, 0); continue; }
-    const qe = ld(q, e);
-    let acc: f64 = 0;
-    const t0 = W * e;
-    if (W == 10) {
-      const pi = ti + (<usize>t0 << 2), pw = tw + (<usize>t0 << 3);
-      let o = 0;
-      o = load<i32>(pi, 0); acc += load<f64>(pw, 0) * at(flux, o) * (qe + at(q, o));
-      o = load<i32>(pi, 4); acc += load<f64>(pw, 8) * at(flux, o) * (qe + at(q, o));
-      o = load<i32>(pi, 8); acc += load<f64>(pw, 16) * at(flux, o) * (qe + at(q, o));
-      o = load<i32>(pi, 12); acc += load<f64>(pw, 24) * at(flux, o) * (qe + at(q, o));
-      o = load<i32>(pi, 16); acc += load<f64>(pw, 32) * at(flux, o) * (qe + at(q, o));
-      o = load<i32>(pi, 20); acc += load<f64>(pw, 40) * at(flux, o) * (qe + at(q, o));
-      o = load<i32>(pi, 24); acc += load<f64>(pw, 48) * at(flux, o) * (qe + at(q, o));
-      o = load<i32>(pi, 28); acc += load<f64>(pw, 56) * at(flux, o) * (qe + at(q, o));
-      o = load<i32>(pi, 32); acc += load<f64>(pw, 64) * at(flux, o) * (qe + at(q, o));
-      o = load<i32>(pi, 36); acc += load<f64>(pw, 72) * at(flux, o) * (qe + at(q, o));
-    } else {
-      for (let t = t0; t < t0 + W; t++) {
-        const o = li(ti, t);
-        acc += ld(tw, t) * at(flux, o) * (qe + at(q, o));
-      }
+/**
+ * Σ_q (s_q l_q) F_q / A_i for cells in pairs (i, i + 1) as the two f64x2 lanes (each lane the loop's order), negated
+ * when `negate`. Stencils in pair layout (see pvFluxPairs): `ci2` absolute addresses of F, `sl2` s·l per slot. An odd
+ * last cell is stored from lane 0 only.
+ */
+@inline function divergencePairs(out: usize, nc: i32, W: i32, ci2: usize, sl2: usize, area: usize, negate: bool): void {
+  for (let i = 0; i < nc; i += 2) {
+    const i1 = i + 1 < nc ? i + 1 : i;
+    let acc = f64x2.splat(0);
+    let pi = ci2 + (<usize>(W * i) << 2), pc = sl2 + (<usize>(W * i) << 3);
+    const end = pi + (<usize>W << 3);
+    while (pi < end) {
+      const ja = <usize>load<i32>(pi), jb = <usize>load<i32>(pi, 4);
+      acc = f64x2.add(acc, f64x2.mul(v128.load(pc), v128.load64_lane(jb, v128.load64_zero(ja), 1)));
+      pi += 8; pc += 16;
     }
-    st(out, e, 0.5 * acc);
+    let r = f64x2.div(acc, v128.load64_lane(area + (<usize>i1 << 3), v128.load64_zero(area + (<usize>i << 3)), 1));
+    if (negate) r = f64x2.neg(r);
+    st(out, i, f64x2.extract_lane(r, 0));
+    if (i + 1 < nc) st(out, i + 1, f64x2.extract_lane(r, 1));
   }
+}
+
+/**
+ * scale · (φ[c2] − φ[c1]) / d_e on open edges, scale · 0 on coastline edges, for edges in pairs as the two f64x2
+ * lanes; `ec` [2e], [2e + 1] the absolute addresses of φ at the edge's two cells.
+ */
+@inline function gradientPairs(out: usize, ne: i32, ec: usize, dc: usize, open: usize, scale: f64, scaled: bool): void {
+  for (let e = 0; e < ne; e += 2) {
+    const e1 = e + 1 < ne ? e + 1 : e;
+    const pa = ec + (<usize>e << 3), pb = ec + (<usize>e1 << 3);
+    const hi = v128.load64_lane(<usize>load<i32>(pb, 4), v128.load64_zero(<usize>load<i32>(pa, 4)), 1);
+    const lo = v128.load64_lane(<usize>load<i32>(pb), v128.load64_zero(<usize>load<i32>(pa)), 1);
+    const g = f64x2.div(f64x2.sub(hi, lo), v128.load64_lane(dc + (<usize>e1 << 3), v128.load64_zero(dc + (<usize>e << 3)), 1));
+    const g0 = load<u8>(open + <usize>e) != 0 ? f64x2.extract_lane(g, 0) : 0;
+    st(out, e, scaled ? scale * g0 : g0);
+    if (e + 1 < ne) {
+      const g1 = load<u8>(open + <usize>(e + 1)) != 0 ? f64x2.extract_lane(g, 1) : 0;
+      st(out, e + 1, scaled ? scale * g1 : g1);
+    }
+  }
+}
+
+/** out[e] = (φ[c2] − φ[c1]) / d_e on open edges, 0 on coastline edges; `ec` holds the absolute addresses of φ[c]. */
+export function gradient(out: usize, ne: i32, ec: usize, dc: usize, open: usize): void {
+  gradientPairs(out, ne, ec, dc, open, 1, false);
+}
+
+/** out[i] = (Σ_q (s_q l_q) F_q) / A_i; `sl2` holds s_q·l_q per padded slot, `ci2` the absolute addresses of F (pair layout). */
+export function divergence(out: usize, nc: i32, W: i32, ci2: usize, sl2: usize, area: usize): void {
+  divergencePairs(out, nc, W, ci2, sl2, area, false);
+}
+
+/**
+ * PV flux of edges in pairs (e, e + 1) as the two lanes of f64x2: ½ Σ_j W_j T_j (q_e + q_j) per edge, each lane the
+ * loop's sum in the loop's order. `fq` [2e] = T_e, [2e + 1] = q_e; stencils in pair layout, slot j of pair p at
+ * 2(W·p + j) + lane: `ti2` absolute addresses of fq entries, `tw2` coefficients (an odd last pair repeats its edge in
+ * lane 1 and stores lane 0 only). 0 on coastline edges.
+ */
+@inline function pvFluxPairs(out: usize, fq: usize, ne: i32, W: i32, ti2: usize, tw2: usize, open: usize): void {
+  const half = f64x2.splat(0.5);
+  for (let e = 0; e < ne; e += 2) {
+    const e1 = e + 1 < ne ? e + 1 : e;
+    const pq = fq + (<usize>e << 4), pq1 = fq + (<usize>e1 << 4);
+    const qe = v128.load64_lane(pq1, v128.load64_zero(pq, 8), 1, 8);
+    let acc = f64x2.splat(0);
+    let pi = ti2 + (<usize>(W * e) << 2), pc = tw2 + (<usize>(W * e) << 3);
+    const end = pi + (<usize>W << 3);
+    while (pi < end) {
+      const ja = <usize>load<i32>(pi), jb = <usize>load<i32>(pi, 4);
+      const A = v128.load(ja), B = v128.load(jb); // (T, q) of each lane's tap
+      const F = v128.shuffle<f64>(A, B, 0, 2), q = v128.shuffle<f64>(A, B, 1, 3);
+      acc = f64x2.add(acc, f64x2.mul(f64x2.mul(v128.load(pc), F), f64x2.add(qe, q)));
+      pi += 8; pc += 16;
+    }
+    const r = f64x2.mul(half, acc);
+    st(out, e, load<u8>(open + <usize>e) != 0 ? f64x2.extract_lane(r, 0) : 0);
+    if (e + 1 < ne) st(out, e + 1, load<u8>(open + <usize>(e + 1)) != 0 ? f64x2.extract_lane(r, 1) : 0);
+  }
+}
+
+/**
+ * out[e] = ½ Σ_{e'} W_{e,e'} (l_{e'}/d_e) F_{e'} (q_e + q_{e'}) on open edges, 0 on coastline edges. F and q are
+ * first interleaved into `fq` [2e] = F_e, [2e + 1] = q_e, so that one stencil address (`ti`, absolute into fq) reads both.
+ */
+export function pvFlux(out: usize, flux: usize, q: usize, fq: usize, ne: i32, W: i32, ti2: usize, tw2: usize, open: usize): void {
+  for (let e = 0; e < ne; e++) {
+    const d = fq + (<usize>e << 4);
+    store<f64>(d, ld(flux, e));
+    store<f64>(d, ld(q, e), 8);
+  }
+  pvFluxPairs(out, fq, ne, W, ti2, tw2, open);
 }
 
 // ---------------------------------------------------------------------------------------------------------
-// Jacobian-vector product of the inviscid, unforced tendency about x̄ (solver/model/jacobian.ts, same order);
-// wind, drag and viscosity are added by the host afterwards. Linearization-point arrays are per layer:
-// hEdge, flux, qEdge [k·ne + e], hVert, qVert [k·nv + v]. Work: dM [k·nc + i], the rest one layer long.
-// Per padded cell slot: ci, sl = s·l_e, lk = l_e d_e; per vertex slot: ve, vsd = t·d_e, vc (clamped), ka.
+// The barotropic operators of the fast/slow split (solver/model/problem.ts), each one call per sub-step stencil,
+// in the operation order of the TypeScript they replace: transport T = Ĥ ū (Ĥ frozen), then the stencil.
+// `hq` [2e] = T_e (written by the call), [2e + 1] = q_e (the frozen edge PV, written by the host at freeze);
+// stencil indices are absolute byte addresses of slot 2e of hq (`ti`, `ci`) or of the cell input (`ec`).
+
+@inline function barotropicTransport(hq: usize, u: usize, H: usize, ne: i32): void {
+  for (let e = 0; e < ne; e++) store<f64>(hq + (<usize>e << 4), ld(H, e) * ld(u, e));
+}
+
+/** out[e] = ½ Σ_{e'} W_{e,e'} (l_{e'}/d_e) T_{e'} (q_e + q_{e'}) on open edges, 0 on coastline edges. */
+export function barotropicCoriolis(out: usize, u: usize, H: usize, hq: usize, ne: i32, W: i32, ti2: usize, tw2: usize, open: usize): void {
+  barotropicTransport(hq, u, H, ne);
+  pvFluxPairs(out, hq, ne, W, ti2, tw2, open);
+}
+
+/** out[i] = −(Σ_q (s_q l_q) T_q) / A_i, the surface tendency −D(Ĥ ū). */
+export function barotropicSurface(out: usize, u: usize, H: usize, hq: usize, nc: i32, ne: i32, W: i32, ci2: usize, sl2: usize, area: usize): void {
+  barotropicTransport(hq, u, H, ne);
+  divergencePairs(out, nc, W, ci2, sl2, area, true);
+}
+
+/** out[e] = (−g) · ((η[c2] − η[c1]) / d_e) on open edges, (−g) · 0 on coastline edges; `ec` absolute addresses of η. */
+export function barotropicPressure(out: usize, ne: i32, negG: f64, ec: usize, dc: usize, open: usize): void {
+  gradientPairs(out, ne, ec, dc, open, negG, true);
+}
+
+// ---------------------------------------------------------------------------------------------------------
+// Jacobian-vector product of the inviscid, unforced tendency about x̄ (solver/model/jacobian.ts, same order per
+// entry); wind, drag and viscosity are added by the host afterwards. Layers go in blocks of three lanes over
+// layer-interleaved arrays (stride P, entry [P·entity + k]): the linearization point (ubI = ū, hEI = ĥ̄, fI = F̄,
+// qEI = q̄_e per edge; hVI = h̄_v, qVI = q̄_v per vertex), filled from the host's layer-major arrays by
+// `jacobianPrepare`, and the work arrays hI, uI (the input), dM, dF (δF), dK, dqV, dqE. Stencil indices are byte
+// offsets of entity 0's lane 0 (8P × entity): `ec` cells of an edge, `ev` vertices of an edge, `ci` edges of a cell
+// (padded, width WC), `ve` edges and `vc` (clamped) cells of a vertex, `ti` tangential edges (padded, width WT).
+// Per padded cell slot: sl = s·l_e, lk = l_e d_e; per vertex slot: vsd = t·d_e, ka = kite area.
+
+/** The linearization point's interleaved copies, from the layer-major arrays the host's setState filled. */
+export function jacobianPrepare(
+  ne: i32, nv: i32, L: i32, P: i32, uOffset: i32, xBar: usize, hEdge: usize, flux: usize, hVert: usize, qVert: usize, qEdge: usize,
+  ubI: usize, hEI: usize, fI: usize, qEI: usize, hVI: usize, qVI: usize,
+): void {
+  interleaveLayers(ubI, xBar + (<usize>uOffset << 3), ne, L, P);
+  interleaveLayers(hEI, hEdge, ne, L, P);
+  interleaveLayers(fI, flux, ne, L, P);
+  interleaveLayers(qEI, qEdge, ne, L, P);
+  interleaveLayers(hVI, hVert, nv, L, P);
+  interleaveLayers(qVI, qVert, nv, L, P);
+}
 
 export function jacobianApply(
-  out: usize, x: usize, nc: i32, ne: i32, nv: i32, L: i32, uOffset: i32, WC: i32, WT: i32,
-  G: usize, dM: usize, xBar: usize, hEdge: usize, flux: usize, hVert: usize, qVert: usize, qEdge: usize,
-  dhEdge: usize, dFlux: usize, dVort: usize, dqVert: usize, dqEdge: usize, dK: usize,
+  out: usize, x: usize, nc: i32, ne: i32, nv: i32, L: i32, P: i32, WC: i32, WT: i32, G: usize,
+  hI: usize, uI: usize, dM: usize, dF: usize, dK: usize, dqV: usize, dqE: usize,
+  ubI: usize, hEI: usize, fI: usize, qEI: usize, hVI: usize, qVI: usize,
   ec: usize, ev: usize, open: usize, dc: usize, area: usize, ci: usize, sl: usize, lk: usize,
   ve: usize, vsd: usize, vc: usize, ka: usize, vArea: usize, vi: usize, ti: usize, tw: usize,
 ): void {
-  for (let i = 0; i < nc; i++) {
-    for (let k = 0; k < L; k++) {
-      let s: f64 = 0;
-      for (let j = 0; j < L; j++) s += ld(G, k * L + j) * ld(x, j * nc + i);
-      st(dM, k * nc + i, s);
-    }
-  }
-  for (let k = 0; k < L; k++) {
-    const h = x + (<usize>(k * nc) << 3), u = x + (<usize>(uOffset + k * ne) << 3), ub = xBar + (<usize>(uOffset + k * ne) << 3);
-    const oH = out + (<usize>(k * nc) << 3), oU = out + (<usize>(uOffset + k * ne) << 3);
-    const hE = hEdge + (<usize>(k * ne) << 3), fE = flux + (<usize>(k * ne) << 3), qE = qEdge + (<usize>(k * ne) << 3);
-    const hV = hVert + (<usize>(k * nv) << 3), qV = qVert + (<usize>(k * nv) << 3), M = dM + (<usize>(k * nc) << 3);
+  const uOffset = L * nc;
+  interleaveLayers(hI, x, nc, L, P);
+  interleaveLayers(uI, x + (<usize>uOffset << 3), ne, L, P);
+  montgomery(dM, x, nc, L, P, G);
+  const sE = <usize>P << 3; // bytes per entity of an interleaved array
+  for (let kb = 0; kb < P; kb += 3) {
+    const k0 = kb < L ? kb : L - 1, k1 = lane(kb, 1, L), k2 = lane(kb, 2, L), lo = <usize>kb << 3;
+    const oh0 = out + (<usize>(k0 * nc) << 3), oh1 = out + (<usize>(k1 * nc) << 3), oh2 = out + (<usize>(k2 * nc) << 3);
+    const ou0 = out + (<usize>(uOffset + k0 * ne) << 3), ou1 = out + (<usize>(uOffset + k1 * ne) << 3), ou2 = out + (<usize>(uOffset + k2 * ne) << 3);
+    const h = hI + lo, u = uI + lo, M = dM + lo, F = dF + lo, K = dK + lo, qv = dqV + lo, qe = dqE + lo;
+    const ub = ubI + lo, hE = hEI + lo, fB = fI + lo, qB = qEI + lo, hV = hVI + lo, qVb = qVI + lo;
     // δF = δĥ ū + ĥ̄ δu
     for (let e = 0; e < ne; e++) {
-      const dh = 0.5 * (ld(h, li(ec, 2 * e)) + ld(h, li(ec, 2 * e + 1)));
-      st(dhEdge, e, dh);
-      st(dFlux, e, dh * ld(ub, e) + ld(hE, e) * ld(u, e));
+      const a = h + <usize>li(ec, 2 * e), b = h + <usize>li(ec, 2 * e + 1), o = <usize>e * sE;
+      const d0 = 0.5 * (load<f64>(a) + load<f64>(b)), d1 = 0.5 * (load<f64>(a, 8) + load<f64>(b, 8)), d2 = 0.5 * (load<f64>(a, 16) + load<f64>(b, 16));
+      store<f64>(F + o, d0 * load<f64>(ub + o) + load<f64>(hE + o) * load<f64>(u + o));
+      store<f64>(F + o, d1 * load<f64>(ub + o, 8) + load<f64>(hE + o, 8) * load<f64>(u + o, 8), 8);
+      store<f64>(F + o, d2 * load<f64>(ub + o, 16) + load<f64>(hE + o, 16) * load<f64>(u + o, 16), 16);
     }
     // continuity −D δF, and δK_i = (1/2A_i) Σ l_e d_e ū_e δu_e
     for (let i = 0; i < nc; i++) {
-      let s: f64 = 0, t: f64 = 0;
+      // lanes 0 and 1 as f64x2, lane 2 scalar (each lane the loop's sum in the loop's order)
+      let s01 = f64x2.splat(0), t01 = f64x2.splat(0);
+      let s2: f64 = 0, t2: f64 = 0;
       for (let q = WC * i; q < WC * i + WC; q++) {
-        const e = li(ci, q);
-        s += ld(sl, q) * at(dFlux, e);
-        t += ld(lk, q) * at(ub, e) * at(u, e);
+        const j = <usize>li(ci, q), c = ld(sl, q), w = ld(lk, q);
+        const pf = F + j, pb = ub + j, pu = u + j;
+        s01 = f64x2.add(s01, f64x2.mul(f64x2.splat(c), v128.load(pf)));
+        t01 = f64x2.add(t01, f64x2.mul(f64x2.mul(f64x2.splat(w), v128.load(pb)), v128.load(pu)));
+        s2 += c * load<f64>(pf, 16);
+        t2 += w * load<f64>(pb, 16) * load<f64>(pu, 16);
       }
-      st(oH, i, -s / ld(area, i));
-      st(dK, i, (0.5 * t) / ld(area, i));
+      const A = ld(area, i), o = <usize>i * sE;
+      const s0 = f64x2.extract_lane(s01, 0), s1 = f64x2.extract_lane(s01, 1), t0 = f64x2.extract_lane(t01, 0), t1 = f64x2.extract_lane(t01, 1);
+      st(oh0, i, -s0 / A); st(oh1, i, -s1 / A); st(oh2, i, -s2 / A);
+      store<f64>(K + o, (0.5 * t0) / A); store<f64>(K + o, (0.5 * t1) / A, 8); store<f64>(K + o, (0.5 * t2) / A, 16);
     }
     // δq_v = (δζ_v − q̄_v δh_v)/h̄_v and its edge mean
     for (let v = 0; v < nv; v++) {
-      const j = 3 * v;
-      let z: f64 = 0;
+      const j = 3 * v, VA = ld(vArea, v);
+      let z0: f64 = 0, z1: f64 = 0, z2: f64 = 0;
       if (load<u8>(vi + <usize>v) != 0) {
-        let s: f64 = 0;
-        s += ld(vsd, j) * ld(u, li(ve, j));
-        s += ld(vsd, j + 1) * ld(u, li(ve, j + 1));
-        s += ld(vsd, j + 2) * ld(u, li(ve, j + 2));
-        z = s / ld(vArea, v);
+        const a = u + <usize>li(ve, j), b = u + <usize>li(ve, j + 1), c = u + <usize>li(ve, j + 2);
+        const wa = ld(vsd, j), wb = ld(vsd, j + 1), wc = ld(vsd, j + 2);
+        let s0: f64 = 0, s1: f64 = 0, s2: f64 = 0;
+        s0 += wa * load<f64>(a); s0 += wb * load<f64>(b); s0 += wc * load<f64>(c);
+        s1 += wa * load<f64>(a, 8); s1 += wb * load<f64>(b, 8); s1 += wc * load<f64>(c, 8);
+        s2 += wa * load<f64>(a, 16); s2 += wb * load<f64>(b, 16); s2 += wc * load<f64>(c, 16);
+        z0 = s0 / VA; z1 = s1 / VA; z2 = s2 / VA;
       }
-      let m: f64 = 0;
-      m += ld(ka, j) * ld(h, li(vc, j));
-      m += ld(ka, j + 1) * ld(h, li(vc, j + 1));
-      m += ld(ka, j + 2) * ld(h, li(vc, j + 2));
-      const dhv = m / ld(vArea, v);
-      st(dVort, v, z);
-      st(dqVert, v, (z - ld(qV, v) * dhv) / ld(hV, v));
+      const a = h + <usize>li(vc, j), b = h + <usize>li(vc, j + 1), c = h + <usize>li(vc, j + 2);
+      const wa = ld(ka, j), wb = ld(ka, j + 1), wc = ld(ka, j + 2);
+      let m0: f64 = 0, m1: f64 = 0, m2: f64 = 0;
+      m0 += wa * load<f64>(a); m0 += wb * load<f64>(b); m0 += wc * load<f64>(c);
+      m1 += wa * load<f64>(a, 8); m1 += wb * load<f64>(b, 8); m1 += wc * load<f64>(c, 8);
+      m2 += wa * load<f64>(a, 16); m2 += wb * load<f64>(b, 16); m2 += wc * load<f64>(c, 16);
+      const o = <usize>v * sE;
+      store<f64>(qv + o, (z0 - load<f64>(qVb + o) * (m0 / VA)) / load<f64>(hV + o));
+      store<f64>(qv + o, (z1 - load<f64>(qVb + o, 8) * (m1 / VA)) / load<f64>(hV + o, 8), 8);
+      store<f64>(qv + o, (z2 - load<f64>(qVb + o, 16) * (m2 / VA)) / load<f64>(hV + o, 16), 16);
     }
-    for (let e = 0; e < ne; e++) st(dqEdge, e, 0.5 * (ld(dqVert, li(ev, 2 * e)) + ld(dqVert, li(ev, 2 * e + 1))));
+    for (let e = 0; e < ne; e++) {
+      const a = qv + <usize>li(ev, 2 * e), b = qv + <usize>li(ev, 2 * e + 1), o = qe + <usize>e * sE;
+      store<f64>(o, 0.5 * (load<f64>(a) + load<f64>(b)));
+      store<f64>(o, 0.5 * (load<f64>(a, 8) + load<f64>(b, 8)), 8);
+      store<f64>(o, 0.5 * (load<f64>(a, 16) + load<f64>(b, 16)), 16);
+    }
     // momentum: δQ − G(δK + δM)
     for (let e = 0; e < ne; e++) {
-      if (load<u8>(open + <usize>e) == 0) { st(oU, e, 0); continue; }
-      const qe = ld(qE, e), dqe = ld(dqEdge, e);
-      let acc: f64 = 0;
-      for (let q = WT * e; q < WT * e + WT; q++) {
-        const e2 = li(ti, q);
-        acc += ld(tw, q) * (at(dFlux, e2) * (qe + at(qE, e2)) + at(fE, e2) * (dqe + at(dqEdge, e2)));
+      if (load<u8>(open + <usize>e) == 0) { st(ou0, e, 0); st(ou1, e, 0); st(ou2, e, 0); continue; }
+      const o = <usize>e * sE;
+      const q01 = v128.load(qB + o), q2 = load<f64>(qB + o, 16);
+      const r01 = v128.load(qe + o), r2 = load<f64>(qe + o, 16);
+      let a01 = f64x2.splat(0);
+      let a2: f64 = 0;
+      for (let t = WT * e; t < WT * e + WT; t++) {
+        const j = <usize>li(ti, t), c = ld(tw, t);
+        const pf = F + j, pq = qB + j, pF = fB + j, pd = qe + j;
+        a01 = f64x2.add(a01, f64x2.mul(f64x2.splat(c), f64x2.add(
+          f64x2.mul(v128.load(pf), f64x2.add(q01, v128.load(pq))), f64x2.mul(v128.load(pF), f64x2.add(r01, v128.load(pd))))));
+        a2 += c * (load<f64>(pf, 16) * (q2 + load<f64>(pq, 16)) + load<f64>(pF, 16) * (r2 + load<f64>(pd, 16)));
       }
-      const c1 = li(ec, 2 * e), c2 = li(ec, 2 * e + 1);
-      st(oU, e, 0.5 * acc - (ld(dK, c2) + ld(M, c2) - ld(dK, c1) - ld(M, c1)) / ld(dc, e));
+      const a0 = f64x2.extract_lane(a01, 0), a1 = f64x2.extract_lane(a01, 1);
+      const c1 = <usize>li(ec, 2 * e), c2 = <usize>li(ec, 2 * e + 1), d = ld(dc, e);
+      st(ou0, e, 0.5 * a0 - (load<f64>(K + c2) + load<f64>(M + c2) - load<f64>(K + c1) - load<f64>(M + c1)) / d);
+      st(ou1, e, 0.5 * a1 - (load<f64>(K + c2, 8) + load<f64>(M + c2, 8) - load<f64>(K + c1, 8) - load<f64>(M + c1, 8)) / d);
+      st(ou2, e, 0.5 * a2 - (load<f64>(K + c2, 16) + load<f64>(M + c2, 16) - load<f64>(K + c1, 16) - load<f64>(M + c1, 16)) / d);
     }
   }
 }
