@@ -341,7 +341,7 @@ function runScenario(sc: GoalScenario, log: (s: string) => void, quick: boolean,
 
 /**
  * `npm run bench -- --section benchmarkGoals [--goal-scenarios a,b] [--rounds N]`: the benchmark goals on
- * shelf-gyre-basin and eddying-jets (with 2 rounds about 4½ and 2½ minutes of CPU time).
+ * shelf-gyre-basin and eddying-jets (with 2 rounds about 4 and 3 minutes of CPU time, the stability checks included).
  */
 export const goalsSection: BenchSection = {
   key: "benchmarkGoals",
