@@ -258,7 +258,7 @@ function runScenario(sc: GoalScenario, log: (s: string) => void, quick: boolean,
   log("  stepper (options)                                  × lim   Δt [s]  status     set-up [s]     stepping [s/day]   total [s/day]    speed-up stepping / total [×]  thick. err  surf. err  surf. RMS [m]  vol. drift  φ/step  matvecs/step");
   const out: Record<string, unknown>[] = [];
   for (const row of rows) {
-    const head = `  ${row.label.padEnd(50)} ${ff(row.factor, 1).padStart(5)}  ${ff(row.dt, 1).padStart(7)}  ${row.status.padEnd(9)}`;
+    const head = `  ${row.label.padEnd(50)} ${ff(row.factor, row.factor < 10 ? 2 : 1).padStart(5)}  ${ff(row.dt, 1).padStart(7)}  ${row.status.padEnd(9)}`;
     if (row.status === "refused") { log(`${head}  ${row.reason}`); out.push({ label: row.label, factor: round(row.factor), dt: round(row.dt), status: row.status, reason: row.reason }); continue; }
     if (row.status === "unstable" && !row.samples.length) {
       log(`${head}  ${row.reason}`);
