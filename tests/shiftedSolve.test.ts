@@ -157,6 +157,9 @@ describe("shifted solves (I − γL) x = b of the fixed linear parts", () => {
   const cases = [
     { name: "periodic, f-plane", make: () => model() },
     { name: "basin with seamount and β", make: basinWithTopography },
+    // two layers: 2×2 blocks per node (the written-out 2×2 substitution), four: the general block loop
+    { name: "two layers, periodic", make: () => model({ layers: threeLayers.slice(1) }) },
+    { name: "four layers, periodic", make: () => model({ layers: [{ thickness: 100, density: 1024.5 }, ...threeLayers] }) },
   ];
   for (const c of cases) {
     for (const gr of [0.5, 100]) {

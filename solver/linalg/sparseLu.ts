@@ -610,6 +610,7 @@ export function blockLuSolveInPlace(f: BlockLu, y: Float64Array, tmp: Float64Arr
     }
     return;
   }
+  if (b === 2) { solve2(f, y); return; }
   if (b === 3) { solve3(f, y); return; }
   for (let j = 0; j < nNodes; j++) {
     const jb = j * b, end = cp[j + 1];
@@ -638,6 +639,34 @@ export function blockLuSolveInPlace(f: BlockLu, y: Float64Array, tmp: Float64Arr
       for (let m = 0; m < b; m++) acc += dinv[jb * b + r * b + m] * tmp[m];
       y[jb + r] = acc;
     }
+  }
+}
+
+/** blockLuSolveInPlace for 2×2 blocks, written out (two layers, or the two fastest modes). */
+function solve2(f: BlockLu, y: Float64Array): void {
+  const { nNodes, lColPtr: cp, index: ix, lower: lo, upper: up, pivotInverse: di } = f;
+  for (let j = 0; j < nNodes; j++) {
+    const jb = 2 * j, y0 = y[jb], y1 = y[jb + 1];
+    if (y0 === 0 && y1 === 0) continue;
+    const end = cp[j + 1];
+    for (let p = cp[j]; p < end; p++) {
+      const ib = 2 * ix[p], pb = 4 * p;
+      y[ib] -= lo[pb] * y0 + lo[pb + 1] * y1;
+      y[ib + 1] -= lo[pb + 2] * y0 + lo[pb + 3] * y1;
+    }
+  }
+  for (let j = nNodes - 1; j >= 0; j--) {
+    const jb = 2 * j, end = cp[j + 1];
+    let t0 = y[jb], t1 = y[jb + 1];
+    for (let p = cp[j]; p < end; p++) {
+      const ib = 2 * ix[p], pb = 4 * p;
+      const x0 = y[ib], x1 = y[ib + 1];
+      t0 -= up[pb] * x0 + up[pb + 1] * x1;
+      t1 -= up[pb + 2] * x0 + up[pb + 3] * x1;
+    }
+    const db = 4 * j;
+    y[jb] = di[db] * t0 + di[db + 1] * t1;
+    y[jb + 1] = di[db + 2] * t0 + di[db + 3] * t1;
   }
 }
 
