@@ -2,6 +2,8 @@ import { execFileSync } from "node:child_process";
 import { describe, expect, it } from "vitest";
 import { createRun, type Run } from "../solver/driver/run";
 import { kernelsAvailable } from "../solver/kernels/wasm";
+import { wasmBlockLuSolver } from "../solver/kernels/luKernel";
+import { blockLuSolveInPlace, blockLuWork, blockPattern, nestedDissection, numericBlockLu, symbolicBlockLu, symmetricGraph } from "../solver/linalg/sparseLu";
 import { seededRandom } from "../solver/mesh/hexLattice";
 import { divergence, divergenceLoop, gradient, gradientLoop } from "../solver/mesh/operators";
 import { jacobianOperator } from "../solver/model/jacobian";
@@ -173,6 +175,43 @@ describe("WebAssembly kernels", () => {
       pvFlux(a, ne, m, edges, q);
       pvFluxLoop(b, ne, m, edges, q);
       expect(relDiff(a, b)).toBeLessThan(1e-15);
+    });
+  }
+
+  // the shifted solves' substitution: blocks of 1, 2 and 3 unknowns per node (modes:1, two layers, three layers)
+  for (const b of [1, 2, 3]) {
+    it(`sparse LU substitution with ${b}×${b} blocks: the kernel gives the TypeScript substitution's values bit for bit`, () => {
+      const nNodes = 80, rnd = seededRandom(50 + b);
+      const pairs: [number, number][] = [];
+      for (let i = 0; i < nNodes; i++) { pairs.push([i, (i + 1) % nNodes]); pairs.push([i, Math.floor(rnd() * nNodes)]); }
+      const g = symmetricGraph(nNodes, (add) => { for (const [x, y] of pairs) add(x, y); });
+      const pat = blockPattern(g, nestedDissection(g, 8), b);
+      // A = I + S, S skew (block (j, i) = −block (i, j)ᵀ): LU without pivoting exists (Golub & Van Loan 2013, §4.4)
+      const bb = b * b, vals = new Float64Array(pat.blockOffset[nNodes] * bb), upperBlocks = new Map<string, Float64Array>();
+      const n = pat.n;
+      for (let j = 0; j < nNodes; j++) for (let p = pat.blockOffset[j]; p < pat.blockOffset[j + 1]; p++) {
+        const i = pat.blockIndex[p], key = `${Math.min(i, j)},${Math.max(i, j)}`;
+        if (!upperBlocks.has(key)) upperBlocks.set(key, Float64Array.from({ length: bb }, () => 20 * (rnd() - 0.5)));
+        const blk = upperBlocks.get(key)!;
+        for (let r = 0; r < b; r++) for (let m = 0; m < b; m++) {
+          const sij = i === j ? (r === m ? 0 : r < m ? blk[r * b + m] : -blk[m * b + r]) : i < j ? blk[r * b + m] : -blk[m * b + r];
+          vals[p * bb + r * b + m] = (i === j && r === m ? 1 : 0) + sij;
+        }
+      }
+      const f = numericBlockLu(pat, symbolicBlockLu(pat, { maxFill: 1e7, maxWork: 1e10, field: "test" }), vals, blockLuWork(nNodes, b));
+      const perm = Int32Array.from({ length: n }, (_, q) => (q * 7 + 3) % n); // any permutation (7 and n coprime)
+      const c = random(n, 60 + b);
+      const kernel = wasmBlockLuSolver(f, perm);
+      expect(kernel).not.toBeNull();
+      const viaKernel = new Float64Array(n);
+      kernel!(viaKernel, c);
+      const y = new Float64Array(n);
+      for (let q = 0; q < n; q++) y[q] = c[perm[q]];
+      blockLuSolveInPlace(f, y, new Float64Array(b));
+      const viaLoops = new Float64Array(n);
+      for (let q = 0; q < n; q++) viaLoops[perm[q]] = y[q];
+      expect(Array.from(viaKernel)).toEqual(Array.from(viaLoops));
+      expect(relDiff(viaKernel, new Float64Array(n))).toBeGreaterThan(0);
     });
   }
 });

@@ -52,6 +52,7 @@ export interface KernelExports {
     ve: Ptr, vsd: Ptr, vArea: Ptr, vi: Ptr, ec: Ptr, ev: Ptr, dc: Ptr, len: Ptr, open: Ptr, div: Ptr, vort: Ptr,
   ): void;
   addScaled(out: Ptr, a: Ptr, coef: number, n: number): void;
+  blockLuSolve(out: Ptr, c: Ptr, y: Ptr, perm: Ptr, nNodes: number, b: number, cp: Ptr, ix: Ptr, lo: Ptr, up: Ptr, di: Ptr): void;
   jacobianPrepare(
     ne: number, nv: number, L: number, P: number, uOffset: number, xBar: Ptr, hEdge: Ptr, flux: Ptr, hVert: Ptr, qVert: Ptr, qEdge: Ptr,
     ubI: Ptr, hEI: Ptr, fI: Ptr, qEI: Ptr, hVI: Ptr, qVI: Ptr,

@@ -25,6 +25,7 @@ import {
   type ComplexLuWork, type NodeGraph, type SymbolicLu,
 } from "../linalg/sparseLu.js";
 import type { Mesh } from "../mesh/types.js";
+import { wasmBlockLuSolver } from "../kernels/luKernel.js";
 
 export interface ShiftedSolveStats {
   /** Unknowns of the factored system. */
@@ -131,6 +132,9 @@ export function operatorShiftedSolver(
   let aValues: Float64Array | undefined, diagSlot: Uint8Array | undefined;
   let probeProducts = 0;
   const cache: { gamma: number; f: BlockLu }[] = [];
+  /** The WebAssembly substitution of each cached factorization (null: the TypeScript one), and the ordering it gathers by. */
+  const kernels = new WeakMap<BlockLu, ((out: Float64Array, c: Float64Array) => void) | null>();
+  let gatherIndex: Int32Array | undefined;
   const perm = new Float64Array(n), blockTmp = new Float64Array(nComp);
   const bb = nComp * nComp;
   /** Original index of the unknown (node, component). */
@@ -312,14 +316,27 @@ export function operatorShiftedSolver(
       const f = factorFor(gamma);
       const pat = pattern!;
       const order = pat.order;
-      for (let P = 0; P < order.length; P++) {
-        const node = order[P];
-        for (let d = 0; d < nComp; d++) perm[P * nComp + d] = c[orig(node, d)];
+      let kernel = kernels.get(f);
+      if (kernel === undefined) {
+        if (!gatherIndex) {
+          gatherIndex = new Int32Array(n);
+          for (let P = 0; P < order.length; P++) for (let d = 0; d < nComp; d++) gatherIndex[P * nComp + d] = orig(order[P], d);
+        }
+        kernel = wasmBlockLuSolver(f, gatherIndex);
+        kernels.set(f, kernel);
       }
-      blockLuSolveInPlace(f, perm, blockTmp);
-      for (let P = 0; P < order.length; P++) {
-        const node = order[P];
-        for (let d = 0; d < nComp; d++) y[orig(node, d)] = perm[P * nComp + d];
+      if (kernel) {
+        kernel(y, c);
+      } else {
+        for (let P = 0; P < order.length; P++) {
+          const node = order[P];
+          for (let d = 0; d < nComp; d++) perm[P * nComp + d] = c[orig(node, d)];
+        }
+        blockLuSolveInPlace(f, perm, blockTmp);
+        for (let P = 0; P < order.length; P++) {
+          const node = order[P];
+          for (let d = 0; d < nComp; d++) y[orig(node, d)] = perm[P * nComp + d];
+        }
       }
       stats.solves++;
       op.counters.matvecs += stats.matvecsPerSolve;

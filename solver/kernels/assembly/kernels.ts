@@ -624,3 +624,85 @@ export function vectorLaplacian(
 export function addScaled(out: usize, a: usize, coef: f64, n: i32): void {
   for (let e = 0; e < n; e++) st(out, e, ld(out, e) + coef * ld(a, e));
 }
+
+// ---------------------------------------------------------------------------------------------------------
+// Sparse block LU substitution (solver/linalg/sparseLu.ts, blockLuSolveInPlace with solve2/solve3) for blocks of
+// b = 1, 2 or 3 unknowns per node, with the gather into the factor's order and the scatter back: out[perm[q]] = y[q]
+// where y solves (I + L)(D + U) y = c[perm[·]]. Column pointers `cp` and node indices `ix` as in BlockLu; lo, up:
+// b×b blocks row-major per slot; di: inverted b×b pivots. The operations and their order are the TypeScript loops'.
+
+export function blockLuSolve(
+  out: usize, c: usize, y: usize, perm: usize, nNodes: i32, b: i32, cp: usize, ix: usize, lo: usize, up: usize, di: usize,
+): void {
+  const n = nNodes * b;
+  for (let q = 0; q < n; q++) st(y, q, ld(c, li(perm, q)));
+  if (b == 1) {
+    for (let j = 0; j < nNodes; j++) {
+      const yj = ld(y, j);
+      if (yj == 0) continue;
+      const end = li(cp, j + 1);
+      for (let p = li(cp, j); p < end; p++) {
+        const i = li(ix, p);
+        st(y, i, ld(y, i) - ld(lo, p) * yj);
+      }
+    }
+    for (let j = nNodes - 1; j >= 0; j--) {
+      let s = ld(y, j);
+      const end = li(cp, j + 1);
+      for (let p = li(cp, j); p < end; p++) s -= ld(up, p) * ld(y, li(ix, p));
+      st(y, j, s * ld(di, j));
+    }
+  } else if (b == 2) {
+    for (let j = 0; j < nNodes; j++) {
+      const jb = 2 * j, y0 = ld(y, jb), y1 = ld(y, jb + 1);
+      if (y0 == 0 && y1 == 0) continue;
+      const end = li(cp, j + 1);
+      for (let p = li(cp, j); p < end; p++) {
+        const ib = 2 * li(ix, p), pb = 4 * p;
+        st(y, ib, ld(y, ib) - (ld(lo, pb) * y0 + ld(lo, pb + 1) * y1));
+        st(y, ib + 1, ld(y, ib + 1) - (ld(lo, pb + 2) * y0 + ld(lo, pb + 3) * y1));
+      }
+    }
+    for (let j = nNodes - 1; j >= 0; j--) {
+      const jb = 2 * j, end = li(cp, j + 1);
+      let t0 = ld(y, jb), t1 = ld(y, jb + 1);
+      for (let p = li(cp, j); p < end; p++) {
+        const ib = 2 * li(ix, p), pb = 4 * p;
+        const x0 = ld(y, ib), x1 = ld(y, ib + 1);
+        t0 -= ld(up, pb) * x0 + ld(up, pb + 1) * x1;
+        t1 -= ld(up, pb + 2) * x0 + ld(up, pb + 3) * x1;
+      }
+      const db = 4 * j;
+      st(y, jb, ld(di, db) * t0 + ld(di, db + 1) * t1);
+      st(y, jb + 1, ld(di, db + 2) * t0 + ld(di, db + 3) * t1);
+    }
+  } else {
+    for (let j = 0; j < nNodes; j++) {
+      const jb = 3 * j, y0 = ld(y, jb), y1 = ld(y, jb + 1), y2 = ld(y, jb + 2);
+      if (y0 == 0 && y1 == 0 && y2 == 0) continue;
+      const end = li(cp, j + 1);
+      for (let p = li(cp, j); p < end; p++) {
+        const ib = 3 * li(ix, p), pb = 9 * p;
+        st(y, ib, ld(y, ib) - (ld(lo, pb) * y0 + ld(lo, pb + 1) * y1 + ld(lo, pb + 2) * y2));
+        st(y, ib + 1, ld(y, ib + 1) - (ld(lo, pb + 3) * y0 + ld(lo, pb + 4) * y1 + ld(lo, pb + 5) * y2));
+        st(y, ib + 2, ld(y, ib + 2) - (ld(lo, pb + 6) * y0 + ld(lo, pb + 7) * y1 + ld(lo, pb + 8) * y2));
+      }
+    }
+    for (let j = nNodes - 1; j >= 0; j--) {
+      const jb = 3 * j, end = li(cp, j + 1);
+      let t0 = ld(y, jb), t1 = ld(y, jb + 1), t2 = ld(y, jb + 2);
+      for (let p = li(cp, j); p < end; p++) {
+        const ib = 3 * li(ix, p), pb = 9 * p;
+        const x0 = ld(y, ib), x1 = ld(y, ib + 1), x2 = ld(y, ib + 2);
+        t0 -= ld(up, pb) * x0 + ld(up, pb + 1) * x1 + ld(up, pb + 2) * x2;
+        t1 -= ld(up, pb + 3) * x0 + ld(up, pb + 4) * x1 + ld(up, pb + 5) * x2;
+        t2 -= ld(up, pb + 6) * x0 + ld(up, pb + 7) * x1 + ld(up, pb + 8) * x2;
+      }
+      const db = 9 * j;
+      st(y, jb, ld(di, db) * t0 + ld(di, db + 1) * t1 + ld(di, db + 2) * t2);
+      st(y, jb + 1, ld(di, db + 3) * t0 + ld(di, db + 4) * t1 + ld(di, db + 5) * t2);
+      st(y, jb + 2, ld(di, db + 6) * t0 + ld(di, db + 7) * t1 + ld(di, db + 8) * t2);
+    }
+  }
+  for (let q = 0; q < n; q++) st(out, li(perm, q), ld(y, q));
+}
