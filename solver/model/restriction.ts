@@ -36,6 +36,7 @@ import { inverseFactorial } from "../linalg/scalarPhi.js";
 import { applyAtTimes, growVectors } from "../linalg/phiTimes.js";
 import { KernelMemoryBuilder, padStencil, type Placed } from "../kernels/wasm.js";
 import type { Mesh } from "../mesh/types.js";
+import { divergence, divergenceLoop } from "../mesh/operators.js";
 import type { ShallowWaterModel, StateLayout } from "./shallowWater.js";
 import { isRegularHexMesh, restLinearOperator, type RestLinearOperator } from "./linear.js";
 import { estimateSpectralBound } from "../linalg/spectralBound.js";
@@ -348,19 +349,13 @@ export function modalRestriction(model: ShallowWaterModel, nModes: number, rest:
     // velocity: P_u (L̂ y)_u
     applyVelocity(modalTmp2, y);
     prolongVelocity(out, uOffset, modalTmp2);
-    // thickness: −D(Ĥ_k (P_u y)_k)
+    // thickness: −D(Ĥ_k (P_u y)_k), the divergence of the layer transports (the mesh's divergence kernel)
     prolongVelocity(layerU, 0, y);
-    for (let k = 0; k < L; k++) {
-      for (let i = 0; i < nc; i++) {
-        let acc = 0;
-        for (let q = cOff[i]; q < cOff[i + 1]; q++) {
-          const e = cIdx[q];
-          acc += cSgn[q] * len[e] * Hedge[k * ne + e] * layerU[k * ne + e];
-        }
-        out[k * nc + i] = -acc / cellArea[i];
-      }
-    }
+    for (let q = 0; q < L * ne; q++) layerU[q] *= Hedge[q];
+    for (let k = 0; k < L; k++) div(out, mesh, layerU, k * nc, k * ne);
+    for (let q = 0; q < L * nc; q++) out[q] = -out[q];
   }
+  const div = model.kernels === "wasm" ? divergence : divergenceLoop;
 
   // the same operator as WebAssembly kernels (diagonal blocks, or two coupled modes); null = the loops above
   const wasm = model.kernels === "wasm" && (diagonal || m === 2)
