@@ -75,9 +75,15 @@ describe("option choices of the registered methods", () => {
         }
       }
     }
+    // with modes:N every filter is refused, as its declared conflict says (the restricted φ keeps v/k! unfiltered)
+    const modesConflicts = os.get("linear")!.choices!.find((c) => c.value === "modes:1")!.conflicts ?? [];
+    expect(modesConflicts.find((k) => k.key === "filter")?.values).toEqual([8, 16]);
+    expect(modesConflicts.find((k) => k.key === "backend")?.values).toEqual(["rational-damped"]);
+    expect(() => build({ method: "etdrk4", linear: "modes:1", backend: "chebyshev", filter: 8 })).toThrow(/^stepper\.filter: the filter works with linear rest/);
+    expect(() => build({ method: "etdrk4", linear: "modes:2", backend: "rational-damped", filter: { order: 16, cutoff: 1e-3 } })).toThrow(/stepper\.filter: the filter \(and so rational-damped\)/);
     for (const f of os.get("filter")!.choices!) {
       for (const be of os.get("backend")!.choices!) {
-        const spec = { method: "etdrk4", linear: "modes:1", backend: be.value, filter: f.value };
+        const spec = { method: "etdrk4", linear: "rest", backend: be.value, filter: f.value };
         // a conflict may be declared on either side (the filter choice, or the backend choice)
         const clash = (f.conflicts ?? []).some((k) => k.key === "backend" && k.values.includes(be.value)) ||
           (be.conflicts ?? []).some((k) => k.key === "filter" && k.values.includes(f.value));

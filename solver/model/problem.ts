@@ -373,7 +373,12 @@ function buildProblem(model: ShallowWaterModel): ModelProblem {
       solve: (out, b, gamma) => r.solve(out, b, gamma),
       linearize() {},
       phi(req = {}) {
-        const { backend, opts, maxPhi } = phiOptions(req, r.operator.spectralBound, 1);
+        const { backend, opts, maxPhi, field } = phiOptions(req, r.operator.spectralBound, 1);
+        // the restricted φ keeps its identity part v/k! unfiltered (exact layer mass), so a filter inside the modal φ
+        // would leave the waves it removes to explicit Euler (measured: a blow-up within a few steps)
+        if (opts.filter) {
+          throw new SolverError("bad-input", `${field}.filter: the filter${backend === "rational-damped" ? " (and so rational-damped)" : ""} works with linear rest (or jacobian) only, not modes:${modes}: with modes:N the waves it removes would be stepped by explicit Euler`, `${field}.filter`);
+        }
         return counted(restrictedPhiAction(r, createPhiAction(backend, r.operator, opts), maxPhi));
       },
     };

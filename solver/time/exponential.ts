@@ -148,6 +148,12 @@ const SKEW_ONLY_BACKENDS = ["chebyshev", "rational", "rational-damped"];
 const FILTER_BACKENDS = ["chebyshev", "rational-damped"];
 /** Backends whose filter needs an explicit cut-off frequency (the offered filter orders alone do not do). */
 const CUTOFF_BACKENDS = ["rational-damped"];
+/**
+ * Why a φ filter (and so rational-damped) needs linear rest or jacobian: the φ-functions of a modes:N part are
+ * v/k! + τ Π̃ L P φ_{k+1}(τL̂) R v (exact layer mass); a filter inside the modal φ leaves the v/k! part unfiltered,
+ * so the waves it removes are stepped by explicit Euler — measured to blow up within a few steps.
+ */
+export const MODES_FILTER_REASON = "the filter works with linear rest (or jacobian) only: with modes:N the waves it removes would be stepped by explicit Euler";
 /** Declared bound on the time sub-steps inside one φ-action. */
 export const MAX_PHI_SUBSTEPS = 10_000;
 
@@ -162,6 +168,10 @@ function linearChoices(nLayers: number): OptionChoice[] {
       help: k === 1
         ? "only the fastest (depth-mean) wave is treated exactly, everything else as the nonlinear remainder"
         : `the rest-state operator restricted to the ${k} fastest of the ${nLayers} vertical modes`,
+      conflicts: [
+        { key: "filter", values: [8, 16], reason: MODES_FILTER_REASON },
+        { key: "backend", values: CUTOFF_BACKENDS, reason: MODES_FILTER_REASON },
+      ],
     });
   }
   choices.push({
