@@ -132,9 +132,10 @@ export function operatorShiftedSolver(
   let aValues: Float64Array | undefined, diagSlot: Uint8Array | undefined;
   let probeProducts = 0;
   const cache: { gamma: number; f: BlockLu }[] = [];
-  /** The WebAssembly substitution of each cached factorization (null: the TypeScript one), and the ordering it gathers by. */
+  /** The WebAssembly substitution of each cached factorization (null: the TypeScript one). */
   const kernels = new WeakMap<BlockLu, ((out: Float64Array, c: Float64Array) => void) | null>();
-  let gatherIndex: Int32Array | undefined;
+  /** Entry q of the factor's order is entry gather[q] of the caller's vectors (set with the pattern). */
+  let gather: Int32Array | undefined;
   const perm = new Float64Array(n), blockTmp = new Float64Array(nComp);
   const bb = nComp * nComp;
   /** Original index of the unknown (node, component). */
@@ -173,6 +174,8 @@ export function operatorShiftedSolver(
       }
     }
     pattern = pat; sym = s; kValues = kv; diagSlot = diag;
+    gather = new Int32Array(n);
+    for (let P = 0; P < pat.order.length; P++) for (let d = 0; d < nComp; d++) gather[P * nComp + d] = orig(pat.order[P], d);
     work = blockLuWork(order.length, nComp);
     aValues = new Float64Array(kv.length);
     stats.unknowns = pat.n;
@@ -287,22 +290,11 @@ export function operatorShiftedSolver(
     solve(xRe, xIm, rRe, rIm, sr, si) {
       if (!Number.isFinite(sr) || !Number.isFinite(si)) throw new SolverError("bad-input", `${field}: complex shift ${sr} + ${si}i must be finite`, field);
       const f = complexFactor(sr, si);
-      const order = pattern!.order;
-      if (nComp === 1) {
-        for (let P = 0; P < order.length; P++) { const i = order[P]; permRe[P] = rRe[i]; permIm[P] = rIm[i]; }
-        complexLuSolveInPlace(f as ComplexLu, permRe, permIm);
-        for (let P = 0; P < order.length; P++) { const i = order[P]; xRe[i] = permRe[P]; xIm[i] = permIm[P]; }
-      } else {
-        for (let P = 0; P < order.length; P++) {
-          const node = order[P];
-          for (let d = 0; d < nComp; d++) { const o = orig(node, d); permRe[P * nComp + d] = rRe[o]; permIm[P * nComp + d] = rIm[o]; }
-        }
-        complexBlockLuSolveInPlace(f as ComplexBlockLu, permRe, permIm, tmp2);
-        for (let P = 0; P < order.length; P++) {
-          const node = order[P];
-          for (let d = 0; d < nComp; d++) { const o = orig(node, d); xRe[o] = permRe[P * nComp + d]; xIm[o] = permIm[P * nComp + d]; }
-        }
-      }
+      const g = gather!;
+      for (let q = 0; q < n; q++) { permRe[q] = rRe[g[q]]; permIm[q] = rIm[g[q]]; }
+      if (nComp === 1) complexLuSolveInPlace(f as ComplexLu, permRe, permIm);
+      else complexBlockLuSolveInPlace(f as ComplexBlockLu, permRe, permIm, tmp2);
+      for (let q = 0; q < n; q++) { xRe[g[q]] = permRe[q]; xIm[g[q]] = permIm[q]; }
       cStats.solves++;
       op.counters.matvecs += cStats.matvecsPerSolve;
     },
@@ -314,29 +306,18 @@ export function operatorShiftedSolver(
     solve(y, c, gamma) {
       if (!Number.isFinite(gamma)) throw new SolverError("bad-input", `${field}: shift γ = ${gamma} must be finite`, field);
       const f = factorFor(gamma);
-      const pat = pattern!;
-      const order = pat.order;
+      const g = gather!;
       let kernel = kernels.get(f);
       if (kernel === undefined) {
-        if (!gatherIndex) {
-          gatherIndex = new Int32Array(n);
-          for (let P = 0; P < order.length; P++) for (let d = 0; d < nComp; d++) gatherIndex[P * nComp + d] = orig(order[P], d);
-        }
-        kernel = wasmBlockLuSolver(f, gatherIndex);
+        kernel = wasmBlockLuSolver(f, g);
         kernels.set(f, kernel);
       }
       if (kernel) {
         kernel(y, c);
       } else {
-        for (let P = 0; P < order.length; P++) {
-          const node = order[P];
-          for (let d = 0; d < nComp; d++) perm[P * nComp + d] = c[orig(node, d)];
-        }
+        for (let q = 0; q < n; q++) perm[q] = c[g[q]];
         blockLuSolveInPlace(f, perm, blockTmp);
-        for (let P = 0; P < order.length; P++) {
-          const node = order[P];
-          for (let d = 0; d < nComp; d++) y[orig(node, d)] = perm[P * nComp + d];
-        }
+        for (let q = 0; q < n; q++) y[g[q]] = perm[q];
       }
       stats.solves++;
       op.counters.matvecs += stats.matvecsPerSolve;
