@@ -5,7 +5,8 @@ import { StatisticsView } from "./StatisticsView.js";
 import { failureMessage } from "../../workers/client.js";
 import { StabilityView } from "./StabilityView.js";
 import { SweepView } from "./SweepView.js";
-import { lastCode, loadCode } from "../code/userCode.js";
+import { lastCode, loadCode, moduleKey } from "../code/userCode.js";
+import { EDITOR_MODULE_PREFIX } from "../../solver/scenario/stepperCode.js";
 import { locateInSource, transpile, type Transpiled } from "../code/transpile.js";
 
 /**
@@ -55,7 +56,7 @@ function studyModules(list: readonly Record<string, unknown>[]): { modules: { ke
   for (const spec of list) {
     const key = typeof spec.module === "string" ? spec.module : null;
     if (!key || maps.has(key)) continue;
-    const name = key.slice("editor:".length);
+    const name = key.slice(EDITOR_MODULE_PREFIX.length);
     const code = loadCode(name);
     if (!code) throw { name: "SolverError", code: "bad-input", field: "steppers", message: `steppers: ${key}: the code panel holds no stepper named "${name}" (write or open it there; it is kept once applied)` } satisfies WorkerFailure;
     const t = transpile(code.source, code.language, name);
@@ -160,7 +161,7 @@ export function StudiesPanel({ scenario, scenarioName, outlines }: { scenario: (
         </div>
         <label>Steppers <input data-testid="study-steppers" value={steppers} onChange={(e) => setSteppers(e.target.value)} size={44} disabled={running}
           title="comma-separated, options in parentheses: rk4,etdrk4(linear=modes:1;backend=krylov); editor:NAME for the code panel's stepper NAME" /></label>
-        {mine && <span className="hint" data-testid="study-own-stepper">your stepper: <code>editor:{mine}</code></span>}
+        {mine && <span className="hint" data-testid="study-own-stepper">your stepper: <code>{moduleKey(mine)}</code></span>}
         {kind === "stability" ? (
           <>
             <label>Trial length [s] <input data-testid="study-trial-duration" value={trialDuration} placeholder="default" onChange={(e) => setTrialDuration(e.target.value)} size={8} disabled={running}
