@@ -120,7 +120,6 @@ export class StudyPool {
     this.cancel();
     for (const s of this.slots) s.worker.terminate();
     this.slots = [];
-    this.origins = [];
   }
 
   private begin(): void {
